@@ -1,0 +1,24 @@
+"""dedup: near-duplicate and similarity audits of bodies of text.
+
+>>> import dedup
+>>> result = dedup.audit(["fixtures/demo/kb"], dedup.AuditSettings(threshold=0.8))  # doctest: +SKIP
+>>> result.write("audit-out")  # doctest: +SKIP
+
+The tool only reads its inputs. A similarity flag is evidence for a person to review,
+not a verdict; proposed actions are proposals.
+"""
+
+from ._version import __version__
+from .ingest import InputError
+from .settings import AuditSettings, SettingsError
+
+__all__ = ["__version__", "audit", "AuditResult", "AuditSettings", "SettingsError", "InputError"]
+
+
+def __getattr__(name: str):
+    # The pipeline pulls in numba and scipy; load it only when asked for.
+    if name in ("audit", "AuditResult"):
+        from . import api
+
+        return getattr(api, name)
+    raise AttributeError(f"module 'dedup' has no attribute {name!r}")

@@ -1,0 +1,499 @@
+"""The Python entry point: ``dedup.audit(paths, settings) -> AuditResult``.
+
+Stages run in one direction (see the package layout): ingest → normalize (and the
+exact-duplicate pass) → features → sketch → candidates → verify → cluster. Between
+stages travel numpy arrays; only the final result is turned into records for output.
+The tool never modifies, moves or deletes any input: it only reads them and proposes
+actions.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import resource
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import __version__
+from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
+from .cluster import build_clusters
+from .cluster.actions import ClusterInputs
+from .features import build_features
+from .ingest import LedgerEntry, iter_documents, summarize
+from .normalize import canonical_text, content_hash, exact_groups, token_text
+from .progress import Progress
+from .settings import AuditSettings
+from .sketch import collision_stats, fit_tfidf, minhash_signatures
+from .verify import PairScores, deciding_score, score_pairs
+
+__all__ = ["audit", "AuditResult", "SCHEMA_VERSION"]
+
+SCHEMA_VERSION = "1.0"
+# A hashed feature space where more than this share of terms collide gets a warning.
+COLLISION_WARNING_SHARE = 0.05
+
+
+@dataclass
+class AuditResult:
+    """Everything an audit found, ready to be written as JSON, CSV and HTML.
+
+    Attributes
+    ----------
+    settings : AuditSettings
+    inputs : list of str
+        The paths as given.
+    ledger : list of LedgerEntry
+        One entry per input (file or record).
+    documents : list of dict
+        Every document read (including empty ones), in id order.
+    exact_groups : list of dict
+    pairs : list of dict
+        Confirmed pairs with all scores.
+    clusters : list of dict
+    actions : list of dict
+        One proposed action per document.
+    candidates : dict
+        How candidates were found and the expected recall.
+    tfidf : dict
+        Hashed feature space and its collisions.
+    warnings : list of dict
+    run : dict
+        Timings and peak memory of this run; not part of ``audit.json`` (which must
+        be byte-identical between runs) but written to ``run.json``.
+    texts : dict
+        Original text of every document, for the report's evidence view.
+    """
+
+    settings: AuditSettings
+    inputs: list[str]
+    ledger: list[LedgerEntry]
+    documents: list[dict]
+    exact_groups: list[dict]
+    pairs: list[dict]
+    clusters: list[dict]
+    actions: list[dict]
+    candidates: dict
+    tfidf: dict
+    warnings: list[dict]
+    summary: dict
+    audit_id: str
+    run: dict = field(default_factory=dict)
+    texts: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path)."""
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "tool": {"name": "dedup", "version": __version__},
+            "audit_id": self.audit_id,
+            "notice": NOTICE,
+            "inputs": self.inputs,
+            "settings": self.settings.to_dict(),
+            "summary": self.summary,
+            "candidates": self.candidates,
+            "tfidf": self.tfidf,
+            "warnings": self.warnings,
+            "ledger": [e.to_dict() for e in self.ledger],
+            "documents": self.documents,
+            "exact_groups": self.exact_groups,
+            "pairs": self.pairs,
+            "clusters": self.clusters,
+            "actions": self.actions,
+        }
+
+    def write(self, out_dir: str) -> dict[str, str]:
+        """Write every output file into ``out_dir``; returns name → path."""
+        from .report import write_outputs
+
+        return write_outputs(self, out_dir)
+
+
+NOTICE = (
+    "Similarity is evidence for a person to review, not a verdict: quotations, citations, shared "
+    "templates and common phrasing match too. This tool only reads its inputs; the actions are "
+    "proposals and no file has been changed, moved or deleted."
+)
+
+
+class _Stopwatch:
+    def __init__(self) -> None:
+        self.stages: dict[str, float] = {}
+        self._t = time.perf_counter()
+
+    def lap(self, stage: str) -> None:
+        now = time.perf_counter()
+        self.stages[stage] = round(now - self._t, 4)
+        self._t = now
+
+
+def _peak_rss_mb() -> float:
+    # ru_maxrss is in kilobytes on Linux.
+    return round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0, 1)
+
+
+def _date_of(value: object) -> float | None:
+    from datetime import datetime, timezone
+
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return float(value)
+    if isinstance(value, str) and value.strip():
+        try:
+            parsed = datetime.fromisoformat(value.strip().replace("Z", "+00:00"))
+        except ValueError:
+            return None
+        if parsed.tzinfo is None:
+            parsed = parsed.replace(tzinfo=timezone.utc)
+        return parsed.timestamp()
+    return None
+
+
+def _pair_record(ids: Sequence[str], scores: PairScores, i: int, kind: str, decided: float) -> dict:
+    return {
+        "left": ids[int(scores.left[i])],
+        "right": ids[int(scores.right[i])],
+        "kind": kind,
+        "deciding_score": decided,
+        "jaccard": float(scores.jaccard[i]),
+        "containment_left_in_right": float(scores.containment_left_in_right[i]),
+        "containment_right_in_left": float(scores.containment_right_in_left[i]),
+        "cosine": float(scores.cosine[i]),
+        "shared_shingles": int(scores.shared[i]),
+    }
+
+
+def audit(
+    paths: Sequence[str],
+    settings: AuditSettings | None = None,
+    *,
+    progress: Progress | None = None,
+) -> AuditResult:
+    """Audit files and folders for exact and near-duplicate documents.
+
+    Parameters
+    ----------
+    paths : sequence of str
+        Files and folders to read (folders are walked recursively).
+    settings : AuditSettings, optional
+        Every knob; defaults to ``AuditSettings()``.
+    progress : Progress, optional
+        Receives stage progress (the CLI draws it on stderr).
+
+    Returns
+    -------
+    AuditResult
+
+    Raises
+    ------
+    dedup.SettingsError
+        A setting is invalid (checked before any work).
+    dedup.InputError
+        A given path does not exist.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "a.txt").write_text("the quick brown fox jumps over the lazy dog")
+    >>> _ = (d / "b.txt").write_text("The quick brown fox jumps over the lazy dog!")
+    >>> audit([str(d)]).summary["exact_groups"]
+    1
+    """
+    settings = (settings or AuditSettings()).validate()
+    progress = progress or Progress.silent()
+    watch = _Stopwatch()
+
+    # -- ingest ---------------------------------------------------------------------
+    ledger: list[LedgerEntry] = []
+    progress.start("reading")
+    raw = []
+    for doc in iter_documents(
+        paths,
+        id_field=settings.id_field,
+        text_fields=settings.text_fields,
+        max_file_bytes=settings.max_file_bytes,
+        include_hidden=settings.include_hidden,
+        ledger=ledger,
+    ):
+        raw.append(doc)
+        progress.advance()
+    progress.done(f"{len(raw):,} documents")
+    raw.sort(key=lambda d: d.id)
+    watch.lap("ingest")
+
+    # -- normalize + exact pass -------------------------------------------------------
+    progress.start("normalizing", len(raw))
+    entry_of = {e.document_id: e for e in ledger if e.document_id}
+    kept = []  # documents with text
+    documents: list[dict] = []
+    canon_texts: list[str] = []
+    word_texts: list[str] = []
+    for doc in raw:
+        canonical = canonical_text(doc.text)
+        words = token_text(canonical)
+        has_text = bool(words) if not settings.char_ngrams else bool(canonical)
+        record = {
+            "id": doc.id,
+            "source": doc.source,
+            "format": doc.format,
+            "title": doc.title,
+            "bytes": len(doc.text.encode("utf-8")),
+            "characters": len(canonical),
+            "content_hash": content_hash(canonical),
+            "status": "read" if has_text else "empty",
+        }
+        if settings.keeper_policy in ("newest", "oldest"):
+            value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
+            record["date"] = _date_of(value)
+        documents.append(record)
+        if has_text:
+            kept.append((doc, record))
+            canon_texts.append(canonical)
+            word_texts.append(words)
+        else:
+            entry = entry_of.get(doc.id)
+            if entry is not None:
+                entry.status = "empty"
+                entry.reason = "no text" if not canonical else "no words after normalization"
+        progress.advance()
+    progress.done()
+    ids = [rec["id"] for _, rec in kept]
+    hashes = [rec["content_hash"] for _, rec in kept]
+    representative, groups = exact_groups(hashes)
+    rep_docs = np.flatnonzero(representative == np.arange(len(kept)))
+    rep_position = np.full(len(kept), -1, dtype=np.int64)
+    rep_position[rep_docs] = np.arange(rep_docs.shape[0])
+    doc_to_rep = rep_position[representative] if len(kept) else np.zeros(0, np.int64)
+    watch.lap("normalize")
+
+    # -- features + sketches ----------------------------------------------------------
+    progress.start("shingling", int(rep_docs.shape[0]))
+    rep_word_texts = [word_texts[i] for i in rep_docs.tolist()]
+    features = build_features(
+        rep_word_texts,
+        shingle_size=settings.shingle_size,
+        char_ngrams=settings.char_ngrams,
+        hash_scheme=settings.hash_scheme,
+    )
+    progress.done()
+    watch.lap("features")
+    model = fit_tfidf(
+        features.token_hashes,
+        features.token_offsets,
+        n_features=settings.tfidf_features,
+        sublinear_tf=settings.sublinear_tf,
+    )
+    tfidf_info = collision_stats(features.token_hashes, settings.tfidf_features)
+    tfidf_info["sublinear_tf"] = settings.sublinear_tf
+    tfidf_info["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
+    watch.lap("tfidf")
+
+    # -- candidates -------------------------------------------------------------------
+    n_reps = int(rep_docs.shape[0])
+    lsh_threshold = settings.effective_candidate_threshold
+    if settings.bands is not None:
+        bands, rows = settings.bands, settings.rows
+    else:
+        bands, rows = choose_bands(lsh_threshold, settings.num_perm, settings.false_positive_weight)
+    method = settings.candidates
+    if method == "auto":
+        method = "exhaustive" if n_reps <= settings.exhaustive_max_docs else "lsh"
+    oversize: list[dict] = []
+    progress.start("candidates")
+    if method == "lsh":
+        signatures = minhash_signatures(
+            features.shingles,
+            features.shingle_offsets,
+            num_perm=settings.num_perm,
+            seed=settings.seed,
+            hash_scheme=settings.hash_scheme,
+            shingle_spec=features.spec,
+        )
+        watch.lap("minhash")
+        left, right, oversize = lsh_candidate_pairs(signatures.values, bands, rows, settings.bucket_limit)
+    else:
+        cosine_extra = settings.threshold if settings.measure == "cosine" else None
+        left, right = exhaustive_candidate_pairs(
+            features.shingles, features.shingle_offsets, model.rows, cosine_extra
+        )
+    progress.done(f"{left.shape[0]:,} pairs")
+    watch.lap("candidates")
+
+    recall = recall_statement(lsh_threshold, bands, rows)
+    candidates_info = {
+        "method": method,
+        "reason": (
+            f"{n_reps} distinct texts: every pair sharing a shingle is compared exactly (no pair is missed)"
+            if method == "exhaustive"
+            else f"{n_reps} distinct texts: MinHash LSH with {bands} bands x {rows} rows"
+        ),
+        "lsh_threshold": lsh_threshold,
+        "bands": bands,
+        "rows": rows,
+        "expected_recall": recall,
+        "candidate_pairs": int(left.shape[0]),
+        "oversize_buckets": len(oversize),
+    }
+    if method == "exhaustive":
+        candidates_info["expected_recall"]["note"] = (
+            "exhaustive comparison: recall is 1.0; the probabilities are what LSH would give at this size"
+        )
+
+    # -- verify -----------------------------------------------------------------------
+    progress.start("verifying", int(left.shape[0]))
+    scores = score_pairs(features.shingles, features.shingle_offsets, model.rows, left, right)
+    decided = deciding_score(scores, settings.measure) if len(scores) else np.zeros(0)
+    confirmed = scores.select(decided >= settings.threshold)
+    confirmed_decided = decided[decided >= settings.threshold]
+    progress.done(f"{len(confirmed):,} confirmed")
+    watch.lap("verify")
+
+    # -- cluster ----------------------------------------------------------------------
+    rep_ids = [ids[i] for i in rep_docs.tolist()]
+    edge_left = [rep_docs[confirmed.left], np.zeros(0, np.int64)]
+    edge_right = [rep_docs[confirmed.right], np.zeros(0, np.int64)]
+    edge_score: dict[tuple[int, int], float] = {}
+    for a, b, s in zip(edge_left[0].tolist(), edge_right[0].tolist(), confirmed_decided.tolist()):
+        edge_score[(min(a, b), max(a, b))] = float(s)
+    exact_left, exact_right = [], []
+    for group in groups:
+        for member in group[1:]:
+            exact_left.append(group[0])
+            exact_right.append(member)
+            edge_score[(group[0], member)] = 1.0
+    all_left = np.concatenate([edge_left[0], np.asarray(exact_left, np.int64)])
+    all_right = np.concatenate([edge_right[0], np.asarray(exact_right, np.int64)])
+
+    def score_against(members: np.ndarray, keepers: np.ndarray) -> PairScores:
+        return score_pairs(
+            features.shingles, features.shingle_offsets, model.rows, doc_to_rep[members], doc_to_rep[keepers]
+        )
+
+    cluster_inputs = ClusterInputs(
+        ids=ids,
+        lengths=[rec["characters"] for _, rec in kept],
+        sizes=[rec["bytes"] for _, rec in kept],
+        dates=[rec.get("date") for _, rec in kept],
+        representative=representative,
+    )
+    clusters, roles = build_clusters(cluster_inputs, all_left, all_right, edge_score, score_against, settings)
+    watch.lap("cluster")
+
+    # -- records ----------------------------------------------------------------------
+    pairs = [_pair_record(rep_ids, confirmed, i, "near", float(confirmed_decided[i])) for i in range(len(confirmed))]
+    for a, b in zip(exact_left, exact_right):
+        pairs.append(
+            {
+                "left": ids[a],
+                "right": ids[b],
+                "kind": "exact",
+                "deciding_score": 1.0,
+                "jaccard": 1.0,
+                "containment_left_in_right": 1.0,
+                "containment_right_in_left": 1.0,
+                "cosine": 1.0,
+                "shared_shingles": int(np.diff(features.shingle_offsets)[doc_to_rep[a]]),
+            }
+        )
+    pairs.sort(key=lambda p: (-p["deciding_score"], p["left"], p["right"]))
+
+    exact_records = [
+        {"content_hash": hashes[g[0]], "size": len(g), "members": [ids[m] for m in g]} for g in groups
+    ]
+    kept_index = {rec["id"]: i for i, (_, rec) in enumerate(kept)}
+    actions = []
+    for rec in documents:
+        i = kept_index.get(rec["id"])
+        if rec["status"] == "empty":
+            actions.append(_action(rec["id"], "review", None, None, "document has no text"))
+        elif i in roles:
+            role = roles[i]
+            actions.append(_action(rec["id"], role["action"], role["in_favour_of"], role["cluster_id"], role["reason"]))
+        else:
+            actions.append(_action(rec["id"], "keep", None, None, "no duplicate found at the threshold"))
+
+    warnings = []
+    for bucket in oversize:
+        members = [rep_ids[m] for m in bucket["members"][:5].tolist()]
+        warnings.append(
+            {
+                "kind": "oversize-bucket",
+                "message": (
+                    f"{bucket['size']} documents share a band bucket in {len(bucket['bands'])} band(s), "
+                    f"probably shared boilerplate; only neighbouring members were compared"
+                ),
+                "size": int(bucket["size"]),
+                "bands": [int(b) for b in bucket["bands"]],
+                "sample": members,
+            }
+        )
+    if tfidf_info["expected_colliding_share"] > COLLISION_WARNING_SHARE:
+        warnings.append(
+            {
+                "kind": "tfidf-collisions",
+                "message": (
+                    f"{tfidf_info['expected_colliding_share']:.1%} of the {tfidf_info['vocabulary_size']:,} terms are "
+                    f"expected to share a TF-IDF column; raise --tfidf-features above {settings.tfidf_features:,}"
+                ),
+            }
+        )
+
+    ledger_counts = summarize(ledger)
+    in_clusters = sum(c["size"] for c in clusters)
+    summary = {
+        "inputs": ledger_counts,
+        "documents": len(documents),
+        "documents_with_text": len(kept),
+        "distinct_texts": n_reps,
+        "exact_groups": len(groups),
+        "documents_in_exact_groups": sum(len(g) for g in groups),
+        "candidate_pairs": int(left.shape[0]),
+        "confirmed_pairs": len(pairs),
+        "near_pairs": len(confirmed),
+        "clusters": len(clusters),
+        "documents_in_clusters": in_clusters,
+        "linked_through": sum(1 for r in roles.values() if r["role"] == "linked-through"),
+        "retire_documents": sum(1 for a in actions if a["action"] == "retire"),
+        "retire_bytes": sum(c["retire_bytes"] for c in clusters),
+        "review_documents": sum(1 for a in actions if a["action"] == "review"),
+    }
+    audit_id = _audit_id(settings, documents)
+    run = {
+        "stages_seconds": watch.stages,
+        "total_seconds": round(sum(watch.stages.values()), 4),
+        "peak_rss_mb": _peak_rss_mb(),
+        "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+    }
+    texts = {doc.id: doc.text for doc in raw}
+    return AuditResult(
+        settings=settings,
+        inputs=list(paths),
+        ledger=ledger,
+        documents=documents,
+        exact_groups=exact_records,
+        pairs=pairs,
+        clusters=clusters,
+        actions=actions,
+        candidates=candidates_info,
+        tfidf=tfidf_info,
+        warnings=warnings,
+        summary=summary,
+        audit_id=audit_id,
+        run=run,
+        texts=texts,
+    )
+
+
+def _action(doc_id: str, action: str, favour: str | None, cluster: str | None, reason: str) -> dict:
+    return {"document_id": doc_id, "action": action, "in_favour_of": favour, "cluster_id": cluster, "reason": reason}
+
+
+def _audit_id(settings: AuditSettings, documents: list[dict]) -> str:
+    digest = hashlib.blake2b(digest_size=8)
+    digest.update(json.dumps(settings.to_dict(), sort_keys=True).encode())
+    for rec in documents:
+        digest.update(f"{rec['id']}\0{rec['content_hash']}\n".encode())
+    return digest.hexdigest()

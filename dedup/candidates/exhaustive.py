@@ -1,0 +1,46 @@
+"""Exhaustive candidates: every pair that shares a shingle, found by a sparse product.
+
+For small corpora comparing all pairs exactly is cheap and leaves nothing to chance:
+with a binary documents × shingles matrix A, (A Aᵀ)[i, j] is the number of shingles
+documents i and j share. Cost O(sum over shingles of df²), fine for a few thousand
+documents.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+__all__ = ["exhaustive_candidate_pairs"]
+
+
+def exhaustive_candidate_pairs(
+    shingles: np.ndarray,
+    shingle_offsets: np.ndarray,
+    tfidf_rows: sp.csr_matrix | None = None,
+    cosine_threshold: float | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs ``(left < right)`` sharing at least one shingle.
+
+    With ``tfidf_rows`` and ``cosine_threshold``, pairs whose TF-IDF cosine reaches the
+    threshold are added too (cosine can be high without any shared shingle, e.g. when
+    sentences are reordered word by word).
+    """
+    n_docs = shingle_offsets.shape[0] - 1
+    if n_docs < 2:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    _, columns = np.unique(shingles, return_inverse=True)
+    rows = np.repeat(np.arange(n_docs, dtype=np.int64), np.diff(shingle_offsets))
+    incidence = sp.csr_matrix(
+        (np.ones(columns.shape[0], dtype=np.int32), (rows, columns.ravel())),
+        shape=(n_docs, int(columns.max()) + 1 if columns.size else 0),
+    )
+    shared = sp.triu(incidence @ incidence.T, k=1).tocoo()
+    left, right = [shared.row.astype(np.int64)], [shared.col.astype(np.int64)]
+    if tfidf_rows is not None and cosine_threshold is not None:
+        close = sp.triu(tfidf_rows @ tfidf_rows.T, k=1).tocoo()
+        keep = close.data >= cosine_threshold - 1e-12
+        left.append(close.row[keep].astype(np.int64))
+        right.append(close.col[keep].astype(np.int64))
+    keys = np.unique(np.concatenate(left) * n_docs + np.concatenate(right))
+    return keys // n_docs, keys % n_docs

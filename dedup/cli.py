@@ -1,0 +1,210 @@
+"""Command line: a thin layer over `dedup.audit`.
+
+Exit codes
+----------
+0  the audit ran (whatever it found)
+1  ``--fail-on any`` and at least one cluster was found
+2  usage error: a bad option, a path that does not exist, an output folder that
+   cannot be written
+3  an unexpected internal error (reported in one line; please file it)
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+
+from . import __version__
+from .settings import CANDIDATE_METHODS, KEEPER_POLICIES, MEASURES, AuditSettings, SettingsError
+
+__all__ = ["main", "build_parser"]
+
+EXIT_OK, EXIT_FOUND, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
+
+CAUTION = (
+    "A similarity flag is evidence for a person to review, not a verdict: quotations, citations, "
+    "shared templates and common phrasing match too. dedup only reads its inputs: it never changes, "
+    "moves or deletes a file; the actions it writes are proposals."
+)
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> None:  # one line and exit 2, as documented
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_USAGE, f"dedup: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="dedup",
+        description="Find exact copies, near-copies and shared passages in a body of text, and propose what to keep.",
+        epilog=CAUTION,
+    )
+    parser.add_argument("--version", action="version", version=f"dedup {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = commands.add_parser(
+        "audit",
+        help="audit files and folders for duplicates",
+        description=(
+            "Audit files and folders (.txt .md .rst .html .htm, and .jsonl/.csv/.tsv records) for exact and "
+            "near-duplicate documents. Writes audit.json, pairs.csv, clusters.csv, actions.csv, ledger.csv, "
+            "run.json and report.html into --out."
+        ),
+        epilog=CAUTION + " Exit codes: 0 ran, 1 clusters found with --fail-on any, 2 usage error, 3 internal error.",
+        formatter_class=argparse.ArgumentDefaultsHelpFormatter,
+    )
+    d = AuditSettings()
+    p.add_argument("paths", nargs="+", metavar="PATH", help="files and folders to read (folders recursively)")
+    p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
+    g = p.add_argument_group("what counts as a duplicate")
+    g.add_argument("--threshold", type=float, default=d.threshold, help="score at or above which a pair is a near-duplicate")
+    g.add_argument("--measure", choices=MEASURES, default=d.measure, help="the exact score that decides")
+    g.add_argument("--shingle-size", type=int, default=d.shingle_size, metavar="K", help="words per shingle")
+    g.add_argument("--char-ngrams", type=int, default=None, metavar="N", help="use character N-grams instead of word shingles (for text without spaces)")
+    g = p.add_argument_group("candidate search (MinHash LSH)")
+    g.add_argument("--candidates", choices=CANDIDATE_METHODS, default=d.candidates, help="how candidate pairs are found; auto compares all pairs exactly for small inputs")
+    g.add_argument("--exhaustive-max-docs", type=int, default=d.exhaustive_max_docs, metavar="N", help="largest number of distinct texts for which auto compares all pairs")
+    g.add_argument("--candidate-threshold", type=float, default=None, metavar="J", help="Jaccard level the LSH bands are tuned for (default: the threshold for jaccard, 0.5 otherwise)")
+    g.add_argument("--num-perm", type=int, default=d.num_perm, metavar="N", help="MinHash permutations")
+    g.add_argument("--seed", type=int, default=d.seed, help="seed of the MinHash permutations")
+    g.add_argument("--bands", type=int, default=None, help="LSH bands (with --rows; default: chosen from the threshold)")
+    g.add_argument("--rows", type=int, default=None, help="rows per LSH band (with --bands)")
+    g.add_argument("--bucket-limit", type=int, default=d.bucket_limit, metavar="N", help="band buckets larger than this are reported and only partly compared")
+    g.add_argument("--hash-scheme", choices=("stable64", "datasketch-sha1"), default=d.hash_scheme, help="shingle hashing; datasketch-sha1 reproduces datasketch's MinHash (slow)")
+    g = p.add_argument_group("TF-IDF cosine")
+    g.add_argument("--tfidf-features", type=int, default=d.tfidf_features, metavar="N", help="size of the hashed feature space")
+    g.add_argument("--sublinear-tf", action="store_true", help="use 1 + ln(tf) for term frequency")
+    g = p.add_argument_group("what to keep")
+    g.add_argument("--keeper", choices=KEEPER_POLICIES, default=d.keeper_policy, help="how the document to keep is chosen in each cluster")
+    g.add_argument("--prefer", action="append", default=[], metavar="GLOB", help="path pattern that wins as keeper, in the order given (repeatable), e.g. 'current/**'")
+    g.add_argument("--date-field", default=None, metavar="FIELD", help="record field with a date for --keeper newest/oldest (else file modification time)")
+    g.add_argument("--retire-coverage", type=float, default=d.retire_coverage, metavar="SHARE", help="propose retiring a near-duplicate only if this share of it is in the keeper")
+    g = p.add_argument_group("inputs")
+    g.add_argument("--id-field", default=None, metavar="FIELD", help="record field holding the document id (.jsonl/.csv); default: the line or row number")
+    g.add_argument("--text-field", action="append", default=None, metavar="FIELD", help="record field(s) holding the text (repeatable; joined); default: text")
+    g.add_argument("--max-file-bytes", type=int, default=d.max_file_bytes, metavar="N", help="skip files larger than this")
+    g.add_argument("--include-hidden", action="store_true", help="also read hidden files and folders")
+    g = p.add_argument_group("running")
+    g.add_argument("--fail-on", choices=("none", "any"), default="none", help="exit with code 1 when any cluster is found")
+    g.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    return parser
+
+
+def _settings_from(args: argparse.Namespace) -> AuditSettings:
+    return AuditSettings(
+        threshold=args.threshold,
+        measure=args.measure,
+        candidate_threshold=args.candidate_threshold,
+        shingle_size=args.shingle_size,
+        char_ngrams=args.char_ngrams,
+        num_perm=args.num_perm,
+        seed=args.seed,
+        hash_scheme=args.hash_scheme,
+        bands=args.bands,
+        rows=args.rows,
+        bucket_limit=args.bucket_limit,
+        candidates=args.candidates,
+        exhaustive_max_docs=args.exhaustive_max_docs,
+        tfidf_features=args.tfidf_features,
+        sublinear_tf=args.sublinear_tf,
+        keeper_policy=args.keeper,
+        prefer=tuple(args.prefer),
+        date_field=args.date_field,
+        retire_coverage=args.retire_coverage,
+        id_field=args.id_field,
+        text_fields=tuple(args.text_field) if args.text_field else ("text",),
+        max_file_bytes=args.max_file_bytes,
+        include_hidden=args.include_hidden,
+        fail_on=args.fail_on,
+    )
+
+
+def _summary_lines(result, paths: dict[str, str]) -> list[str]:
+    s = result.summary
+    inputs = s["inputs"]
+    r = result.candidates["expected_recall"]["points"]
+    lines = [
+        f"inputs: {inputs['entries']:,} ({inputs['read']:,} read, {inputs['empty']:,} empty, {inputs['skipped']:,} skipped)",
+        f"exact-copy groups: {s['exact_groups']:,} ({s['documents_in_exact_groups']:,} documents)",
+        f"clusters: {s['clusters']:,} ({s['documents_in_clusters']:,} documents, {s['linked_through']:,} linked through another member)",
+        f"proposed: retire {s['retire_documents']:,} documents ({s['retire_bytes']:,} bytes), review {s['review_documents']:,}",
+        f"candidates: {result.candidates['reason']}",
+        (
+            f"expected recall: {r['at']['probability']:.1%} at Jaccard {r['at']['jaccard']}, "
+            f"{r['below']['probability']:.1%} at {r['below']['jaccard']}, {r['above']['probability']:.1%} at {r['above']['jaccard']}"
+        ),
+    ]
+    lines += [f"warning: {w['message']}" for w in result.warnings]
+    lines.append(f"report: {paths['report.html']}")
+    lines.append("note: flags are evidence for review, not verdicts; no file was changed.")
+    return lines
+
+
+def _run_audit(args: argparse.Namespace) -> int:
+    from .api import audit
+    from .ingest import InputError
+    from .progress import Progress, StderrProgress
+
+    try:
+        settings = _settings_from(args).validate()
+    except SettingsError as err:
+        print(f"dedup: error: {err}", file=sys.stderr)
+        return EXIT_USAGE
+    for path in args.paths:
+        if not os.path.exists(path):
+            print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
+            return EXIT_USAGE
+    out = args.out
+    if os.path.exists(out) and not os.path.isdir(out):
+        print(f"dedup: error: --out {out} exists and is not a folder", file=sys.stderr)
+        return EXIT_USAGE
+    try:
+        os.makedirs(out, exist_ok=True)
+    except OSError as err:
+        print(f"dedup: error: cannot create the output folder {out}: {err.strerror}", file=sys.stderr)
+        return EXIT_USAGE
+    if not os.access(out, os.W_OK):
+        print(f"dedup: error: the output folder {out} is not writable", file=sys.stderr)
+        return EXIT_USAGE
+    progress = Progress.silent() if args.quiet else StderrProgress()
+    try:
+        result = audit(args.paths, settings, progress=progress)
+    except InputError as err:
+        print(f"dedup: error: {err}", file=sys.stderr)
+        return EXIT_USAGE
+    try:
+        paths = result.write(out)
+    except OSError as err:
+        print(f"dedup: error: cannot write the outputs into {out}: {err}", file=sys.stderr)
+        return EXIT_USAGE
+    if not args.quiet:
+        print("\n".join(_summary_lines(result, paths)))
+    if settings.fail_on == "any" and result.summary["clusters"] > 0:
+        return EXIT_FOUND
+    return EXIT_OK
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return EXIT_USAGE
+    try:
+        if args.command == "audit":
+            return _run_audit(args)
+    except KeyboardInterrupt:
+        print("dedup: interrupted", file=sys.stderr)
+        return 130
+    except Exception as err:  # a bug of ours: one clear line, never a traceback
+        if os.environ.get("DEDUP_DEBUG"):
+            raise
+        print(f"dedup: internal error: {type(err).__name__}: {err} (set DEDUP_DEBUG=1 for details)", file=sys.stderr)
+        return EXIT_INTERNAL
+    return EXIT_USAGE
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,27 @@
+"""Report: audit.json, CSV exports and the HTML audit report."""
+
+from __future__ import annotations
+
+import os
+
+from .files import ACTION_COLUMNS, LEDGER_COLUMNS, PAIR_COLUMNS, CLUSTER_COLUMNS, cluster_rows, ensure_folder, write_csv, write_json
+from .html import render_html
+
+__all__ = ["write_outputs", "render_html"]
+
+
+def write_outputs(result, out_dir: str) -> dict[str, str]:
+    """Write all outputs of an audit into ``out_dir`` (created if needed)."""
+    ensure_folder(out_dir)
+    paths = {name: os.path.join(out_dir, name) for name in (
+        "audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv", "report.html", "run.json")}
+    data = result.to_dict()
+    write_json(paths["audit.json"], data)
+    write_csv(paths["pairs.csv"], result.pairs, PAIR_COLUMNS)
+    write_csv(paths["clusters.csv"], cluster_rows(result.clusters), CLUSTER_COLUMNS)
+    write_csv(paths["actions.csv"], result.actions, ACTION_COLUMNS)
+    write_csv(paths["ledger.csv"], [e.to_dict() for e in result.ledger], LEDGER_COLUMNS)
+    write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
+    with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
+        handle.write(render_html(result))
+    return paths

@@ -1,0 +1,86 @@
+"""TF-IDF rows checked against scikit-learn."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from sklearn.feature_extraction.text import TfidfVectorizer
+from sklearn.metrics.pairwise import cosine_similarity
+
+from dedup.features import build_features, tokens_of
+from dedup.normalize import canonical_text, token_text
+from dedup.sketch import collision_stats, fit_tfidf, pair_cosines
+
+TEXTS = [
+    "Reset your VPN password from the self-service portal before it expires.",
+    "The payroll portal password can be reset by the HR service desk.",
+    "Meter readings are estimated when the reader cannot reach the meter.",
+    "Estimated readings are corrected at the next actual meter reading.",
+    "Reset reset reset: the word repeats so term frequency matters here.",
+    "portal",
+]
+
+
+def _ours(texts, sublinear, n_features=2**32):
+    words = [token_text(canonical_text(t)) for t in texts]
+    fs = build_features(words, shingle_size=1)
+    model = fit_tfidf(fs.token_hashes, fs.token_offsets, n_features=n_features, sublinear_tf=sublinear)
+    return words, fs, model
+
+
+@pytest.mark.parametrize("sublinear", [False, True])
+def test_rows_equal_scikit_learn_tfidf_vectorizer(sublinear):
+    """Reference: sklearn.feature_extraction.text.TfidfVectorizer(smooth_idf=True, norm='l2'),
+    fed the same tokens. With a feature space of 2**32 no two of these terms share a column,
+    so every sklearn column maps to exactly one of ours (token hash mod 2**32)."""
+    words, fs, model = _ours(TEXTS, sublinear)
+    ref = TfidfVectorizer(analyzer=tokens_of, smooth_idf=True, norm="l2", sublinear_tf=sublinear)
+    expected = ref.fit_transform(words).toarray()
+    vocabulary = ref.get_feature_names_out()
+    hashes = build_features([" ".join(vocabulary)], shingle_size=1).token_hashes
+    columns = (hashes % np.uint64(2**32)).astype(np.int64)
+    assert len(set(columns.tolist())) == len(vocabulary)
+    position = {c: i for i, c in enumerate(columns.tolist())}
+    coo = model.rows.tocoo()
+    ours = np.zeros_like(expected)
+    for r, c, v in zip(coo.row, coo.col, coo.data):
+        ours[r, position[int(c)]] = v  # a KeyError here would be a column sklearn does not have
+    np.testing.assert_allclose(ours, expected, rtol=0, atol=1e-12)
+    # Every row is unit length, so no weight lies outside the compared columns.
+    np.testing.assert_allclose(np.asarray(model.rows.multiply(model.rows).sum(axis=1)).ravel(), 1.0, atol=1e-12)
+
+
+def test_pair_cosines_equal_scikit_learn_cosine_similarity():
+    """Reference: sklearn.metrics.pairwise.cosine_similarity on the same rows."""
+    _, _, model = _ours(TEXTS, False, n_features=2**20)
+    n = len(TEXTS)
+    left, right = np.triu_indices(n, k=1)
+    expected = cosine_similarity(model.rows)[left, right]
+    np.testing.assert_allclose(pair_cosines(model.rows, left, right), expected, atol=1e-12)
+
+
+def test_idf_is_minimal_for_a_term_in_every_document_and_falls_with_df():
+    """Log idf (common practice, no source; natural log as scikit-learn uses): a term present in
+    every document gets the minimum idf, ln((1+n)/(1+n)) + 1 = 1, and idf falls strictly as document
+    frequency rises."""
+    texts = ["common rare1 mid", "common mid", "common mid other", "common"]
+    words = [token_text(t) for t in texts]
+    fs = build_features(words, shingle_size=1)
+    model = fit_tfidf(fs.token_hashes, fs.token_offsets, n_features=2**30)
+
+    def idf(term):
+        h = build_features([term], shingle_size=1).token_hashes[0]
+        return float(model.idf(np.array([int(h % np.uint64(2**30))]))[0])
+
+    assert idf("common") == pytest.approx(1.0, abs=1e-15)
+    assert idf("common") < idf("mid") < idf("rare1")
+    assert idf("rare1") == pytest.approx(np.log(5 / 2) + 1)
+
+
+def test_collision_share_expected_and_measured():
+    rng = np.random.default_rng(0)
+    hashes = rng.integers(0, 2**63, size=20_000, dtype=np.uint64)
+    stats = collision_stats(hashes, 2**14)
+    # Expected 1 - (1 - 1/m)^(V-1) ≈ 1 - exp(-V/m) for V = 20,000, m = 16,384 (common practice, no source).
+    assert stats["expected_colliding_share"] == pytest.approx(1 - np.exp(-19_999 / 2**14), rel=1e-3)
+    assert abs(stats["measured_colliding_share"] - stats["expected_colliding_share"]) < 0.02
