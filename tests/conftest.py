@@ -41,11 +41,16 @@ def demo_path() -> Path:
     return DEMO
 
 
-def snapshot(folder: Path) -> dict[str, tuple[bytes, int]]:
+@pytest.fixture
+def snapshot():
     """Content and modification time of every file under a folder."""
-    out = {}
-    for dirpath, _, names in os.walk(folder):
-        for name in names:
-            p = Path(dirpath) / name
-            out[str(p)] = (p.read_bytes(), p.stat().st_mtime_ns)
-    return out
+
+    def take(folder: Path) -> dict[str, tuple[bytes, int]]:
+        out = {}
+        for dirpath, _, names in os.walk(folder):
+            for name in names:
+                p = Path(dirpath) / name
+                out[str(p)] = (p.read_bytes(), p.stat().st_mtime_ns)
+        return out
+
+    return take
