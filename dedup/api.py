@@ -383,7 +383,10 @@ def audit(
     watch.lap("cluster")
 
     # -- records ----------------------------------------------------------------------
-    pairs = [_pair_record(rep_ids, confirmed, i, "near", float(confirmed_decided[i])) for i in range(len(confirmed))]
+    pairs = [
+        _pair_record(rep_ids, confirmed, i, "near", float(confirmed_decided[i]))
+        for i in range(len(confirmed))
+    ]
     for a, b in zip(exact_left, exact_right):
         pairs.append(
             {
@@ -411,7 +414,9 @@ def audit(
             actions.append(_action(rec["id"], "review", None, None, "document has no text"))
         elif i in roles:
             role = roles[i]
-            actions.append(_action(rec["id"], role["action"], role["in_favour_of"], role["cluster_id"], role["reason"]))
+            actions.append(
+                _action(rec["id"], role["action"], role["in_favour_of"], role["cluster_id"], role["reason"])
+            )
         else:
             actions.append(_action(rec["id"], "keep", None, None, "no duplicate found at the threshold"))
 
@@ -488,7 +493,13 @@ def audit(
 
 
 def _action(doc_id: str, action: str, favour: str | None, cluster: str | None, reason: str) -> dict:
-    return {"document_id": doc_id, "action": action, "in_favour_of": favour, "cluster_id": cluster, "reason": reason}
+    return {
+        "document_id": doc_id,
+        "action": action,
+        "in_favour_of": favour,
+        "cluster_id": cluster,
+        "reason": reason,
+    }
 
 
 def _audit_id(settings: AuditSettings, documents: list[dict]) -> str:

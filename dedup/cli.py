@@ -52,42 +52,134 @@ def build_parser() -> argparse.ArgumentParser:
             "near-duplicate documents. Writes audit.json, pairs.csv, clusters.csv, actions.csv, ledger.csv, "
             "run.json and report.html into --out."
         ),
-        epilog=CAUTION + " Exit codes: 0 ran, 1 clusters found with --fail-on any, 2 usage error, 3 internal error.",
+        epilog=CAUTION
+        + " Exit codes: 0 ran, 1 clusters found with --fail-on any, 2 usage error, 3 internal error.",
         formatter_class=argparse.ArgumentDefaultsHelpFormatter,
     )
     d = AuditSettings()
     p.add_argument("paths", nargs="+", metavar="PATH", help="files and folders to read (folders recursively)")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
     g = p.add_argument_group("what counts as a duplicate")
-    g.add_argument("--threshold", type=float, default=d.threshold, help="score at or above which a pair is a near-duplicate")
+    g.add_argument(
+        "--threshold",
+        type=float,
+        default=d.threshold,
+        help="score at or above which a pair is a near-duplicate",
+    )
     g.add_argument("--measure", choices=MEASURES, default=d.measure, help="the exact score that decides")
     g.add_argument("--shingle-size", type=int, default=d.shingle_size, metavar="K", help="words per shingle")
-    g.add_argument("--char-ngrams", type=int, default=None, metavar="N", help="use character N-grams instead of word shingles (for text without spaces)")
+    g.add_argument(
+        "--char-ngrams",
+        type=int,
+        default=None,
+        metavar="N",
+        help="use character N-grams instead of word shingles (for text without spaces)",
+    )
     g = p.add_argument_group("candidate search (MinHash LSH)")
-    g.add_argument("--candidates", choices=CANDIDATE_METHODS, default=d.candidates, help="how candidate pairs are found; auto compares all pairs exactly for small inputs")
-    g.add_argument("--exhaustive-max-docs", type=int, default=d.exhaustive_max_docs, metavar="N", help="largest number of distinct texts for which auto compares all pairs")
-    g.add_argument("--candidate-threshold", type=float, default=None, metavar="J", help="Jaccard level the LSH bands are tuned for (default: the threshold for jaccard, 0.5 otherwise)")
+    g.add_argument(
+        "--candidates",
+        choices=CANDIDATE_METHODS,
+        default=d.candidates,
+        help="how candidate pairs are found; auto compares all pairs exactly for small inputs",
+    )
+    g.add_argument(
+        "--exhaustive-max-docs",
+        type=int,
+        default=d.exhaustive_max_docs,
+        metavar="N",
+        help="largest number of distinct texts for which auto compares all pairs",
+    )
+    g.add_argument(
+        "--candidate-threshold",
+        type=float,
+        default=None,
+        metavar="J",
+        help="Jaccard level the LSH bands are tuned for (default: the threshold for jaccard, 0.5 otherwise)",
+    )
     g.add_argument("--num-perm", type=int, default=d.num_perm, metavar="N", help="MinHash permutations")
     g.add_argument("--seed", type=int, default=d.seed, help="seed of the MinHash permutations")
-    g.add_argument("--bands", type=int, default=None, help="LSH bands (with --rows; default: chosen from the threshold)")
+    g.add_argument(
+        "--bands", type=int, default=None, help="LSH bands (with --rows; default: chosen from the threshold)"
+    )
     g.add_argument("--rows", type=int, default=None, help="rows per LSH band (with --bands)")
-    g.add_argument("--bucket-limit", type=int, default=d.bucket_limit, metavar="N", help="band buckets larger than this are reported and only partly compared")
-    g.add_argument("--hash-scheme", choices=("stable64", "datasketch-sha1"), default=d.hash_scheme, help="shingle hashing; datasketch-sha1 reproduces datasketch's MinHash (slow)")
+    g.add_argument(
+        "--bucket-limit",
+        type=int,
+        default=d.bucket_limit,
+        metavar="N",
+        help="band buckets larger than this are reported and only partly compared",
+    )
+    g.add_argument(
+        "--hash-scheme",
+        choices=("stable64", "datasketch-sha1"),
+        default=d.hash_scheme,
+        help="shingle hashing; datasketch-sha1 reproduces datasketch's MinHash (slow)",
+    )
     g = p.add_argument_group("TF-IDF cosine")
-    g.add_argument("--tfidf-features", type=int, default=d.tfidf_features, metavar="N", help="size of the hashed feature space")
+    g.add_argument(
+        "--tfidf-features",
+        type=int,
+        default=d.tfidf_features,
+        metavar="N",
+        help="size of the hashed feature space",
+    )
     g.add_argument("--sublinear-tf", action="store_true", help="use 1 + ln(tf) for term frequency")
     g = p.add_argument_group("what to keep")
-    g.add_argument("--keeper", choices=KEEPER_POLICIES, default=d.keeper_policy, help="how the document to keep is chosen in each cluster")
-    g.add_argument("--prefer", action="append", default=[], metavar="GLOB", help="path pattern that wins as keeper, in the order given (repeatable), e.g. 'current/**'")
-    g.add_argument("--date-field", default=None, metavar="FIELD", help="record field with a date for --keeper newest/oldest (else file modification time)")
-    g.add_argument("--retire-coverage", type=float, default=d.retire_coverage, metavar="SHARE", help="propose retiring a near-duplicate only if this share of it is in the keeper")
+    g.add_argument(
+        "--keeper",
+        choices=KEEPER_POLICIES,
+        default=d.keeper_policy,
+        help="how the document to keep is chosen in each cluster",
+    )
+    g.add_argument(
+        "--prefer",
+        action="append",
+        default=[],
+        metavar="GLOB",
+        help="path pattern that wins as keeper, in the order given (repeatable), e.g. 'current/**'",
+    )
+    g.add_argument(
+        "--date-field",
+        default=None,
+        metavar="FIELD",
+        help="record field with a date for --keeper newest/oldest (else file modification time)",
+    )
+    g.add_argument(
+        "--retire-coverage",
+        type=float,
+        default=d.retire_coverage,
+        metavar="SHARE",
+        help="propose retiring a near-duplicate only if this share of it is in the keeper",
+    )
     g = p.add_argument_group("inputs")
-    g.add_argument("--id-field", default=None, metavar="FIELD", help="record field holding the document id (.jsonl/.csv); default: the line or row number")
-    g.add_argument("--text-field", action="append", default=None, metavar="FIELD", help="record field(s) holding the text (repeatable; joined); default: text")
-    g.add_argument("--max-file-bytes", type=int, default=d.max_file_bytes, metavar="N", help="skip files larger than this")
+    g.add_argument(
+        "--id-field",
+        default=None,
+        metavar="FIELD",
+        help="record field holding the document id (.jsonl/.csv); default: the line or row number",
+    )
+    g.add_argument(
+        "--text-field",
+        action="append",
+        default=None,
+        metavar="FIELD",
+        help="record field(s) holding the text (repeatable; joined); default: text",
+    )
+    g.add_argument(
+        "--max-file-bytes",
+        type=int,
+        default=d.max_file_bytes,
+        metavar="N",
+        help="skip files larger than this",
+    )
     g.add_argument("--include-hidden", action="store_true", help="also read hidden files and folders")
     g = p.add_argument_group("running")
-    g.add_argument("--fail-on", choices=("none", "any"), default="none", help="exit with code 1 when any cluster is found")
+    g.add_argument(
+        "--fail-on",
+        choices=("none", "any"),
+        default="none",
+        help="exit with code 1 when any cluster is found",
+    )
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
     return parser
 
@@ -201,7 +293,10 @@ def main(argv: list[str] | None = None) -> int:
     except Exception as err:  # a bug of ours: one clear line, never a traceback
         if os.environ.get("DEDUP_DEBUG"):
             raise
-        print(f"dedup: internal error: {type(err).__name__}: {err} (set DEDUP_DEBUG=1 for details)", file=sys.stderr)
+        print(
+            f"dedup: internal error: {type(err).__name__}: {err} (set DEDUP_DEBUG=1 for details)",
+            file=sys.stderr,
+        )
         return EXIT_INTERNAL
     return EXIT_USAGE
 

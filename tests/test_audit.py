@@ -12,7 +12,6 @@ import dedup
 from dedup import AuditSettings
 from dedup.cli import main
 
-
 BASE = (
     "Customers who receive an estimated bill can submit their own meter reading through the portal. "
     "The billing team checks every submitted reading against the previous actual reading and the usual "
@@ -54,7 +53,9 @@ def test_exact_near_and_unrelated(write_corpus):
 
 
 def test_chaining_is_marked_linked_through(write_corpus):
-    sentences = [f"Sentence number {i} explains step {i} of the procedure in plain words for staff." for i in range(20)]
+    sentences = [
+        f"Sentence number {i} explains step {i} of the procedure in plain words for staff." for i in range(20)
+    ]
     a = " ".join(sentences)
     b_sentences = sentences.copy()
     for i in (5,):
@@ -62,7 +63,13 @@ def test_chaining_is_marked_linked_through(write_corpus):
     c_sentences = b_sentences.copy()
     for i in (14,):
         c_sentences[i] = f"Another rewrite {i} changes this part with brand new wording for the readers."
-    root = write_corpus({"a.txt": a, "b.txt": " ".join(b_sentences) + " Extra closing words for length.", "c.txt": " ".join(c_sentences)})
+    root = write_corpus(
+        {
+            "a.txt": a,
+            "b.txt": " ".join(b_sentences) + " Extra closing words for length.",
+            "c.txt": " ".join(c_sentences),
+        }
+    )
     result = dedup.audit([str(root)], AuditSettings(threshold=0.8))
     cluster = result.clusters[0]
     roles = {m["document_id"]: m for m in cluster["members"]}
@@ -81,7 +88,9 @@ def test_chaining_is_marked_linked_through(write_corpus):
 
 def test_contained_article_is_found_with_containment(write_corpus):
     other = "Payment plans spread the cost of a large bill over six or twelve monthly instalments agreed with the customer."
-    root = write_corpus({"part.md": BASE, "merged.md": "Introduction to the merged page. " + BASE + " " + other * 3})
+    root = write_corpus(
+        {"part.md": BASE, "merged.md": "Introduction to the merged page. " + BASE + " " + other * 3}
+    )
     assert dedup.audit([str(root)]).clusters == []  # Jaccard is low
     result = dedup.audit([str(root)], AuditSettings(measure="containment"))
     assert result.clusters[0]["keeper"] == "merged.md"
@@ -132,7 +141,15 @@ def test_cli_outputs_and_exit_codes(write_corpus, tmp_path, capsys):
     assert main(["audit", str(root), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
     assert "exact-copy groups: 1" in printed and "expected recall" in printed
-    for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv", "report.html", "run.json"):
+    for name in (
+        "audit.json",
+        "pairs.csv",
+        "clusters.csv",
+        "actions.csv",
+        "ledger.csv",
+        "report.html",
+        "run.json",
+    ):
         assert (out / name).is_file(), name
     data = json.loads((out / "audit.json").read_text())
     assert data["schema_version"] == "1.0" and data["tool"]["version"] == dedup.__version__
@@ -188,7 +205,9 @@ def test_report_escapes_hostile_names_and_text(write_corpus, tmp_path):
     hostile = '<script>alert(1)</script><img src=x onerror="alert(2)">'
     root = write_corpus({"<b>bold</b>.md": hostile + " " + BASE, "two.md": hostile + " " + BASE})
     result = dedup.audit([str(root)])
-    html = (lambda p: open(p["report.html"], encoding="utf-8").read())(result.write(str(tmp_path / "out")))
+    paths = result.write(str(tmp_path / "out"))
+    with open(paths["report.html"], encoding="utf-8") as handle:
+        html = handle.read()
     assert "<script>alert" not in html and "<b>bold</b>" not in html
     assert "&lt;b&gt;bold&lt;/b&gt;.md" in html
     assert "Content-Security-Policy" in html and "default-src 'none'" in html

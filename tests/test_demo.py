@@ -47,7 +47,9 @@ def test_every_input_is_accounted_for(demo, demo_path):
 
 def test_exact_groups(demo):
     manifest, result = demo
-    assert sorted(sorted(g["members"]) for g in result.exact_groups) == sorted(sorted(g) for g in manifest["exact_groups"])
+    assert sorted(sorted(g["members"]) for g in result.exact_groups) == sorted(
+        sorted(g) for g in manifest["exact_groups"]
+    )
 
 
 def test_planted_near_pairs_share_a_cluster_and_unrelated_ones_do_not(demo):

@@ -78,7 +78,9 @@ def build_clusters(
         adjacency.setdefault(b, []).append(a)
 
     keepers = [
-        choose_keeper(g.tolist(), inputs.ids, inputs.lengths, inputs.dates, settings.keeper_policy, settings.prefer)
+        choose_keeper(
+            g.tolist(), inputs.ids, inputs.lengths, inputs.dates, settings.keeper_policy, settings.prefer
+        )
         for g in groups
     ]
     # Score every member whose text differs from its keeper's, all in one batch.
@@ -136,7 +138,12 @@ def build_clusters(
                 c_out = float(scores.containment_right_in_left[i])
                 cos = float(scores.cosine[i])
                 words = _score_words(settings.measure, jac, c_in, c_out, cos)
-                similarity = {"jaccard": jac, "containment_in_keeper": c_in, "keeper_containment": c_out, "cosine": cos}
+                similarity = {
+                    "jaccard": jac,
+                    "containment_in_keeper": c_in,
+                    "keeper_containment": c_out,
+                    "cosine": cos,
+                }
                 if float(decided[i]) >= settings.threshold:
                     kinds.add("near")
                     if c_in >= settings.retire_coverage:

@@ -115,7 +115,9 @@ def shingle_counts(token_offsets: np.ndarray, k: int) -> np.ndarray:
 
 
 @njit(cache=True, parallel=True)
-def word_shingles(tokens: np.ndarray, token_offsets: np.ndarray, shingle_offsets: np.ndarray, k: int) -> np.ndarray:
+def word_shingles(
+    tokens: np.ndarray, token_offsets: np.ndarray, shingle_offsets: np.ndarray, k: int
+) -> np.ndarray:
     """Order-sensitive hash of every run of ``k`` consecutive token hashes; O(tokens * k).
 
     A document shorter than ``k`` tokens gets a single shingle of all its tokens.

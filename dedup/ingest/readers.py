@@ -101,7 +101,9 @@ def _join_fields(record: dict, text_fields: Sequence[str]) -> tuple[str | None, 
         value = record[f]
         if value is None:
             continue
-        parts.append(value if isinstance(value, str) else json.dumps(value, ensure_ascii=False, sort_keys=True))
+        parts.append(
+            value if isinstance(value, str) else json.dumps(value, ensure_ascii=False, sort_keys=True)
+        )
     return "\n\n".join(parts), ""
 
 
@@ -122,7 +124,9 @@ def _record_documents(
     entries: list[LedgerEntry] = []
     seen_ids: set[str] = set()
     for label, record, problem in records:
-        entry = LedgerEntry(input=source, status="skipped", format=fmt, size=size, encoding=encoding, record=label)
+        entry = LedgerEntry(
+            input=source, status="skipped", format=fmt, size=size, encoding=encoding, record=label
+        )
         entries.append(entry)
         if record is None:
             entry.reason = problem
@@ -146,10 +150,10 @@ def _record_documents(
         entry.document_id = rid
         entry.status = "read"
         title = record.get("title") if isinstance(record.get("title"), str) else ""
-        metadata = {k: v for k, v in record.items() if k not in text_fields and isinstance(v, (str, int, float))}
-        docs.append(
-            RawDocument(rid, text, source, fmt, size, encoding, title or "", label, mtime, metadata)
-        )
+        metadata = {
+            k: v for k, v in record.items() if k not in text_fields and isinstance(v, (str, int, float))
+        }
+        docs.append(RawDocument(rid, text, source, fmt, size, encoding, title or "", label, mtime, metadata))
     return docs, entries
 
 
@@ -182,7 +186,10 @@ def _csv_records(text: str, delimiter: str, text_fields: Sequence[str]) -> tuple
     missing = [f for f in text_fields if f not in header]
     if len(missing) == len(text_fields):
         columns = ", ".join(header[:12]) + (" …" if len(header) > 12 else "")
-        return [], f"no column {', '.join(repr(f) for f in text_fields)} (columns: {columns}); choose with --text-field"
+        return (
+            [],
+            f"no column {', '.join(repr(f) for f in text_fields)} (columns: {columns}); choose with --text-field",
+        )
     out = []
     try:
         for row in reader:
@@ -194,7 +201,13 @@ def _csv_records(text: str, delimiter: str, text_fields: Sequence[str]) -> tuple
                 continue
             out.append((label, dict(zip(header, row)), ""))
     except csv.Error as err:
-        out.append((f"row {reader.line_num}", None, f"row {reader.line_num}: broken CSV ({err}); rest of file not read"))
+        out.append(
+            (
+                f"row {reader.line_num}",
+                None,
+                f"row {reader.line_num}: broken CSV ({err}); rest of file not read",
+            )
+        )
     return out, ""
 
 

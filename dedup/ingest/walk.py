@@ -48,7 +48,9 @@ def _walk(root: str, base: str, include_hidden: bool, entries: list[LedgerEntry]
             with os.scandir(folder) as it:
                 children = sorted(it, key=lambda e: e.name)
         except OSError as err:
-            entries.append(LedgerEntry(_rel(folder, base), "skipped", f"folder cannot be read: {err.strerror}"))
+            entries.append(
+                LedgerEntry(_rel(folder, base), "skipped", f"folder cannot be read: {err.strerror}")
+            )
             continue
         subfolders = []
         for child in children:
@@ -67,7 +69,9 @@ def _walk(root: str, base: str, include_hidden: bool, entries: list[LedgerEntry]
                 if child.is_file(follow_symlinks=True):
                     yield _Found(child.path, rel)
                 else:
-                    entries.append(LedgerEntry(rel, "skipped", "not a regular file (device, socket, broken link)"))
+                    entries.append(
+                        LedgerEntry(rel, "skipped", "not a regular file (device, socket, broken link)")
+                    )
             except OSError as err:
                 entries.append(LedgerEntry(rel, "skipped", f"cannot be examined: {err.strerror}"))
         # Reverse so that popping from the stack visits folders in sorted order.
@@ -101,7 +105,11 @@ def iter_documents(
     seen: dict[str, str] = {}
     for root in roots:
         found: Iterator[_Found]
-        found = _walk(root, base, include_hidden, ledger) if os.path.isdir(root) else iter([_Found(root, _rel(root, base))])
+        found = (
+            _walk(root, base, include_hidden, ledger)
+            if os.path.isdir(root)
+            else iter([_Found(root, _rel(root, base))])
+        )
         for item in found:
             real = os.path.realpath(item.path)
             if real in seen:

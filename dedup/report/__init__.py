@@ -4,7 +4,16 @@ from __future__ import annotations
 
 import os
 
-from .files import ACTION_COLUMNS, LEDGER_COLUMNS, PAIR_COLUMNS, CLUSTER_COLUMNS, cluster_rows, ensure_folder, write_csv, write_json
+from .files import (
+    ACTION_COLUMNS,
+    CLUSTER_COLUMNS,
+    LEDGER_COLUMNS,
+    PAIR_COLUMNS,
+    cluster_rows,
+    ensure_folder,
+    write_csv,
+    write_json,
+)
 from .html import render_html
 
 __all__ = ["write_outputs", "render_html"]
@@ -13,8 +22,18 @@ __all__ = ["write_outputs", "render_html"]
 def write_outputs(result, out_dir: str) -> dict[str, str]:
     """Write all outputs of an audit into ``out_dir`` (created if needed)."""
     ensure_folder(out_dir)
-    paths = {name: os.path.join(out_dir, name) for name in (
-        "audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv", "report.html", "run.json")}
+    paths = {
+        name: os.path.join(out_dir, name)
+        for name in (
+            "audit.json",
+            "pairs.csv",
+            "clusters.csv",
+            "actions.csv",
+            "ledger.csv",
+            "report.html",
+            "run.json",
+        )
+    }
     data = result.to_dict()
     write_json(paths["audit.json"], data)
     write_csv(paths["pairs.csv"], result.pairs, PAIR_COLUMNS)

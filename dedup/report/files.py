@@ -13,15 +13,40 @@ import io
 import json
 import os
 
-__all__ = ["write_json", "write_csv", "csv_text", "PAIR_COLUMNS", "CLUSTER_COLUMNS", "ACTION_COLUMNS", "LEDGER_COLUMNS"]
+__all__ = [
+    "write_json",
+    "write_csv",
+    "csv_text",
+    "PAIR_COLUMNS",
+    "CLUSTER_COLUMNS",
+    "ACTION_COLUMNS",
+    "LEDGER_COLUMNS",
+]
 
 PAIR_COLUMNS = [
-    "left", "right", "kind", "deciding_score", "jaccard",
-    "containment_left_in_right", "containment_right_in_left", "cosine", "shared_shingles",
+    "left",
+    "right",
+    "kind",
+    "deciding_score",
+    "jaccard",
+    "containment_left_in_right",
+    "containment_right_in_left",
+    "cosine",
+    "shared_shingles",
 ]
 CLUSTER_COLUMNS = [
-    "cluster_id", "cluster_size", "document_id", "role", "keeper", "deciding_score", "jaccard_to_keeper",
-    "containment_in_keeper", "keeper_containment", "cosine_to_keeper", "linked_through", "action",
+    "cluster_id",
+    "cluster_size",
+    "document_id",
+    "role",
+    "keeper",
+    "deciding_score",
+    "jaccard_to_keeper",
+    "containment_in_keeper",
+    "keeper_containment",
+    "cosine_to_keeper",
+    "linked_through",
+    "action",
 ]
 ACTION_COLUMNS = ["document_id", "action", "in_favour_of", "cluster_id", "reason"]
 LEDGER_COLUMNS = ["input", "record", "status", "reason", "format", "size", "encoding", "document_id"]

@@ -19,7 +19,10 @@ __all__ = ["render_html", "template_folder"]
 def template_folder() -> str:
     """Where the templates are: inside the installed package, or at the top of a checkout."""
     here = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    for candidate in (os.path.join(here, "report_templates"), os.path.join(os.path.dirname(here), "report_templates")):
+    for candidate in (
+        os.path.join(here, "report_templates"),
+        os.path.join(os.path.dirname(here), "report_templates"),
+    ):
         if os.path.isdir(candidate):
             return candidate
     raise FileNotFoundError("report templates not found: reinstall dedup (pip install -e .)")
@@ -43,10 +46,14 @@ def _environment() -> jinja2.Environment:
 def render_html(result) -> str:
     """The report for an `AuditResult` as an HTML string."""
     skipped = [e for e in result.ledger if e.status != "read"]
-    return _environment().get_template("report.html.j2").render(
-        result=result,
-        data=result.to_dict(),
-        skipped=skipped,
-        version=__version__,
-        generated=result.run.get("started", ""),
+    return (
+        _environment()
+        .get_template("report.html.j2")
+        .render(
+            result=result,
+            data=result.to_dict(),
+            skipped=skipped,
+            version=__version__,
+            generated=result.run.get("started", ""),
+        )
     )

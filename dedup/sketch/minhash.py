@@ -44,7 +44,9 @@ def _splitmix64(seed: int, count: int) -> list[int]:
     return out
 
 
-def minhash_parameters(num_perm: int, seed: int, hash_scheme: str = "stable64") -> tuple[np.ndarray, np.ndarray]:
+def minhash_parameters(
+    num_perm: int, seed: int, hash_scheme: str = "stable64"
+) -> tuple[np.ndarray, np.ndarray]:
     """The ``(a, b)`` of every hash function, as uint64 arrays of length ``num_perm``."""
     if hash_scheme == "datasketch-sha1":
         # datasketch 2.x, scheme "affine32": a = 2*randint(0, 2^31) + 1, then b, from one RandomState.

@@ -21,8 +21,12 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
+from numba import njit, prange
 
 __all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats"]
+
+# Up to this many columns document frequencies are counted in a dense array (8 bytes each).
+DENSE_DF_LIMIT = 2**24
 
 
 @dataclass(frozen=True)
@@ -56,7 +60,11 @@ class TfidfModel:
         columns = np.asarray(columns, dtype=np.int64)
         where = np.searchsorted(self.columns, columns)
         where = np.minimum(where, max(self.columns.shape[0] - 1, 0))
-        known = (self.columns.shape[0] > 0) & (self.columns[where] == columns) if self.columns.size else np.zeros(columns.shape, bool)
+        known = (
+            (self.columns.shape[0] > 0) & (self.columns[where] == columns)
+            if self.columns.size
+            else np.zeros(columns.shape, bool)
+        )
         out = np.full(columns.shape, self.unseen_idf, dtype=np.float64)
         out[known] = self.column_idf[where[known]]
         return out
@@ -67,20 +75,53 @@ class TfidfModel:
         return _weight(counts, self.idf(counts.indices), self.sublinear_tf)
 
 
+@njit(cache=True, parallel=True)
+def _count_columns(columns, offsets, unique_counts):
+    # Sort each document's columns in place and count the distinct ones.
+    for d in prange(offsets.shape[0] - 1):
+        a, b = offsets[d], offsets[d + 1]
+        if b > a:
+            columns[a:b] = np.sort(columns[a:b])
+            c = 1
+            for i in range(a + 1, b):
+                if columns[i] != columns[i - 1]:
+                    c += 1
+            unique_counts[d] = c
+
+
+@njit(cache=True, parallel=True)
+def _fill_counts(columns, offsets, indptr, indices, data):
+    for d in prange(offsets.shape[0] - 1):
+        a, b = offsets[d], offsets[d + 1]
+        w = indptr[d] - 1
+        for i in range(a, b):
+            if i == a or columns[i] != columns[i - 1]:
+                w += 1
+                indices[w] = columns[i]
+                data[w] = 1.0
+            else:
+                data[w] += 1.0
+
+
 def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features: int) -> sp.csr_matrix:
+    """Term counts per document as CSR with sorted columns, built in compiled code: O(tokens log)."""
     n_docs = token_offsets.shape[0] - 1
-    cols = (token_hashes % np.uint64(n_features)).astype(np.int64)
-    rows = np.repeat(np.arange(n_docs, dtype=np.int64), np.diff(token_offsets))
-    data = np.ones(cols.shape[0], dtype=np.float64)
-    counts = sp.csr_matrix((data, (rows, cols)), shape=(n_docs, n_features))
-    counts.sum_duplicates()
-    counts.sort_indices()
-    return counts
+    columns = (token_hashes % np.uint64(n_features)).astype(np.int64)
+    offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
+    unique_counts = np.zeros(n_docs, dtype=np.int64)
+    _count_columns(columns, offsets, unique_counts)
+    indptr = np.zeros(n_docs + 1, dtype=np.int64)
+    np.cumsum(unique_counts, out=indptr[1:])
+    indices = np.empty(indptr[-1], dtype=np.int64)
+    data = np.empty(indptr[-1], dtype=np.float64)
+    _fill_counts(columns, offsets, indptr, indices, data)
+    return sp.csr_matrix((data, indices, indptr), shape=(n_docs, n_features))
 
 
 def _weight(counts: sp.csr_matrix, entry_idf: np.ndarray, sublinear_tf: bool) -> sp.csr_matrix:
     """tf * idf scaled to unit length; ``entry_idf`` is the idf of each stored entry."""
     out = counts.copy()
+    out.data = out.data.copy()
     if sublinear_tf:
         out.data = 1.0 + np.log(out.data)
     out.data *= entry_idf
@@ -113,14 +154,24 @@ def fit_tfidf(
     """
     counts = _term_counts(token_hashes, token_offsets, n_features)
     n_docs = counts.shape[0]
-    columns, inverse, df = np.unique(counts.indices, return_inverse=True, return_counts=True)
-    column_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
-    rows = _weight(counts, column_idf[inverse.ravel()], sublinear_tf)
+    if n_features <= DENSE_DF_LIMIT:
+        df = np.bincount(counts.indices, minlength=n_features)
+        columns = np.flatnonzero(df)
+        dense_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
+        column_idf = dense_idf[columns]
+        entry_idf = dense_idf[counts.indices]
+    else:
+        columns, inverse, df = np.unique(counts.indices, return_inverse=True, return_counts=True)
+        column_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
+        entry_idf = column_idf[inverse.ravel()]
+    rows = _weight(counts, entry_idf, sublinear_tf)
     unseen = float(np.log(1.0 + n_docs) + 1.0)
     return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, sublinear_tf)
 
 
-def pair_cosines(rows: sp.csr_matrix, left: np.ndarray, right: np.ndarray, batch: int = 200_000) -> np.ndarray:
+def pair_cosines(
+    rows: sp.csr_matrix, left: np.ndarray, right: np.ndarray, batch: int = 200_000
+) -> np.ndarray:
     """Cosine of each pair ``(left[i], right[i])`` of unit-length rows; O(pairs * row length)."""
     out = np.empty(left.shape[0], dtype=np.float64)
     for start in range(0, left.shape[0], batch):

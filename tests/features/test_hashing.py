@@ -48,7 +48,11 @@ def test_hashes_are_identical_in_another_process_with_another_hash_seed():
     outputs = set()
     for seed in ("1", "2"):
         env = {"PYTHONHASHSEED": seed, "PATH": ""}
-        outputs.add(subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True).stdout)
+        outputs.add(
+            subprocess.run(
+                [sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True
+            ).stdout
+        )
     here = build_features(["the cat sat on the mat today"], shingle_size=3)
     outputs.add(",".join(str(int(x)) for x in here.shingles) + "\n")
     assert len(outputs) == 1

@@ -22,11 +22,15 @@ def test_compatibility_scheme_reproduces_datasketch_hashvalues(num_perm, seed):
     """Reference: datasketch.MinHash(num_perm, seed) with its default hash (SHA-1, 32 bits) updated
     with the same shingle strings; our compatibility scheme must give the same hashvalues exactly."""
     fs = build_features(TEXTS, shingle_size=3, hash_scheme="datasketch-sha1")
-    ours = minhash_signatures(fs.shingles, fs.shingle_offsets, num_perm=num_perm, seed=seed, hash_scheme="datasketch-sha1")
+    ours = minhash_signatures(
+        fs.shingles, fs.shingle_offsets, num_perm=num_perm, seed=seed, hash_scheme="datasketch-sha1"
+    )
     for d, text in enumerate(TEXTS):
         ref = datasketch.MinHash(num_perm=num_perm, seed=seed)
         ref.update_batch([s.encode("utf-8") for s in shingle_strings(text, 3)])
-        assert np.array_equal(ours.values[d].astype(np.uint64), np.asarray(ref.hashvalues, dtype=np.uint64)), d
+        assert np.array_equal(
+            ours.values[d].astype(np.uint64), np.asarray(ref.hashvalues, dtype=np.uint64)
+        ), d
 
 
 def test_estimates_stay_within_four_standard_errors_of_exact_jaccard():

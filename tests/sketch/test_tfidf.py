@@ -47,7 +47,9 @@ def test_rows_equal_scikit_learn_tfidf_vectorizer(sublinear):
         ours[r, position[int(c)]] = v  # a KeyError here would be a column sklearn does not have
     np.testing.assert_allclose(ours, expected, rtol=0, atol=1e-12)
     # Every row is unit length, so no weight lies outside the compared columns.
-    np.testing.assert_allclose(np.asarray(model.rows.multiply(model.rows).sum(axis=1)).ravel(), 1.0, atol=1e-12)
+    np.testing.assert_allclose(
+        np.asarray(model.rows.multiply(model.rows).sum(axis=1)).ravel(), 1.0, atol=1e-12
+    )
 
 
 def test_pair_cosines_equal_scikit_learn_cosine_similarity():
