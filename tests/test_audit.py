@@ -209,6 +209,9 @@ def test_report_escapes_hostile_names_and_text(write_corpus, tmp_path):
     with open(paths["report.html"], encoding="utf-8") as handle:
         html = handle.read()
     assert "<script>alert" not in html and "<b>bold</b>" not in html
-    assert "&lt;b&gt;bold&lt;/b&gt;.md" in html
+    # Names reach the page script only inside the JSON block, with < and > escaped.
+    assert "\\u003cb\\u003ebold\\u003c/b\\u003e.md" in html
     assert "Content-Security-Policy" in html and "default-src 'none'" in html
-    assert "http://" not in html and "https://" not in html
+    assert "https://" not in html
+    # The only URL is the SVG namespace name, which is never fetched.
+    assert html.count("http://") == html.count("http://www.w3.org/2000/svg")
