@@ -22,9 +22,10 @@ from . import __version__
 from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
-from .features import build_features
+from .features import tokenize
+from .features.shingles import features_from_buffer, pack_texts
 from .ingest import LedgerEntry, iter_documents, summarize
-from .normalize import canonical_text, content_hash, exact_groups, token_text
+from .normalize import canonical_text, content_hash, exact_groups
 from .progress import Progress
 from .settings import AuditSettings
 from .sketch import collision_stats, fit_tfidf, minhash_signatures
@@ -227,14 +228,11 @@ def audit(
     # -- normalize + exact pass -------------------------------------------------------
     progress.start("normalizing", len(raw))
     entry_of = {e.document_id: e for e in ledger if e.document_id}
-    kept = []  # documents with text
     documents: list[dict] = []
-    canon_texts: list[str] = []
-    word_texts: list[str] = []
+    canonical_of: dict[str, str] = {}
+    with_text: list[int] = []  # indices into documents
     for doc in raw:
         canonical = canonical_text(doc.text)
-        words = token_text(canonical)
-        has_text = bool(words) if not settings.char_ngrams else bool(canonical)
         record = {
             "id": doc.id,
             "source": doc.source,
@@ -243,23 +241,33 @@ def audit(
             "bytes": len(doc.text.encode("utf-8")),
             "characters": len(canonical),
             "content_hash": content_hash(canonical),
-            "status": "read" if has_text else "empty",
+            "status": "read",
         }
         if settings.keeper_policy in ("newest", "oldest"):
             value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
             record["date"] = _date_of(value)
+        if canonical:
+            with_text.append(len(documents))
+            canonical_of.setdefault(record["content_hash"], canonical)
         documents.append(record)
-        if has_text:
-            kept.append((doc, record))
-            canon_texts.append(canonical)
-            word_texts.append(words)
-        else:
-            entry = entry_of.get(doc.id)
-            if entry is not None:
-                entry.status = "empty"
-                entry.reason = "no text" if not canonical else "no words after normalization"
         progress.advance()
     progress.done()
+    # Distinct texts that have no word at all (only punctuation, say) are empty too.
+    distinct = list(canonical_of)
+    buf, offsets = pack_texts([canonical_of[h] for h in distinct])
+    words = tokenize.count_words(buf, offsets, tokenize.word_table())
+    wordless = {h for h, n in zip(distinct, words.tolist()) if n == 0}
+    kept_rows = [i for i in with_text if documents[i]["content_hash"] not in wordless]
+    with_text_set = set(with_text)
+    for i, record in enumerate(documents):
+        if i in with_text_set and record["content_hash"] not in wordless:
+            continue
+        record["status"] = "empty"
+        entry = entry_of.get(record["id"])
+        if entry is not None:
+            entry.status = "empty"
+            entry.reason = "no text" if record["characters"] == 0 else "no words after normalization"
+    kept = [(None, documents[i]) for i in kept_rows]
     ids = [rec["id"] for _, rec in kept]
     hashes = [rec["content_hash"] for _, rec in kept]
     representative, groups = exact_groups(hashes)
@@ -271,13 +279,19 @@ def audit(
 
     # -- features + sketches ----------------------------------------------------------
     progress.start("shingling", int(rep_docs.shape[0]))
-    rep_word_texts = [word_texts[i] for i in rep_docs.tolist()]
-    features = build_features(
-        rep_word_texts,
+    position_of = {h: k for k, h in enumerate(distinct)}
+    picks = np.asarray([position_of[hashes[i]] for i in rep_docs.tolist()], dtype=np.int64)
+    rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
+    needs_strings = settings.char_ngrams or settings.hash_scheme != "stable64"
+    features = features_from_buffer(
+        rep_buf,
+        rep_offsets,
+        texts=[canonical_of[hashes[i]] for i in rep_docs.tolist()] if needs_strings else None,
         shingle_size=settings.shingle_size,
         char_ngrams=settings.char_ngrams,
         hash_scheme=settings.hash_scheme,
     )
+    del buf, rep_buf, canonical_of
     progress.done()
     watch.lap("features")
     model = fit_tfidf(

@@ -14,9 +14,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import hashing
+from ..normalize.text import token_text
+from . import hashing, tokenize
 
-__all__ = ["FeatureSet", "pack_texts", "build_features", "tokens_of", "shingle_strings"]
+__all__ = [
+    "FeatureSet",
+    "pack_texts",
+    "build_features",
+    "features_from_buffer",
+    "tokens_of",
+    "shingle_strings",
+]
 
 
 @dataclass(frozen=True)
@@ -98,7 +106,7 @@ def _sha1_32(data: bytes) -> int:
 
 
 def build_features(
-    token_texts: Sequence[str],
+    texts: Sequence[str],
     *,
     shingle_size: int = 5,
     char_ngrams: int | None = None,
@@ -108,19 +116,21 @@ def build_features(
 
     Parameters
     ----------
-    token_texts : sequence of str
-        Normalized texts (see `dedup.normalize.token_text`): words separated by one space.
+    texts : sequence of str
+        Canonical texts (see `dedup.normalize.canonical_text`); words are the runs of
+        letters and digits, so punctuation never reaches a shingle.
     shingle_size : int
         k of word k-shingles.
     char_ngrams : int or None
-        Use character n-grams of this length instead of word shingles.
+        Use character n-grams of this length (over the words separated by one space)
+        instead of word shingles.
     hash_scheme : {"stable64", "datasketch-sha1"}
         ``datasketch-sha1`` hashes each shingle string with SHA-1 (32 bits) as
         datasketch does, in Python: slow, for compatibility checks only.
 
     Notes
     -----
-    Cost O(total bytes * k) in compiled code for ``stable64``.
+    Cost O(total bytes * k) in compiled code for word shingles with ``stable64``.
 
     Examples
     --------
@@ -128,22 +138,55 @@ def build_features(
     >>> fs.shingle_counts.tolist()
     [2, 2]
     """
-    buf, doc_offsets = pack_texts(token_texts)
-    token_offsets = _exclusive_cumsum(hashing.count_tokens(buf, doc_offsets))
-    tokens = hashing.token_hashes(buf, doc_offsets, token_offsets)
+    buf, doc_offsets = pack_texts(texts)
+    return features_from_buffer(
+        buf,
+        doc_offsets,
+        texts=texts,
+        shingle_size=shingle_size,
+        char_ngrams=char_ngrams,
+        hash_scheme=hash_scheme,
+    )
 
+
+def features_from_buffer(
+    buf: np.ndarray,
+    doc_offsets: np.ndarray,
+    *,
+    texts: Sequence[str] | None = None,
+    shingle_size: int = 5,
+    char_ngrams: int | None = None,
+    hash_scheme: str = "stable64",
+) -> FeatureSet:
+    """`build_features` over canonical texts already packed as UTF-8 bytes with offsets.
+
+    ``texts`` (the same texts as strings) is needed only for character n-grams and the
+    datasketch scheme, which work on the word text in Python.
+    """
+    table = tokenize.word_table()
+    token_offsets = _exclusive_cumsum(tokenize.count_words(buf, doc_offsets, table))
+    tokens = tokenize.word_hashes(buf, doc_offsets, token_offsets, table)
+
+    if hash_scheme == "datasketch-sha1" or char_ngrams:
+        if texts is None:
+            texts = [
+                bytes(buf[doc_offsets[d] : doc_offsets[d + 1]]).decode("utf-8")
+                for d in range(len(doc_offsets) - 1)
+            ]
+        word_texts = [token_text(t) for t in texts]
     if hash_scheme == "datasketch-sha1":
         values: list[int] = []
         counts = []
-        for text in token_texts:
+        for text in word_texts:
             strings = shingle_strings(text, shingle_size, char_ngrams)
             counts.append(len(strings))
             values.extend(_sha1_32(s.encode("utf-8")) for s in strings)
         raw = np.asarray(values, dtype=np.uint64)
         raw_offsets = _exclusive_cumsum(np.asarray(counts, dtype=np.int64))
     elif char_ngrams:
-        raw_offsets = _exclusive_cumsum(hashing.char_ngram_counts(buf, doc_offsets, char_ngrams))
-        raw = hashing.char_ngrams(buf, doc_offsets, raw_offsets, char_ngrams)
+        word_buf, word_offsets = pack_texts(word_texts)
+        raw_offsets = _exclusive_cumsum(hashing.char_ngram_counts(word_buf, word_offsets, char_ngrams))
+        raw = hashing.char_ngrams(word_buf, word_offsets, raw_offsets, char_ngrams)
     else:
         raw_offsets = _exclusive_cumsum(hashing.shingle_counts(token_offsets, shingle_size))
         raw = hashing.word_shingles(tokens, token_offsets, raw_offsets, shingle_size)

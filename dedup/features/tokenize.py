@@ -1,0 +1,123 @@
+"""Words and their stable hashes straight from canonical UTF-8 text, in compiled code.
+
+A word is a maximal run of letters and digits: exactly the characters for which Python's
+``str.isalnum()`` is true (the same class as the regular expression ``[^\\W_]``), so the
+words are the tokens of `dedup.normalize.token_text`, without building that string. The
+kernel decodes UTF-8 itself and looks each code point up in a table made once from
+``str.isalnum``; a word's hash is FNV-1a + fmix64 of its UTF-8 bytes, as in
+`dedup.features.hashing`. Cost O(bytes), in parallel over documents.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+from numba import njit, prange
+
+from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
+
+__all__ = ["word_table", "count_words", "word_hashes", "gather_segments"]
+
+_MAX_CODE_POINT = 0x110000
+
+
+@lru_cache(maxsize=1)
+def word_table() -> np.ndarray:
+    """1 for every code point that is a letter or digit (``str.isalnum``), else 0."""
+    return np.fromiter(
+        (chr(c).isalnum() for c in range(_MAX_CODE_POINT)), dtype=np.uint8, count=_MAX_CODE_POINT
+    )
+
+
+@njit(cache=True, inline="always")
+def _decode(buf, i, stop):
+    # One UTF-8 code point at buf[i]: (code point, byte length). Invalid bytes count as one
+    # non-word byte, though canonical text is always valid UTF-8.
+    b0 = np.int64(buf[i])
+    if b0 < 0x80:
+        return b0, 1
+    if b0 >= 0xF0 and i + 3 < stop:
+        return ((b0 & 0x07) << 18) | ((np.int64(buf[i + 1]) & 0x3F) << 12) | (
+            (np.int64(buf[i + 2]) & 0x3F) << 6
+        ) | (np.int64(buf[i + 3]) & 0x3F), 4
+    if b0 >= 0xE0 and i + 2 < stop:
+        return ((b0 & 0x0F) << 12) | ((np.int64(buf[i + 1]) & 0x3F) << 6) | (np.int64(buf[i + 2]) & 0x3F), 3
+    if b0 >= 0xC0 and i + 1 < stop:
+        return ((b0 & 0x1F) << 6) | (np.int64(buf[i + 1]) & 0x3F), 2
+    return -1, 1
+
+
+@njit(cache=True, parallel=True)
+def count_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """Number of words in each document."""
+    n_docs = doc_offsets.shape[0] - 1
+    counts = np.zeros(n_docs, dtype=np.int64)
+    for d in prange(n_docs):
+        i = doc_offsets[d]
+        stop = doc_offsets[d + 1]
+        in_word = False
+        c = 0
+        while i < stop:
+            cp, length = _decode(buf, i, stop)
+            word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
+            if word and not in_word:
+                c += 1
+            in_word = word
+            i += length
+        counts[d] = c
+    return counts
+
+
+@njit(cache=True, parallel=True)
+def word_hashes(
+    buf: np.ndarray, doc_offsets: np.ndarray, word_offsets: np.ndarray, table: np.ndarray
+) -> np.ndarray:
+    """Stable hash of every word, documents laid end to end as in ``word_offsets``."""
+    n_docs = doc_offsets.shape[0] - 1
+    out = np.empty(word_offsets[n_docs], dtype=np.uint64)
+    for d in prange(n_docs):
+        w = word_offsets[d]
+        i = doc_offsets[d]
+        stop = doc_offsets[d + 1]
+        in_word = False
+        h = FNV_OFFSET
+        while i < stop:
+            cp, length = _decode(buf, i, stop)
+            word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
+            if word:
+                if not in_word:
+                    h = FNV_OFFSET
+                for j in range(i, i + length):
+                    h ^= np.uint64(buf[j])
+                    h *= FNV_PRIME
+            elif in_word:
+                out[w] = fmix64(h)
+                w += 1
+            in_word = word
+            i += length
+        if in_word:
+            out[w] = fmix64(h)
+    return out
+
+
+@njit(cache=True)
+def _gather(buf, offsets, picks, out_offsets, out):
+    for k in range(picks.shape[0]):
+        d = picks[k]
+        a = offsets[d]
+        n = offsets[d + 1] - a
+        w = out_offsets[k]
+        for j in range(n):
+            out[w + j] = buf[a + j]
+
+
+def gather_segments(buf: np.ndarray, offsets: np.ndarray, picks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """A new packed buffer holding only the segments ``picks`` (in that order)."""
+    picks = np.asarray(picks, dtype=np.int64)
+    lengths = offsets[picks + 1] - offsets[picks]
+    out_offsets = np.zeros(picks.shape[0] + 1, dtype=np.int64)
+    np.cumsum(lengths, out=out_offsets[1:])
+    out = np.empty(out_offsets[-1], dtype=buf.dtype)
+    _gather(buf, offsets, picks, out_offsets, out)
+    return out, out_offsets
