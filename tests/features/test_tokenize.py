@@ -1,0 +1,41 @@
+"""The compiled word tokenizer agrees with the regular-expression definition of a word."""
+
+from __future__ import annotations
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from dedup.features import build_features
+from dedup.normalize import canonical_text, token_text
+
+MASK = (1 << 64) - 1
+
+
+def fnv1a_fmix64(data: bytes) -> int:
+    """Plain-Python FNV-1a 64 + MurmurHash3 fmix64 (published constants), as in test_hashing."""
+    h = 0xCBF29CE484222325
+    for byte in data:
+        h = ((h ^ byte) * 0x100000001B3) & MASK
+    for shift, mult in ((33, 0xFF51AFD7ED558CCD), (33, 0xC4CEB9FE1A85EC53)):
+        h ^= h >> shift
+        h = (h * mult) & MASK
+    return h ^ (h >> 33)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.text(min_size=0, max_size=60), min_size=1, max_size=8))
+def test_words_equal_the_regex_tokens_of_canonical_text(raw_texts):
+    """Reference: Python's re module, [^\\W_]+ (a word = letters and digits, as str.isalnum)."""
+    texts = [canonical_text(t) for t in raw_texts]
+    fs = build_features(texts, shingle_size=1)
+    for d, text in enumerate(texts):
+        expected = [fnv1a_fmix64(w.encode("utf-8")) for w in token_text(text).split()]
+        got = fs.token_hashes[fs.token_offsets[d] : fs.token_offsets[d + 1]].tolist()
+        assert got == expected
+
+
+def test_non_ascii_letters_digits_and_punctuation():
+    text = canonical_text("Straße—naïve café №5 ١٢٣ 東京、大阪。“quoted” e-mail_address")
+    fs = build_features([text], shingle_size=1)
+    assert fs.token_hashes.tolist() == [fnv1a_fmix64(w.encode()) for w in token_text(text).split()]
+    assert len(token_text(text).split()) == 11
