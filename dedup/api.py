@@ -23,7 +23,7 @@ from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
-from .features.shingles import features_from_buffer, pack_texts
+from .features.shingles import features_from_buffer, pack_bytes
 from .ingest import LedgerEntry, iter_documents, summarize
 from .normalize import canonical_text, content_hash, exact_groups
 from .progress import Progress
@@ -232,14 +232,15 @@ def audit(
     canonical_of: dict[str, str] = {}
     with_text: list[int] = []  # indices into documents
     for doc in raw:
-        canonical = canonical_text(doc.text)
+        canonical_string = canonical_text(doc.text)
+        canonical = canonical_string.encode("utf-8")
         record = {
             "id": doc.id,
             "source": doc.source,
             "format": doc.format,
             "title": doc.title,
             "bytes": len(doc.text.encode("utf-8")),
-            "characters": len(canonical),
+            "characters": len(canonical_string),
             "content_hash": content_hash(canonical),
             "status": "read",
         }
@@ -254,7 +255,7 @@ def audit(
     progress.done()
     # Distinct texts that have no word at all (only punctuation, say) are empty too.
     distinct = list(canonical_of)
-    buf, offsets = pack_texts([canonical_of[h] for h in distinct])
+    buf, offsets = pack_bytes([canonical_of[h] for h in distinct])
     words = tokenize.count_words(buf, offsets, tokenize.word_table())
     wordless = {h for h, n in zip(distinct, words.tolist()) if n == 0}
     kept_rows = [i for i in with_text if documents[i]["content_hash"] not in wordless]
@@ -286,7 +287,7 @@ def audit(
     features = features_from_buffer(
         rep_buf,
         rep_offsets,
-        texts=[canonical_of[hashes[i]] for i in rep_docs.tolist()] if needs_strings else None,
+        texts=[canonical_of[hashes[i]].decode("utf-8") for i in rep_docs.tolist()] if needs_strings else None,
         shingle_size=settings.shingle_size,
         char_ngrams=settings.char_ngrams,
         hash_scheme=settings.hash_scheme,
@@ -300,7 +301,7 @@ def audit(
         n_features=settings.tfidf_features,
         sublinear_tf=settings.sublinear_tf,
     )
-    tfidf_info = collision_stats(features.token_hashes, settings.tfidf_features)
+    tfidf_info = collision_stats(features.token_hashes, settings.tfidf_features, model.columns.shape[0])
     tfidf_info["sublinear_tf"] = settings.sublinear_tf
     tfidf_info["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
     watch.lap("tfidf")

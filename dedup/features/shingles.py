@@ -64,7 +64,11 @@ class FeatureSet:
 
 def pack_texts(texts: Sequence[str]) -> tuple[np.ndarray, np.ndarray]:
     """UTF-8 encode texts into one byte buffer with offsets (n_docs + 1)."""
-    encoded = [t.encode("utf-8") for t in texts]
+    return pack_bytes([t.encode("utf-8") for t in texts])
+
+
+def pack_bytes(encoded: Sequence[bytes]) -> tuple[np.ndarray, np.ndarray]:
+    """Byte strings laid end to end in one buffer with offsets (n + 1)."""
     offsets = np.zeros(len(encoded) + 1, dtype=np.int64)
     np.cumsum([len(e) for e in encoded], out=offsets[1:])
     buf = np.frombuffer(b"".join(encoded), dtype=np.uint8) if encoded else np.zeros(0, np.uint8)

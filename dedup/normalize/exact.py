@@ -14,9 +14,10 @@ import numpy as np
 __all__ = ["content_hash", "exact_groups"]
 
 
-def content_hash(canonical: str) -> str:
-    """BLAKE2b (128-bit digest) of the canonical text, as hex; identical on every machine."""
-    return hashlib.blake2b(canonical.encode("utf-8"), digest_size=16).hexdigest()
+def content_hash(canonical: str | bytes) -> str:
+    """BLAKE2b (128-bit digest) of the canonical text (or its UTF-8 bytes), as hex; identical on every machine."""
+    data = canonical.encode("utf-8") if isinstance(canonical, str) else canonical
+    return hashlib.blake2b(data, digest_size=16).hexdigest()
 
 
 def exact_groups(hashes: Sequence[str]) -> tuple[np.ndarray, list[list[int]]]:

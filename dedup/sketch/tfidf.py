@@ -118,18 +118,32 @@ def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features
     return sp.csr_matrix((data, indices, indptr), shape=(n_docs, n_features))
 
 
+@njit(cache=True, parallel=True)
+def _weight_rows(indptr, data, entry_idf, sublinear):
+    # In place: tf (or 1 + ln tf) times idf, then each row scaled to unit length.
+    for d in prange(indptr.shape[0] - 1):
+        a, b = indptr[d], indptr[d + 1]
+        total = 0.0
+        for i in range(a, b):
+            tf = data[i]
+            if sublinear:
+                tf = 1.0 + np.log(tf)
+            w = tf * entry_idf[i]
+            data[i] = w
+            total += w * w
+        if total > 0.0:
+            norm = np.sqrt(total)
+            for i in range(a, b):
+                data[i] /= norm
+
+
 def _weight(counts: sp.csr_matrix, entry_idf: np.ndarray, sublinear_tf: bool) -> sp.csr_matrix:
     """tf * idf scaled to unit length; ``entry_idf`` is the idf of each stored entry."""
-    out = counts.copy()
-    out.data = out.data.copy()
-    if sublinear_tf:
-        out.data = 1.0 + np.log(out.data)
-    out.data *= entry_idf
-    sq = np.asarray(out.multiply(out).sum(axis=1)).ravel()
-    norms = np.sqrt(sq)
-    norms[norms == 0] = 1.0
-    out.data /= np.repeat(norms, np.diff(out.indptr))
-    return out
+    data = counts.data.copy()
+    _weight_rows(
+        counts.indptr.astype(np.int64), data, np.ascontiguousarray(entry_idf, dtype=np.float64), sublinear_tf
+    )
+    return sp.csr_matrix((data, counts.indices, counts.indptr), shape=counts.shape)
 
 
 def fit_tfidf(
@@ -210,19 +224,37 @@ def pair_cosines(rows: sp.csr_matrix, left: np.ndarray, right: np.ndarray) -> np
     return out
 
 
-def collision_stats(token_hashes: np.ndarray, n_features: int) -> dict:
-    """Expected and measured share of distinct terms that share a hashed column."""
-    vocabulary = np.unique(token_hashes)
-    v = int(vocabulary.shape[0])
-    expected = 1.0 - (1.0 - 1.0 / n_features) ** max(v - 1, 0) if v else 0.0
-    if v:
-        _, counts = np.unique(vocabulary % np.uint64(n_features), return_counts=True)
-        measured = float(counts[counts > 1].sum()) / v
+# Up to this many tokens the vocabulary is counted exactly; beyond, it is estimated.
+EXACT_VOCABULARY_LIMIT = 5_000_000
+
+
+def collision_stats(token_hashes: np.ndarray, n_features: int, occupied_columns: int | None = None) -> dict:
+    """Expected and measured share of distinct terms that share a hashed column.
+
+    Up to `EXACT_VOCABULARY_LIMIT` tokens the distinct terms are counted exactly. Beyond,
+    the vocabulary V is estimated from the number of occupied columns O by linear counting
+    (Whang, Vander-Zanden, Taylor 1990): V = ln(1 - O/m) / ln(1 - 1/m); the measured share
+    is then not available.
+    """
+    if token_hashes.shape[0] <= EXACT_VOCABULARY_LIMIT or occupied_columns is None:
+        vocabulary = np.unique(token_hashes)
+        v = int(vocabulary.shape[0])
+        if v:
+            _, counts = np.unique(vocabulary % np.uint64(n_features), return_counts=True)
+            measured: float | None = float(counts[counts > 1].sum()) / v
+        else:
+            measured = 0.0
+        method = "exact"
     else:
-        measured = 0.0
+        fill = min(occupied_columns / n_features, 1.0 - 1.0 / n_features)
+        v = int(round(np.log1p(-fill) / np.log1p(-1.0 / n_features)))
+        measured = None
+        method = "estimated from occupied columns (linear counting)"
+    expected = 1.0 - (1.0 - 1.0 / n_features) ** max(v - 1, 0) if v else 0.0
     return {
         "n_features": int(n_features),
         "vocabulary_size": v,
+        "vocabulary_method": method,
         "expected_colliding_share": float(expected),
         "measured_colliding_share": measured,
     }
