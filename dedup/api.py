@@ -66,7 +66,7 @@ class AuditResult:
         Timings and peak memory of this run; not part of ``audit.json`` (which must
         be byte-identical between runs) but written to ``run.json``.
     texts : dict
-        Original text of every document, for the report's evidence view.
+        Original text of every clustered document, for the report's evidence view.
     """
 
     settings: AuditSettings
@@ -487,7 +487,9 @@ def audit(
         "peak_rss_mb": _peak_rss_mb(),
         "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
     }
-    texts = {doc.id: doc.text for doc in raw}
+    # Original texts travel on only for clustered documents: the report's evidence needs them.
+    clustered = {m["document_id"] for c in clusters for m in c["members"]}
+    texts = {doc.id: doc.text for doc in raw if doc.id in clustered}
     return AuditResult(
         settings=settings,
         inputs=list(paths),

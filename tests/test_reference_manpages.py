@@ -54,7 +54,7 @@ def test_lsh_finds_99_percent_of_exact_pairs_above_threshold_plus_005(tmp_path):
     )
 
     ids = [d["id"] for d in result.documents]
-    texts = [result.texts[i] for i in ids]
+    texts = [(tmp_path / i).read_text(encoding="utf-8") for i in ids]
     truth = _exact_pairs_at(texts, THRESHOLD + 0.05)
     assert len(truth) >= 300, f"only {len(truth)} reference pairs: the check would say little"
 
