@@ -24,8 +24,9 @@ from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
 from .features.shingles import features_from_buffer, pack_bytes
-from .ingest import LedgerEntry, iter_documents, summarize
+from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
 from .normalize import canonical_text, content_hash, exact_groups
+from .normalize.boilerplate import canonical_lines, find_boilerplate, without_boilerplate
 from .progress import Progress
 from .settings import AuditSettings
 from .sketch import collision_stats, fit_tfidf, minhash_signatures
@@ -81,6 +82,7 @@ class AuditResult:
     tfidf: dict
     warnings: list[dict]
     summary: dict
+    boilerplate: dict
     audit_id: str
     run: dict = field(default_factory=dict)
     texts: dict = field(default_factory=dict)
@@ -97,6 +99,7 @@ class AuditResult:
             "summary": self.summary,
             "candidates": self.candidates,
             "tfidf": self.tfidf,
+            "boilerplate": self.boilerplate,
             "warnings": self.warnings,
             "ledger": [e.to_dict() for e in self.ledger],
             "documents": self.documents,
@@ -205,6 +208,7 @@ def audit(
     """
     settings = (settings or AuditSettings()).validate()
     progress = progress or Progress.silent()
+    known_boilerplate = _read_ignore_text(settings.ignore_text_file)
     watch = _Stopwatch()
 
     # -- ingest ---------------------------------------------------------------------
@@ -229,7 +233,8 @@ def audit(
     progress.start("normalizing", len(raw))
     entry_of = {e.document_id: e for e in ledger if e.document_id}
     documents: list[dict] = []
-    canonical_of: dict[str, str] = {}
+    canonical_of: dict[str, bytes] = {}
+    lines_of: dict[str, list[str]] = {}  # canonical lines of each distinct text, for boilerplate
     with_text: list[int] = []  # indices into documents
     for doc in raw:
         canonical_string = canonical_text(doc.text)
@@ -249,7 +254,10 @@ def audit(
             record["date"] = _date_of(value)
         if canonical:
             with_text.append(len(documents))
-            canonical_of.setdefault(record["content_hash"], canonical)
+            if record["content_hash"] not in canonical_of:
+                canonical_of[record["content_hash"]] = canonical
+                if settings.boilerplate:
+                    lines_of[record["content_hash"]] = canonical_lines(doc.text)
         documents.append(record)
         progress.advance()
     progress.done()
@@ -280,19 +288,36 @@ def audit(
 
     # -- features + sketches ----------------------------------------------------------
     progress.start("shingling", int(rep_docs.shape[0]))
-    position_of = {h: k for k, h in enumerate(distinct)}
-    picks = np.asarray([position_of[hashes[i]] for i in rep_docs.tolist()], dtype=np.int64)
-    rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
+    rep_hashes = [hashes[i] for i in rep_docs.tolist()]
+    boilerplate, boilerplate_limit = {}, None
+    if settings.boilerplate:
+        boilerplate, boilerplate_limit = find_boilerplate(
+            (lines_of[h] for h in rep_hashes),
+            share=settings.boilerplate_share,
+            min_texts=settings.boilerplate_min_texts,
+            known=known_boilerplate,
+        )
+    boilerplate_affected = 0
+    if boilerplate:
+        boilerplate_affected = sum(1 for h in rep_hashes if any(line in boilerplate for line in lines_of[h]))
+        feature_texts = [without_boilerplate(lines_of[h], boilerplate).encode("utf-8") for h in rep_hashes]
+        rep_buf, rep_offsets = pack_bytes(feature_texts)
+    else:
+        feature_texts = [canonical_of[h] for h in rep_hashes]
+        position_of = {h: k for k, h in enumerate(distinct)}
+        picks = np.asarray([position_of[h] for h in rep_hashes], dtype=np.int64)
+        rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
+    del lines_of
     needs_strings = settings.char_ngrams or settings.hash_scheme != "stable64"
     features = features_from_buffer(
         rep_buf,
         rep_offsets,
-        texts=[canonical_of[hashes[i]].decode("utf-8") for i in rep_docs.tolist()] if needs_strings else None,
+        texts=[t.decode("utf-8") for t in feature_texts] if needs_strings else None,
         shingle_size=settings.shingle_size,
         char_ngrams=settings.char_ngrams,
         hash_scheme=settings.hash_scheme,
     )
-    del buf, rep_buf, canonical_of
+    del buf, rep_buf, canonical_of, feature_texts
     progress.done()
     watch.lap("features")
     model = fit_tfidf(
@@ -461,6 +486,16 @@ def audit(
             }
         )
 
+    boilerplate_info = {
+        "enabled": settings.boilerplate,
+        "limit_texts": boilerplate_limit,
+        "lines": len(boilerplate),
+        "texts_affected": boilerplate_affected,
+        "top": [
+            {"text": line[:300], "texts": count}
+            for line, count in sorted(boilerplate.items(), key=lambda kv: (-kv[1], kv[0]))[:100]
+        ],
+    }
     ledger_counts = summarize(ledger)
     in_clusters = sum(c["size"] for c in clusters)
     summary = {
@@ -501,12 +536,28 @@ def audit(
         actions=actions,
         candidates=candidates_info,
         tfidf=tfidf_info,
+        boilerplate=boilerplate_info,
         warnings=warnings,
         summary=summary,
         audit_id=audit_id,
         run=run,
         texts=texts,
     )
+
+
+def _read_ignore_text(path: str | None) -> list[str]:
+    """Lines of the user's known shared text, normalized; an unreadable file is an input error."""
+    if not path:
+        return []
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read()
+    except OSError as err:
+        raise InputError(f"cannot read the ignore-text file {path}: {err.strerror}") from None
+    text, _, problem = decode_text(data)
+    if text is None:
+        raise InputError(f"cannot read the ignore-text file {path}: {problem}")
+    return canonical_lines(text)
 
 
 def _action(doc_id: str, action: str, favour: str | None, cluster: str | None, reason: str) -> dict:

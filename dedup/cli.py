@@ -151,6 +151,30 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="SHARE",
         help="propose retiring a near-duplicate only if this share of it is in the keeper",
     )
+    g = p.add_argument_group("boilerplate")
+    g.add_argument(
+        "--keep-boilerplate", action="store_true", help="do not leave out lines shared by many documents"
+    )
+    g.add_argument(
+        "--boilerplate-share",
+        type=float,
+        default=d.boilerplate_share,
+        metavar="SHARE",
+        help="a line in at least this share of the distinct texts is boilerplate",
+    )
+    g.add_argument(
+        "--boilerplate-min-texts",
+        type=int,
+        default=d.boilerplate_min_texts,
+        metavar="N",
+        help="... and in at least this many",
+    )
+    g.add_argument(
+        "--ignore-text",
+        default=None,
+        metavar="FILE",
+        help="a file of known shared text (one line per notice, footer, …) always left out",
+    )
     g = p.add_argument_group("inputs")
     g.add_argument(
         "--id-field",
@@ -207,6 +231,10 @@ def _settings_from(args: argparse.Namespace) -> AuditSettings:
         retire_coverage=args.retire_coverage,
         id_field=args.id_field,
         text_fields=tuple(args.text_field) if args.text_field else ("text",),
+        boilerplate=not args.keep_boilerplate,
+        boilerplate_share=args.boilerplate_share,
+        boilerplate_min_texts=args.boilerplate_min_texts,
+        ignore_text_file=args.ignore_text,
         max_file_bytes=args.max_file_bytes,
         include_hidden=args.include_hidden,
         fail_on=args.fail_on,
@@ -244,7 +272,7 @@ def _run_audit(args: argparse.Namespace) -> int:
     except SettingsError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE
-    for path in args.paths:
+    for path in args.paths + ([args.ignore_text] if args.ignore_text else []):
         if not os.path.exists(path):
             print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
             return EXIT_USAGE

@@ -92,6 +92,14 @@ class AuditSettings:
     id_field, text_fields : str or None, tuple of str
         Record fields for ``.jsonl`` / ``.csv`` inputs. Several text fields are
         joined with a blank line.
+    boilerplate : bool
+        Leave lines shared by many documents (navigation, headers, footers, notices)
+        out of the shingles; see `dedup.normalize.boilerplate`.
+    boilerplate_share, boilerplate_min_texts : float, int
+        A line is boilerplate when it appears in at least
+        ``max(boilerplate_min_texts, boilerplate_share * n)`` of the n distinct texts.
+    ignore_text_file : str or None
+        A file whose lines are always treated as boilerplate (known shared text).
     max_file_bytes : int
         Files larger than this are skipped (recorded with the reason).
     include_hidden : bool
@@ -122,6 +130,10 @@ class AuditSettings:
     retire_coverage: float = 0.8
     id_field: str | None = None
     text_fields: tuple[str, ...] = ("text",)
+    boilerplate: bool = True
+    boilerplate_share: float = 0.05
+    boilerplate_min_texts: int = 3
+    ignore_text_file: str | None = None
     max_file_bytes: int = 50_000_000
     include_hidden: bool = False
     fail_on: str = "none"
@@ -180,6 +192,11 @@ class AuditSettings:
         unit("candidate_threshold", self.candidate_threshold)
         unit("retire_coverage", self.retire_coverage, allow_zero=True)
         unit("false_positive_weight", self.false_positive_weight, allow_zero=True)
+        unit("boilerplate_share", self.boilerplate_share)
+        if not isinstance(self.boilerplate_min_texts, int) or self.boilerplate_min_texts < 2:
+            fail(
+                f"boilerplate_min_texts must be a whole number of at least 2, got {self.boilerplate_min_texts!r}"
+            )
         if self.measure not in MEASURES:
             fail(f"measure must be one of {', '.join(MEASURES)}, got {self.measure!r}")
         if self.keeper_policy not in KEEPER_POLICIES:

@@ -1,0 +1,65 @@
+"""Boilerplate: lines shared by many documents (navigation, headers, footers, notices).
+
+A line that appears in at least ``max(min_texts, share * n)`` of the n distinct texts is
+boilerplate, and so is every line of a user's ``--ignore-text`` file. Boilerplate lines are
+left out of the text that is shingled (the exact-duplicate pass still sees the whole
+text), so two articles that share only a footer do not look alike, and two copies that
+differ only in their footer look identical. Counting is over distinct texts, so exact
+copies of one article never make its lines boilerplate. When every line of a text is
+boilerplate, the text is shingled whole (nothing else would be left to compare).
+
+Cost O(lines) with a dictionary.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from collections.abc import Iterable
+
+from .text import canonical_text
+
+__all__ = ["canonical_lines", "find_boilerplate", "without_boilerplate"]
+
+
+def canonical_lines(text: str) -> list[str]:
+    """The non-empty lines of a text, each normalized like the whole text.
+
+    Joined by single spaces they give the canonical text of the whole:
+
+    >>> " ".join(canonical_lines("A  b\\n\\n C\\n")) == canonical_text("A  b\\n\\n C\\n")
+    True
+    """
+    out = []
+    for line in text.splitlines():
+        canonical = canonical_text(line)
+        if canonical:
+            out.append(canonical)
+    return out
+
+
+def find_boilerplate(
+    line_lists: Iterable[list[str]], *, share: float, min_texts: int, known: Iterable[str] = ()
+) -> tuple[dict[str, int], int]:
+    """Boilerplate lines with the number of distinct texts each appears in, and the limit used.
+
+    >>> lines = [["notice", "a"], ["notice", "b"], ["notice", "c"], ["d"]]
+    >>> find_boilerplate(lines, share=0.5, min_texts=2)
+    ({'notice': 3}, 2)
+    """
+    frequency: Counter[str] = Counter()
+    n = 0
+    for lines in line_lists:
+        n += 1
+        frequency.update(set(lines))
+    limit = max(min_texts, math.ceil(share * n))
+    found = {line: count for line, count in frequency.items() if count >= limit}
+    for line in known:
+        found.setdefault(line, frequency.get(line, 0))
+    return found, limit
+
+
+def without_boilerplate(lines: list[str], boilerplate: dict[str, int] | set[str]) -> str:
+    """The text to shingle: the lines that are not boilerplate, or all of them if none is left."""
+    kept = [line for line in lines if line not in boilerplate]
+    return " ".join(kept if kept else lines)
