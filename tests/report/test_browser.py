@@ -178,7 +178,7 @@ def test_hostile_documents_run_no_script_and_still_render(page, tmp_path):
     ) * 3
     root = tmp_path / "hostile"
     root.mkdir()
-    names = ['<script>x<\\script>.md', 'onerror="alert(1)".md', "javascript:alert(1).md", "\u202etxt.md"]
+    names = ['<script>x<\\script>.txt', 'onerror="alert(1)".txt', "javascript:alert(1).txt", "\u202etxt.txt"]
     for n, name in enumerate(names):
         (root / name).write_text(f"{HOSTILE[n % len(HOSTILE)]} {body} {' '.join(HOSTILE)} {'x' * 5000}\n", encoding="utf-8")
     (root / "<iframe>.bin").write_bytes(b"\x00")
