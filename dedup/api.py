@@ -297,10 +297,16 @@ def audit(
             min_texts=settings.boilerplate_min_texts,
             known=known_boilerplate,
         )
-    boilerplate_affected = 0
+    boilerplate_affected = boilerplate_protected = 0
     if boilerplate:
-        boilerplate_affected = sum(1 for h in rep_hashes if any(line in boilerplate for line in lines_of[h]))
-        feature_texts = [without_boilerplate(lines_of[h], boilerplate).encode("utf-8") for h in rep_hashes]
+        feature_texts = []
+        for h in rep_hashes:
+            text, discounted = without_boilerplate(
+                lines_of[h], boilerplate, settings.boilerplate_max_text_share
+            )
+            feature_texts.append(text.encode("utf-8"))
+            boilerplate_affected += discounted
+            boilerplate_protected += not discounted and any(line in boilerplate for line in lines_of[h])
         rep_buf, rep_offsets = pack_bytes(feature_texts)
     else:
         feature_texts = [canonical_of[h] for h in rep_hashes]
@@ -491,6 +497,7 @@ def audit(
         "limit_texts": boilerplate_limit,
         "lines": len(boilerplate),
         "texts_affected": boilerplate_affected,
+        "texts_compared_whole": boilerplate_protected,
         "top": [
             {"text": line[:300], "texts": count}
             for line, count in sorted(boilerplate.items(), key=lambda kv: (-kv[1], kv[0]))[:100]

@@ -170,6 +170,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="... and in at least this many",
     )
     g.add_argument(
+        "--boilerplate-max-text-share",
+        type=float,
+        default=d.boilerplate_max_text_share,
+        metavar="SHARE",
+        help="a text that would lose more than this share to boilerplate is compared whole",
+    )
+    g.add_argument(
         "--ignore-text",
         default=None,
         metavar="FILE",
@@ -234,6 +241,7 @@ def _settings_from(args: argparse.Namespace) -> AuditSettings:
         boilerplate=not args.keep_boilerplate,
         boilerplate_share=args.boilerplate_share,
         boilerplate_min_texts=args.boilerplate_min_texts,
+        boilerplate_max_text_share=args.boilerplate_max_text_share,
         ignore_text_file=args.ignore_text,
         max_file_bytes=args.max_file_bytes,
         include_hidden=args.include_hidden,

@@ -98,6 +98,9 @@ class AuditSettings:
     boilerplate_share, boilerplate_min_texts : float, int
         A line is boilerplate when it appears in at least
         ``max(boilerplate_min_texts, boilerplate_share * n)`` of the n distinct texts.
+    boilerplate_max_text_share : float
+        A text that would lose more than this share of its characters to boilerplate is
+        compared whole: shared lines that make up most of a text are its content.
     ignore_text_file : str or None
         A file whose lines are always treated as boilerplate (known shared text).
     max_file_bytes : int
@@ -133,6 +136,7 @@ class AuditSettings:
     boilerplate: bool = True
     boilerplate_share: float = 0.05
     boilerplate_min_texts: int = 3
+    boilerplate_max_text_share: float = 0.5
     ignore_text_file: str | None = None
     max_file_bytes: int = 50_000_000
     include_hidden: bool = False
@@ -193,6 +197,7 @@ class AuditSettings:
         unit("retire_coverage", self.retire_coverage, allow_zero=True)
         unit("false_positive_weight", self.false_positive_weight, allow_zero=True)
         unit("boilerplate_share", self.boilerplate_share)
+        unit("boilerplate_max_text_share", self.boilerplate_max_text_share)
         if not isinstance(self.boilerplate_min_texts, int) or self.boilerplate_min_texts < 2:
             fail(
                 f"boilerplate_min_texts must be a whole number of at least 2, got {self.boilerplate_min_texts!r}"

@@ -14,12 +14,22 @@ FOOTER = (
     "of changes and can confirm which version applied on a given day, for audits and for complaints alike."
 )
 BODIES = [
-    "Meter readers visit every property once a quarter.",
-    "Leave requests go to your line manager for approval.",
-    "Reset your VPN password from the self-service portal.",
-    "Vehicles are booked through the fleet calendar.",
-    "Printers on the second floor need a badge to release jobs.",
+    " ".join(f"Meter reading step {i} covers the quarterly visit and the estimate rules." for i in range(12)),
+    " ".join(
+        f"Leave request rule {i} explains approval by the line manager and the calendar." for i in range(12)
+    ),
+    " ".join(
+        f"VPN reset note {i} describes the portal, the token and the expiry reminder." for i in range(12)
+    ),
+    " ".join(
+        f"Fleet booking item {i} lists the calendar, the keys and the fuel card return." for i in range(12)
+    ),
+    " ".join(
+        f"Printer badge hint {i} says how jobs are released on the second floor today." for i in range(12)
+    ),
 ]
+# The footer is a large share of each text but less than half of it.
+LOW = AuditSettings(threshold=0.3)
 
 
 def _corpus(write_corpus):
@@ -28,9 +38,9 @@ def _corpus(write_corpus):
 
 def test_shared_footer_alone_does_not_make_duplicates(write_corpus):
     root = _corpus(write_corpus)
-    kept = dedup.audit([str(root)], AuditSettings(boilerplate=False))
-    assert len(kept.clusters) == 1 and kept.clusters[0]["size"] == 5  # the footer dominates each text
-    result = dedup.audit([str(root)])
+    kept = dedup.audit([str(root)], LOW.replace(boilerplate=False))
+    assert len(kept.clusters) == 1 and kept.clusters[0]["size"] == 5  # the footer alone links them
+    result = dedup.audit([str(root)], LOW)
     assert result.clusters == []
     assert result.boilerplate["lines"] == 1 and result.boilerplate["top"][0]["texts"] == 5
     assert result.boilerplate["texts_affected"] == 5
@@ -51,31 +61,26 @@ def test_exact_copies_never_make_their_own_lines_boilerplate(write_corpus):
 
 def test_ignore_text_file_is_always_left_out(write_corpus, tmp_path):
     root = write_corpus({"a.md": f"{BODIES[0]}\n{FOOTER}\n", "b.md": f"{BODIES[1]}\n{FOOTER}\n"})
-    assert len(dedup.audit([str(root)]).clusters) == 1  # two texts: below the boilerplate limit
+    assert len(dedup.audit([str(root)], LOW).clusters) == 1  # two texts: below the boilerplate limit
     known = tmp_path / "known.txt"
     known.write_text(FOOTER.upper() + "\n", encoding="utf-8")
-    result = dedup.audit([str(root)], AuditSettings(ignore_text_file=str(known)))
+    result = dedup.audit([str(root)], LOW.replace(ignore_text_file=str(known)))
     assert result.clusters == []
     assert result.boilerplate["top"][0]["texts"] == 2
     out = tmp_path / "out"
     assert main(["audit", str(root), "--out", str(out), "--ignore-text", str(tmp_path / "missing.txt")]) == 2
-    assert (
-        main(
-            [
-                "audit",
-                str(root),
-                "--out",
-                str(out),
-                "--ignore-text",
-                str(known),
-                "--fail-on",
-                "any",
-                "--quiet",
-            ]
-        )
-        == 0
+    low = ["--threshold", "0.3", "--fail-on", "any", "--quiet"]
+    assert main(["audit", str(root), "--out", str(out), "--ignore-text", str(known), *low]) == 0
+    assert main(["audit", str(root), "--out", str(out), "--keep-boilerplate", *low]) == 1
+
+
+def test_a_family_of_generated_pages_is_compared_whole(write_corpus):
+    """Lines shared by many near-copies are their content, not boilerplate around it."""
+    template = "\n".join(
+        f"Shared generated line {i} of the reference page for the command." for i in range(30)
     )
-    assert (
-        main(["audit", str(root), "--out", str(out), "--keep-boilerplate", "--fail-on", "any", "--quiet"])
-        == 1
-    )
+    files = {f"page{i}.txt": f"Page {i} describes command number {i}.\n{template}\n" for i in range(8)}
+    root = write_corpus(files)
+    result = dedup.audit([str(root)])
+    assert result.boilerplate["lines"] == 30 and result.boilerplate["texts_compared_whole"] == 8
+    assert len(result.clusters) == 1 and result.clusters[0]["size"] == 8

@@ -5,8 +5,10 @@ boilerplate, and so is every line of a user's ``--ignore-text`` file. Boilerplat
 left out of the text that is shingled (the exact-duplicate pass still sees the whole
 text), so two articles that share only a footer do not look alike, and two copies that
 differ only in their footer look identical. Counting is over distinct texts, so exact
-copies of one article never make its lines boilerplate. When every line of a text is
-boilerplate, the text is shingled whole (nothing else would be left to compare).
+copies of one article never make its lines boilerplate. Boilerplate surrounds a text; it
+is not the text: when the shared lines would take away more than ``max_text_share`` of a
+text's characters (a family of generated pages, or many near-copies of one article), the
+text is shingled whole, so near-copies are still compared on all they share.
 
 Cost O(lines) with a dictionary.
 """
@@ -59,7 +61,20 @@ def find_boilerplate(
     return found, limit
 
 
-def without_boilerplate(lines: list[str], boilerplate: dict[str, int] | set[str]) -> str:
-    """The text to shingle: the lines that are not boilerplate, or all of them if none is left."""
+def without_boilerplate(
+    lines: list[str], boilerplate: dict[str, int] | set[str], max_text_share: float = 0.5
+) -> tuple[str, bool]:
+    """The text to shingle and whether boilerplate was left out of it.
+
+    >>> without_boilerplate(["a long body line here", "notice"], {"notice"})
+    ('a long body line here', True)
+    >>> without_boilerplate(["short", "a long shared notice"], {"a long shared notice"})
+    ('short a long shared notice', False)
+    """
     kept = [line for line in lines if line not in boilerplate]
-    return " ".join(kept if kept else lines)
+    if len(kept) == len(lines):
+        return " ".join(lines), False
+    removed = sum(len(line) for line in lines) - sum(len(line) for line in kept)
+    if not kept or removed > max_text_share * sum(len(line) for line in lines):
+        return " ".join(lines), False
+    return " ".join(kept), True
