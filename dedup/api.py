@@ -222,6 +222,13 @@ def audit(
         max_file_bytes=settings.max_file_bytes,
         include_hidden=settings.include_hidden,
         ledger=ledger,
+        max_text_chars=settings.max_text_chars,
+        max_archive_ratio=settings.max_archive_ratio,
+        max_archive_bytes=settings.max_archive_bytes,
+        html_keep_all=settings.html_keep_all,
+        include=settings.include,
+        exclude=settings.exclude,
+        include_vcs=settings.include_vcs,
     ):
         raw.append(doc)
         progress.advance()

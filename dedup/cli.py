@@ -48,7 +48,9 @@ def build_parser() -> argparse.ArgumentParser:
         "audit",
         help="audit files and folders for duplicates",
         description=(
-            "Audit files and folders (.txt .md .rst .html .htm, and .jsonl/.csv/.tsv records) for exact and "
+            "Audit files and folders (.txt .md .rst .adoc .html .htm .xhtml .eml .mbox; .docx .odt .pdf with "
+            "dedup[docs]; records in .jsonl .json .csv .tsv .parquet; .zip .tar .tar.gz .tgz archives read in place; "
+            "'-' reads a list of paths from standard input) for exact and "
             "near-duplicate documents. Writes audit.json, pairs.csv, clusters.csv, actions.csv, ledger.csv, "
             "run.json and report.html into --out."
         ),
@@ -204,6 +206,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="skip files larger than this",
     )
     g.add_argument("--include-hidden", action="store_true", help="also read hidden files and folders")
+    g.add_argument("--include-vcs", action="store_true", help="also read version-control folders (.git, .hg, .svn, …)")
+    g.add_argument("--include", action="append", default=[], metavar="GLOB", help="read only paths matching this glob (repeatable)")
+    g.add_argument("--exclude", action="append", default=[], metavar="GLOB", help="do not read paths matching this glob (repeatable)")
+    g.add_argument("--max-text-chars", type=int, default=d.max_text_chars, metavar="N", help="cut longer texts to this many characters (marked truncated)")
+    g.add_argument("--max-archive-ratio", type=float, default=d.max_archive_ratio, metavar="R", help="refuse archive members that expand more than R times")
+    g.add_argument("--max-archive-bytes", type=int, default=d.max_archive_bytes, metavar="N", help="stop expanding an archive beyond N bytes in all")
+    g.add_argument("--html-keep-all", action="store_true", help="keep navigation, headers, footers and asides of HTML pages")
     g = p.add_argument_group("running")
     g.add_argument(
         "--fail-on",
@@ -245,6 +254,13 @@ def _settings_from(args: argparse.Namespace) -> AuditSettings:
         ignore_text_file=args.ignore_text,
         max_file_bytes=args.max_file_bytes,
         include_hidden=args.include_hidden,
+        include_vcs=args.include_vcs,
+        include=tuple(args.include),
+        exclude=tuple(args.exclude),
+        max_text_chars=args.max_text_chars,
+        max_archive_ratio=args.max_archive_ratio,
+        max_archive_bytes=args.max_archive_bytes,
+        html_keep_all=args.html_keep_all,
         fail_on=args.fail_on,
     )
 
@@ -254,7 +270,10 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
     inputs = s["inputs"]
     r = result.candidates["expected_recall"]["points"]
     lines = [
-        f"inputs: {inputs['entries']:,} ({inputs['read']:,} read, {inputs['empty']:,} empty, {inputs['skipped']:,} skipped)",
+        (
+            f"inputs: {inputs['entries']:,} ({inputs['read']:,} read, {inputs['truncated']:,} truncated, "
+            f"{inputs['empty']:,} empty, {inputs['skipped']:,} skipped, {inputs['refused']:,} refused)"
+        ),
         f"exact-copy groups: {s['exact_groups']:,} ({s['documents_in_exact_groups']:,} documents)",
         f"clusters: {s['clusters']:,} ({s['documents_in_clusters']:,} documents, {s['linked_through']:,} linked through another member)",
         f"proposed: retire {s['retire_documents']:,} documents ({s['retire_bytes']:,} bytes), review {s['review_documents']:,}",
@@ -281,7 +300,7 @@ def _run_audit(args: argparse.Namespace) -> int:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE
     for path in args.paths + ([args.ignore_text] if args.ignore_text else []):
-        if not os.path.exists(path):
+        if path != "-" and not os.path.exists(path):
             print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
             return EXIT_USAGE
     out = args.out

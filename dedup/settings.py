@@ -105,8 +105,19 @@ class AuditSettings:
         A file whose lines are always treated as boilerplate (known shared text).
     max_file_bytes : int
         Files larger than this are skipped (recorded with the reason).
+    max_text_chars : int
+        Longer texts are cut to this many characters and marked ``truncated``.
+    max_archive_ratio, max_archive_bytes : float, int
+        Limits on archive expansion (ratio of unpacked to packed size, and total
+        unpacked bytes) against archive bombs.
+    html_keep_all : bool
+        Keep navigation, headers, footers and asides of HTML pages.
+    include, exclude : tuple of str
+        Path globs a file must match / must not match to be read.
     include_hidden : bool
         Read hidden files and folders (names starting with a dot) too.
+    include_vcs : bool
+        Read version-control folders (.git, .hg, .svn, …) too.
     fail_on : {"none", "any"}
         ``any``: the CLI exits with code 1 when any cluster is found.
     """
@@ -139,12 +150,19 @@ class AuditSettings:
     boilerplate_max_text_share: float = 0.5
     ignore_text_file: str | None = None
     max_file_bytes: int = 50_000_000
+    max_text_chars: int = 10_000_000
+    max_archive_ratio: float = 200.0
+    max_archive_bytes: int = 2_000_000_000
+    html_keep_all: bool = False
+    include: tuple[str, ...] = field(default_factory=tuple)
+    exclude: tuple[str, ...] = field(default_factory=tuple)
     include_hidden: bool = False
+    include_vcs: bool = False
     fail_on: str = "none"
 
     def __post_init__(self) -> None:
         # Lists given by callers become tuples so the object stays hashable and frozen.
-        for name in ("prefer", "text_fields"):
+        for name in ("prefer", "text_fields", "include", "exclude"):
             value = getattr(self, name)
             if isinstance(value, str):
                 value = (value,)
@@ -218,10 +236,14 @@ class AuditSettings:
             "bucket_limit": self.bucket_limit,
             "tfidf_features": self.tfidf_features,
             "max_file_bytes": self.max_file_bytes,
+            "max_text_chars": self.max_text_chars,
+            "max_archive_bytes": self.max_archive_bytes,
         }
         for name, value in positive.items():
             if not isinstance(value, int) or isinstance(value, bool) or value < 1:
                 fail(f"{name} must be a whole number of at least 1, got {value!r}")
+        if not isinstance(self.max_archive_ratio, (int, float)) or not self.max_archive_ratio >= 1:
+            fail(f"max_archive_ratio must be a number of at least 1, got {self.max_archive_ratio!r}")
         if self.bucket_limit < 2:
             fail(f"bucket_limit must be at least 2, got {self.bucket_limit}")
         if self.char_ngrams is not None and (not isinstance(self.char_ngrams, int) or self.char_ngrams < 1):

@@ -1,7 +1,10 @@
-"""Ingest: files and folders → documents, with a ledger entry for every input."""
+"""Ingest: files, folders and archives → documents, with a ledger entry for every input."""
 
+from .document import Item, RawDocument
+from .encoding import decode_text
 from .ledger import STATUSES, LedgerEntry, summarize
-from .readers import FORMATS, RawDocument, decode_text, format_of
+from .options import ReadOptions
+from .readers import FORMATS, format_of
 from .walk import InputError, iter_documents
 
 __all__ = [
@@ -9,7 +12,9 @@ __all__ = [
     "LedgerEntry",
     "summarize",
     "FORMATS",
+    "Item",
     "RawDocument",
+    "ReadOptions",
     "decode_text",
     "format_of",
     "InputError",

@@ -1,214 +1,285 @@
-"""Readers: from the bytes of one file to documents and ledger entries.
+"""Readers: from one input (a file or an archive member) of a known format to documents.
 
-Every reader returns ``(documents, entries)``; a problem with the file or one of its
-records becomes a ledger entry with a reason, never an exception for the caller.
+This module chooses the reader for a format and applies what holds for every format:
+a reader that fails is recorded as a skip with the reason (never an exception for the
+caller), texts longer than the limit are cut and marked "truncated", texts without
+any non-space character are marked "empty", and text the output files could not hold
+(lone surrogates from JSON escapes) is repaired. Archives hand each member back to
+`read_bytes`, so a member is read exactly like a file.
 """
 
 from __future__ import annotations
 
-import codecs
-import csv
 import io
-import json
-from collections.abc import Sequence
-from dataclasses import dataclass, field
+from collections.abc import Callable, Iterator, Sequence
+from typing import BinaryIO
 
-from .html_text import html_to_text
+from .archives import Member, iter_tar, iter_zip
+from .budget import ExpansionBudget
+from .columnar import read_parquet
+from .document import Item, Outcome, RawDocument
+from .encoding import decode_text
+from .filters import member_reason
+from .html_text import declared_charset, html_to_text
 from .ledger import LedgerEntry
+from .mail import read_eml, read_mbox
+from .markup import MARKUP_FORMATS, first_line_title, reduce_markup
+from .office import read_docx, read_odt
+from .optional import MissingParser
+from .options import ReadOptions
+from .pdf import read_pdf
+from .records import csv_records, json_records, jsonl_records, record_outcomes
 
-__all__ = ["RawDocument", "FORMATS", "format_of", "decode_text", "read_file_bytes"]
+__all__ = [
+    "RawDocument",
+    "FORMATS",
+    "ARCHIVE_FORMATS",
+    "STREAMED_FORMATS",
+    "format_of",
+    "decode_text",
+    "read_bytes",
+    "read_stream",
+    "read_file_bytes",
+]
 
-# Extension → format name.
+# Extension → format name. Longer extensions first, so ".tar.gz" wins over ".gz".
 FORMATS = {
+    ".tar.gz": "tar.gz",
+    ".tar.bz2": "tar.bz2",
+    ".tar.xz": "tar.xz",
+    ".tgz": "tar.gz",
+    ".tbz2": "tar.bz2",
+    ".txz": "tar.xz",
+    ".tar": "tar",
+    ".zip": "zip",
     ".txt": "text",
     ".text": "text",
     ".md": "markdown",
     ".markdown": "markdown",
     ".rst": "restructuredtext",
+    ".adoc": "asciidoc",
+    ".asciidoc": "asciidoc",
+    ".asc": "asciidoc",
     ".html": "html",
     ".htm": "html",
     ".xhtml": "html",
+    ".docx": "docx",
+    ".odt": "odt",
+    ".pdf": "pdf",
+    ".eml": "email",
+    ".mbox": "mbox",
     ".jsonl": "jsonl",
     ".ndjson": "jsonl",
+    ".json": "json",
     ".csv": "csv",
     ".tsv": "tsv",
+    ".parquet": "parquet",
 }
+ARCHIVE_FORMATS = frozenset({"zip", "tar", "tar.gz", "tar.bz2", "tar.xz"})
+# Read from an open file on disk rather than loaded whole: their size is bounded by the
+# archive limits (or, for Parquet, read a batch of rows at a time).
+STREAMED_FORMATS = ARCHIVE_FORMATS | {"parquet"}
+# One archive inside another is read; an archive inside that is not.
+MAX_NESTING = 1
 
-_BOMS = (
-    (codecs.BOM_UTF32_LE, "utf-32-le"),
-    (codecs.BOM_UTF32_BE, "utf-32-be"),
-    (codecs.BOM_UTF8, "utf-8-sig"),
-    (codecs.BOM_UTF16_LE, "utf-16-le"),
-    (codecs.BOM_UTF16_BE, "utf-16-be"),
-)
-
-
-@dataclass
-class RawDocument:
-    """One document as read: its id, its text and what is known about it."""
-
-    id: str
-    text: str
-    source: str
-    format: str
-    size: int
-    encoding: str
-    title: str = ""
-    record: str = ""
-    mtime: float | None = None
-    metadata: dict = field(default_factory=dict)
+_LABELS = {
+    "text": "text",
+    "markdown": "Markdown",
+    "restructuredtext": "reStructuredText",
+    "asciidoc": "AsciiDoc",
+    "html": "HTML",
+    "docx": ".docx",
+    "odt": "OpenDocument text",
+    "pdf": "PDF",
+    "email": "e-mail",
+    "mbox": "mbox mailbox",
+    "jsonl": "JSON Lines",
+    "json": "JSON",
+    "csv": "CSV",
+    "tsv": "TSV",
+    "parquet": "Parquet",
+}
 
 
 def format_of(path: str) -> str | None:
-    """Format name from the file name, or None when we have no reader for it."""
-    lower = path.lower()
-    dot = lower.rfind(".")
-    return FORMATS.get(lower[dot:]) if dot >= 0 else None
+    """Format name from the file name, or None when we have no reader for it.
+
+    >>> format_of("notes/Report.PDF"), format_of("corpus.tar.gz"), format_of("image.png")
+    ('pdf', 'tar.gz', None)
+    """
+    lower = path.lower().rsplit("/", 1)[-1]
+    for extension, fmt in FORMATS.items():
+        if lower.endswith(extension) and len(lower) > len(extension):
+            return fmt
+    return None
 
 
-def decode_text(data: bytes) -> tuple[str | None, str, str]:
-    """``(text, encoding, problem)``: text is None when the bytes are not text we can read."""
-    for bom, name in _BOMS:
-        if data.startswith(bom):
-            try:
-                return data[len(bom) :].decode(name.replace("-sig", "")), name, ""
-            except UnicodeDecodeError as err:
-                return None, name, f"not valid {name} text: byte {err.start + len(bom)} cannot be decoded"
-    nul = data.find(b"\x00")
-    if nul >= 0:
-        return None, "", f"binary data: NUL byte at offset {nul}"
-    try:
-        return data.decode("utf-8"), "utf-8", ""
-    except UnicodeDecodeError as err:
-        bad = data[err.start : err.start + 1].hex()
-        return None, "", f"not UTF-8 text: byte 0x{bad} at offset {err.start} cannot be decoded"
+def _one_line(err: BaseException) -> str:
+    return (" ".join(str(err).split()) or type(err).__name__)[:200]
 
 
-def _title_of_markup(text: str) -> str:
-    for line in text.splitlines():
-        stripped = line.strip()
-        if stripped:
-            return stripped.lstrip("#").strip()[:200]
-    return ""
+# -- formats ------------------------------------------------------------------------------
+def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    declared = declared_charset(data) if item.format == "html" else None
+    text, encoding, problem = decode_text(data, declared=declared)
+    if text is None:
+        yield None, item.entry("skipped", problem, encoding=encoding)
+        return
+    if item.format == "html":
+        body, title = html_to_text(text, keep_all=opts.html_keep_all)
+        title = title or first_line_title(body)
+    else:
+        body, title = reduce_markup(text, item.format)
+    yield item.document(body, title=title, encoding=encoding)
 
 
-def _join_fields(record: dict, text_fields: Sequence[str]) -> tuple[str | None, str]:
-    present = [f for f in text_fields if f in record]
-    if not present:
-        return None, f"no field {', '.join(repr(f) for f in text_fields)}"
-    parts = []
-    for f in present:
-        value = record[f]
-        if value is None:
+def _read_records(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    text, encoding, problem = decode_text(data)
+    if text is None:
+        yield None, item.entry("skipped", problem, encoding=encoding)
+        return
+    if item.format == "jsonl":
+        triples = jsonl_records(text)
+    elif item.format == "json":
+        triples = json_records(text)
+    else:
+        triples = csv_records(text, "\t" if item.format == "tsv" else ",", opts.text_fields)
+    yield from record_outcomes(triples, item, opts, encoding=encoding)
+
+
+def _read_parquet_bytes(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    yield from read_parquet(io.BytesIO(data), item, opts)
+
+
+_BYTES_READERS: dict[str, Callable[[bytes, Item, ReadOptions], Iterator[Outcome]]] = {
+    **{fmt: _read_text for fmt in (*MARKUP_FORMATS, "html")},
+    **{fmt: _read_records for fmt in ("jsonl", "json", "csv", "tsv")},
+    "docx": read_docx,
+    "odt": read_odt,
+    "pdf": read_pdf,
+    "email": read_eml,
+    "mbox": read_mbox,
+    "parquet": _read_parquet_bytes,
+}
+
+
+# -- archives -----------------------------------------------------------------------------
+def _screen(item: Item, opts: ReadOptions) -> Callable[[str], tuple[str, str] | None]:
+    """What to pass over in an archive before reading it: the same rules as for found files."""
+
+    def screen(name: str) -> tuple[str, str] | None:
+        member_id = f"{item.id}!/{name}"
+        fmt = format_of(name)
+        reason = member_reason(member_id, name, opts, container=fmt in ARCHIVE_FORMATS)
+        if reason:
+            return "skipped", reason
+        if fmt is None:
+            ext = "." + name.rsplit(".", 1)[-1] if "." in name.rsplit("/", 1)[-1] else "(no extension)"
+            return "skipped", f"unsupported file type {ext}"
+        if fmt in ARCHIVE_FORMATS and item.depth + 1 > MAX_NESTING:
+            return "skipped", "archive inside a nested archive: not opened (one level of nesting is read)"
+        return None
+
+    return screen
+
+
+def _read_archive(
+    handle: BinaryIO, item: Item, opts: ReadOptions, budget: ExpansionBudget | None
+) -> Iterator[Outcome]:
+    budget = ExpansionBudget(item.size, opts) if budget is None else budget.child(item.size)
+    iterate = iter_zip if item.format == "zip" else iter_tar
+    accounted = 0
+    member: Member
+    for member in iterate(handle, opts, budget, _screen(item, opts)):
+        accounted += 1
+        if not member.name:
+            yield None, item.entry(member.status, member.reason)
             continue
-        parts.append(
-            value if isinstance(value, str) else json.dumps(value, ensure_ascii=False, sort_keys=True)
+        member_id = f"{item.id}!/{member.name}"
+        child = Item(
+            member_id, member_id, format_of(member.name) or "", member.size or 0, member.mtime, item.depth + 1
         )
-    return "\n\n".join(parts), ""
-
-
-def _record_documents(
-    records: list[tuple[str, dict | None, str]],
-    *,
-    doc_id: str,
-    source: str,
-    fmt: str,
-    size: int,
-    encoding: str,
-    id_field: str | None,
-    text_fields: Sequence[str],
-    mtime: float | None,
-) -> tuple[list[RawDocument], list[LedgerEntry]]:
-    """Documents from parsed records ``(record label, record or None, problem)``."""
-    docs: list[RawDocument] = []
-    entries: list[LedgerEntry] = []
-    seen_ids: set[str] = set()
-    for label, record, problem in records:
-        entry = LedgerEntry(
-            input=source, status="skipped", format=fmt, size=size, encoding=encoding, record=label
-        )
-        entries.append(entry)
-        if record is None:
-            entry.reason = problem
-            continue
-        text, missing = _join_fields(record, text_fields)
-        if text is None:
-            entry.reason = f"{label}: {missing}; choose the text with --text-field"
-            continue
-        key = label
-        if id_field:
-            value = record.get(id_field)
-            if value is None or str(value).strip() == "":
-                entry.reason = f"{label}: no value in id field {id_field!r}"
-                continue
-            key = str(value)
-        rid = f"{doc_id}#{key}"
-        if rid in seen_ids:
-            entry.reason = f"{label}: id {key!r} repeats an earlier record of this file"
-            continue
-        seen_ids.add(rid)
-        entry.document_id = rid
-        entry.status = "read"
-        title = record.get("title") if isinstance(record.get("title"), str) else ""
-        metadata = {
-            k: v for k, v in record.items() if k not in text_fields and isinstance(v, (str, int, float))
-        }
-        docs.append(RawDocument(rid, text, source, fmt, size, encoding, title or "", label, mtime, metadata))
-    return docs, entries
-
-
-def _jsonl_records(text: str) -> list[tuple[str, dict | None, str]]:
-    out = []
-    for number, line in enumerate(text.splitlines(), 1):
-        if not line.strip():
-            continue
-        label = f"line {number}"
-        try:
-            value = json.loads(line)
-        except json.JSONDecodeError as err:
-            out.append((label, None, f"{label}: not valid JSON ({err.msg} at column {err.colno})"))
-            continue
-        if not isinstance(value, dict):
-            out.append((label, None, f"{label}: a JSON {type(value).__name__}, not an object with fields"))
-            continue
-        out.append((label, value, ""))
-    return out
-
-
-def _csv_records(text: str, delimiter: str, text_fields: Sequence[str]) -> tuple[list, str]:
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
-    try:
-        header = next(reader)
-    except StopIteration:
-        return [], ""
-    except csv.Error as err:
-        return [], f"cannot read the header row: {err}"
-    missing = [f for f in text_fields if f not in header]
-    if len(missing) == len(text_fields):
-        columns = ", ".join(header[:12]) + (" …" if len(header) > 12 else "")
-        return (
-            [],
-            f"no column {', '.join(repr(f) for f in text_fields)} (columns: {columns}); choose with --text-field",
-        )
-    out = []
-    try:
-        for row in reader:
-            label = f"row {reader.line_num}"
-            if not any(cell.strip() for cell in row):
-                continue
-            if len(row) != len(header):
-                out.append((label, None, f"{label}: {len(row)} cells where the header has {len(header)}"))
-                continue
-            out.append((label, dict(zip(header, row)), ""))
-    except csv.Error as err:
-        out.append(
-            (
-                f"row {reader.line_num}",
+        if member.status or member.data is None:
+            yield (
                 None,
-                f"row {reader.line_num}: broken CSV ({err}); rest of file not read",
+                child.entry(member.status or "skipped", member.reason or "not read", record=member.copy),
             )
+            continue
+        yield from read_bytes(member.data, child, opts, budget=budget)
+    if accounted == 0:
+        yield None, item.entry("empty", "the archive holds no files")
+
+
+# -- every format -------------------------------------------------------------------------
+def _clean(value: str) -> str:
+    # JSON escapes can produce lone surrogates, which no UTF-8 output can hold.
+    try:
+        value.encode("utf-8")
+    except UnicodeEncodeError:
+        return value.encode("utf-8", "surrogatepass").decode("utf-8", "replace")
+    return value
+
+
+def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> Outcome:
+    for name in ("input", "reason", "record", "document_id"):
+        setattr(entry, name, _clean(getattr(entry, name)))
+    if doc is None:
+        return None, entry
+    doc.id, doc.source, doc.text, doc.title = (
+        entry.document_id,
+        entry.input,
+        _clean(doc.text),
+        _clean(doc.title),
+    )
+    doc.metadata = {_clean(k): _clean(v) if isinstance(v, str) else v for k, v in doc.metadata.items()}
+    if len(doc.text) > opts.max_text_chars:
+        length = len(doc.text)
+        doc.text = doc.text[: opts.max_text_chars]
+        entry.status = "truncated"
+        entry.reason = (
+            f"text cut to {opts.max_text_chars:,} of {length:,} characters (raise --max-text-chars)"
         )
-    return out, ""
+    elif not doc.text.strip() and entry.status == "read":
+        entry.status, entry.reason = "empty", "no text"
+    return doc, entry
+
+
+def _guarded(outcomes: Iterator[Outcome], item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    """The reader's outcomes, finished; a reader that fails becomes a skip with its reason."""
+    produced = 0
+    try:
+        for doc, entry in outcomes:
+            produced += 1
+            yield _finish(doc, entry, opts)
+    except MissingParser as err:
+        yield _finish(None, item.entry("skipped", str(err)), opts)
+    except Exception as err:  # a parser's error on hostile bytes, whatever its kind
+        label = _LABELS.get(item.format, item.format + " archive")
+        reason = f"cannot be read as {label}: {_one_line(err)}"
+        if produced:
+            reason += "; rest of the file not read"
+        yield _finish(None, item.entry("skipped", reason), opts)
+
+
+def read_bytes(
+    data: bytes, item: Item, opts: ReadOptions, *, budget: ExpansionBudget | None = None
+) -> Iterator[Outcome]:
+    """Documents and ledger entries from the bytes of one input of a known format.
+
+    ``budget`` is the expansion budget of the archive the input is a member of.
+    """
+    if item.format in ARCHIVE_FORMATS:
+        yield from _guarded(_read_archive(io.BytesIO(data), item, opts, budget), item, opts)
+    else:
+        yield from _guarded(_BYTES_READERS[item.format](data, item, opts), item, opts)
+
+
+def read_stream(handle: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`."""
+    if item.format == "parquet":
+        yield from _guarded(read_parquet(handle, item, opts), item, opts)
+    else:
+        yield from _guarded(_read_archive(handle, item, opts, None), item, opts)
 
 
 def read_file_bytes(
@@ -221,35 +292,11 @@ def read_file_bytes(
     id_field: str | None,
     text_fields: Sequence[str],
 ) -> tuple[list[RawDocument], list[LedgerEntry]]:
-    """Documents and ledger entries for the bytes of one file of a known format."""
-    size = len(data)
-    text, encoding, problem = decode_text(data)
-    if text is None:
-        return [], [LedgerEntry(source, "skipped", problem, fmt, size, encoding)]
-    if fmt in ("jsonl", "csv", "tsv"):
-        if fmt == "jsonl":
-            records, file_problem = _jsonl_records(text), ""
-        else:
-            records, file_problem = _csv_records(text, "\t" if fmt == "tsv" else ",", text_fields)
-        if file_problem:
-            return [], [LedgerEntry(source, "skipped", file_problem, fmt, size, encoding)]
-        if not records:
-            return [], [LedgerEntry(source, "empty", "no records", fmt, size, encoding)]
-        return _record_documents(
-            records,
-            doc_id=doc_id,
-            source=source,
-            fmt=fmt,
-            size=size,
-            encoding=encoding,
-            id_field=id_field,
-            text_fields=text_fields,
-            mtime=mtime,
-        )
-    if fmt == "html":
-        body, title = html_to_text(text)
-        title = title or _title_of_markup(body)
-    else:
-        body, title = text, _title_of_markup(text)
-    entry = LedgerEntry(source, "read", "", fmt, size, encoding, document_id=doc_id)
-    return [RawDocument(doc_id, body, source, fmt, size, encoding, title, "", mtime)], [entry]
+    """Documents and ledger entries for the bytes of one file of a known format (all at once)."""
+    opts = ReadOptions(id_field=id_field, text_fields=tuple(text_fields))
+    docs, entries = [], []
+    for doc, entry in read_bytes(data, Item(doc_id, source, fmt, len(data), mtime), opts):
+        entries.append(entry)
+        if doc is not None:
+            docs.append(doc)
+    return docs, entries

@@ -1,0 +1,162 @@
+"""From bytes to text: byte-order marks, UTF-16/32 without a mark, UTF-8, then legacy encodings.
+
+The order matters. A byte-order mark is certain; UTF-16 and UTF-32 text without one is
+recognised by its pattern of NUL bytes (Latin-script text in them has a NUL in every
+second or every three of four bytes); other NUL bytes mean binary data. UTF-8 is tried
+next: text that decodes as UTF-8 almost never is anything else. A charset the file
+declares itself (HTML ``<meta charset>``) comes after that, and only then a statistical
+guess (charset-normalizer, part of the ``dedup[docs]`` extra) for legacy single-byte
+encodings such as cp1252 or koi8-r. The guess needs some text to go on, so very short
+files that are not UTF-8 are skipped rather than decoded wrongly.
+
+Whatever decoded, text full of control characters is binary data with a text name.
+"""
+
+from __future__ import annotations
+
+import codecs
+import importlib
+import re
+
+__all__ = ["decode_text", "MIN_DETECT_BYTES"]
+
+_BOMS = (
+    (codecs.BOM_UTF32_LE, "utf-32-le"),
+    (codecs.BOM_UTF32_BE, "utf-32-be"),
+    (codecs.BOM_UTF8, "utf-8-sig"),
+    (codecs.BOM_UTF16_LE, "utf-16-le"),
+    (codecs.BOM_UTF16_BE, "utf-16-be"),
+)
+# Below this many bytes a statistical guess of the encoding is little better than chance
+# (twelve bytes of Latin-1 come back as an Urdu code page).
+MIN_DETECT_BYTES = 32
+_SAMPLE = 65536
+# Control characters, less those that real text does contain: backspace (overstruck
+# manual pages), tab, line ends (NEL too), vertical tab, form feed, escape (coloured logs).
+_CONTROLS = re.compile("[\x00-\x07\x0e-\x1a\x1c-\x1f\x7f-\x84\x86-\x9f]")
+# One stray control character in a short note is a typo, not binary data.
+_CONTROL_MIN = 2
+_CONTROL_SHARE = 0.01
+
+
+def _nul_pattern(sample: bytes, width: int, text_position: int) -> bool:
+    """True when every ``width``-byte unit has its text byte at ``text_position`` and NULs elsewhere."""
+    units = len(sample) // width
+    if units < 2:
+        return False
+    text_bytes = sample[text_position::width][:units]
+    nul_elsewhere = sum(sample[p::width][:units].count(0) for p in range(width) if p != text_position)
+    return text_bytes.count(0) <= units // 10 and nul_elsewhere >= 0.9 * units * (width - 1)
+
+
+def _unmarked_wide(data: bytes) -> str | None:
+    """UTF-32 or UTF-16 name when the bytes look like one of them without a byte-order mark."""
+    sample = data[: _SAMPLE - _SAMPLE % 4]
+    if len(data) % 4 == 0:
+        if _nul_pattern(sample, 4, 0):
+            return "utf-32-le"
+        if _nul_pattern(sample, 4, 3):
+            return "utf-32-be"
+    if len(data) % 2 == 0:
+        if _nul_pattern(sample, 2, 0):
+            return "utf-16-le"
+        if _nul_pattern(sample, 2, 1):
+            return "utf-16-be"
+    return None
+
+
+def _control_problem(text: str, encoding: str, skip: int) -> str:
+    """A reason when the text is mostly not text (control characters), else ``""``."""
+    sample = text[:_SAMPLE]
+    first = _CONTROLS.search(sample)
+    count = len(_CONTROLS.findall(sample)) if first is not None else 0
+    if count < _CONTROL_MIN or count <= _CONTROL_SHARE * len(sample):
+        return ""
+    offset = skip + len(sample[: first.start()].encode(encoding, "surrogatepass"))
+    return f"binary data: control character 0x{ord(first.group()):02x} at offset {offset}"
+
+
+def _codec_name(name: str) -> str | None:
+    try:
+        return codecs.lookup(name).name
+    except (LookupError, TypeError, ValueError):
+        return None
+
+
+def _guess(data: bytes) -> str | None:
+    """Encoding guessed by charset-normalizer; None when it has no good guess."""
+    detector = importlib.import_module("charset_normalizer")
+    best = detector.from_bytes(data).best()
+    return None if best is None else _codec_name(best.encoding)
+
+
+def _strict(data: bytes, encoding: str) -> str | None:
+    try:
+        return data.decode(encoding)
+    except (UnicodeDecodeError, LookupError):
+        return None
+
+
+def _checked(text: str, encoding: str, skip: int = 0) -> tuple[str | None, str, str]:
+    problem = _control_problem(text, encoding, skip)
+    return (None, encoding, problem) if problem else (text, encoding, "")
+
+
+def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None, str, str]:
+    """``(text, encoding, problem)``: text is None when the bytes are not text we can read.
+
+    Parameters
+    ----------
+    data : bytes
+        The whole file.
+    declared : str, optional
+        A charset the file names itself (an HTML ``<meta charset>``), tried after UTF-8.
+
+    Returns
+    -------
+    text : str or None
+    encoding : str
+        The encoding used (``utf-8``, ``utf-16-le``, ``cp1252`` ...), recorded in the ledger.
+    problem : str
+        Why the bytes are not text, with the byte offset; empty when ``text`` is set.
+
+    >>> decode_text("Grüße".encode("utf-16-le"))
+    ('Grüße', 'utf-16-le', '')
+    >>> decode_text(b"ab\\x00cd")[2]
+    'binary data: NUL byte at offset 2'
+    """
+    for bom, name in _BOMS:
+        if data.startswith(bom):
+            try:
+                text = data[len(bom) :].decode(name.replace("-sig", ""))
+            except UnicodeDecodeError as err:
+                return None, name, f"not valid {name} text: byte {err.start + len(bom)} cannot be decoded"
+            return _checked(text, name, len(bom))
+    wide = _unmarked_wide(data)
+    if wide is not None:
+        text = _strict(data, wide)
+        if text is not None:
+            return _checked(text, wide)
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        return None, "", f"binary data: NUL byte at offset {nul}"
+    try:
+        return _checked(data.decode("utf-8"), "utf-8")
+    except UnicodeDecodeError as err:
+        bad = data[err.start : err.start + 1].hex()
+        not_utf8 = f"not UTF-8 text: byte 0x{bad} at offset {err.start} cannot be decoded"
+    codec = _codec_name(declared) if declared else None
+    if codec is not None:
+        text = _strict(data, codec)
+        if text is not None:
+            return _checked(text, codec)
+    if len(data) < MIN_DETECT_BYTES:
+        return None, "", f"{not_utf8} (too short to detect its encoding)"
+    try:
+        guessed = _guess(data)
+    except ImportError:
+        return None, "", f"{not_utf8} (install dedup[docs] to detect other encodings)"
+    text = _strict(data, guessed) if guessed else None
+    if text is None:
+        return None, "", f"{not_utf8}, and no other encoding fits"
+    return _checked(text, guessed)

@@ -1,0 +1,88 @@
+"""What a reading run may do: the limits and choices every reader consults.
+
+One frozen object travels from `iter_documents` down to the readers of archive members,
+so a nested reader never sees different limits from the run that started it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = [
+    "ReadOptions",
+    "DEFAULT_MAX_FILE_BYTES",
+    "DEFAULT_MAX_TEXT_CHARS",
+    "DEFAULT_MAX_ARCHIVE_RATIO",
+    "DEFAULT_MAX_ARCHIVE_BYTES",
+]
+
+DEFAULT_MAX_FILE_BYTES = 50_000_000
+# Ten million characters is a long book several times over; a longer "document" is
+# almost always a dump or a log, and comparing it whole would dominate the run.
+DEFAULT_MAX_TEXT_CHARS = 10_000_000
+# Text compresses 3-10x and very repetitive text (logs, padded tables) up to about
+# 100x; far beyond that an archive is built to explode.
+DEFAULT_MAX_ARCHIVE_RATIO = 200.0
+DEFAULT_MAX_ARCHIVE_BYTES = 2_000_000_000
+
+
+@dataclass(frozen=True)
+class ReadOptions:
+    """Limits and choices of one reading run.
+
+    Parameters
+    ----------
+    id_field : str or None
+        Record field (JSONL, JSON, CSV, TSV, Parquet) holding the document id; without
+        it records are named by their line, row or item number.
+    text_fields : tuple of str
+        Record fields holding the text; several are joined with a blank line.
+    max_file_bytes : int
+        Largest file (or archive member) read into memory; larger ones are skipped.
+        Archives and Parquet files on disk are streamed, so for them the archive
+        limits below apply instead.
+    max_text_chars : int
+        Longest text kept per document; longer texts are cut and marked "truncated".
+    max_archive_ratio : float
+        An archive may expand to at most this many times its own size (and at least
+        `ARCHIVE_RATIO_FLOOR` bytes, so tiny archives of repetitive text still open).
+    max_archive_bytes : int
+        An archive, with the archives nested in it, may expand to at most this many bytes.
+    html_keep_all : bool
+        Keep the text of navigation, headers, footers and asides of HTML pages too
+        (scripts and styles are never text).
+    include, exclude : tuple of str
+        ``fnmatch`` patterns on ids (``*`` also crosses ``/``); a pattern without
+        ``/`` also matches a bare file or folder name at any depth. With ``include``,
+        only matching files are read; folders and archives are always entered.
+    include_hidden : bool
+        Read hidden files and folders (names starting with a dot).
+    include_vcs : bool
+        Read version-control folders (``.git``, ``.hg``, ``.svn`` ...).
+    """
+
+    id_field: str | None = None
+    text_fields: tuple[str, ...] = ("text",)
+    max_file_bytes: int = DEFAULT_MAX_FILE_BYTES
+    max_text_chars: int = DEFAULT_MAX_TEXT_CHARS
+    max_archive_ratio: float = DEFAULT_MAX_ARCHIVE_RATIO
+    max_archive_bytes: int = DEFAULT_MAX_ARCHIVE_BYTES
+    html_keep_all: bool = False
+    include: tuple[str, ...] = ()
+    exclude: tuple[str, ...] = ()
+    include_hidden: bool = False
+    include_vcs: bool = False
+
+    def __post_init__(self) -> None:
+        # Callers pass lists or a single string; keep the object hashable and frozen.
+        for name in ("text_fields", "include", "exclude"):
+            value = getattr(self, name)
+            object.__setattr__(self, name, (value,) if isinstance(value, str) else tuple(value))
+        for name in ("max_file_bytes", "max_text_chars", "max_archive_bytes"):
+            value = getattr(self, name)
+            if not isinstance(value, int) or isinstance(value, bool) or value < 1:
+                raise ValueError(f"{name} must be a whole number of at least 1, got {value!r}")
+        if not self.max_archive_ratio >= 1:
+            raise ValueError(f"max_archive_ratio must be at least 1, got {self.max_archive_ratio!r}")
+        if not self.text_fields:
+            raise ValueError("text_fields needs at least one field name")

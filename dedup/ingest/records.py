@@ -1,0 +1,230 @@
+"""Records files (JSONL, JSON arrays, CSV, TSV): one document per record.
+
+Parsing yields ``(label, record or None, problem)`` triples one record at a time, so a
+large file is never held as a list of records. The label ("line 7", "row 12",
+"item 3") is what a person looks for in the file: line numbers are physical lines
+(a CSV record with quoted newlines is labelled by its first line). A triple with an
+empty label is a problem of the whole file (a missing text column, say).
+
+A broken record costs only itself where the format allows it (JSONL lines, CSV rows);
+in a JSON array, whose structure a broken item destroys, the rest of the file is
+recorded as not read.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime
+import io
+import json
+from collections.abc import Iterable, Iterator, Sequence
+
+from .document import Item, Outcome
+from .options import ReadOptions
+
+__all__ = ["jsonl_records", "json_records", "csv_records", "record_outcomes", "join_fields"]
+
+Triple = tuple[str, dict | None, str]
+
+_JSON_WHITESPACE = " \t\n\r"
+# csv refuses fields longer than its limit (128 KiB by default); a long text field is
+# legitimate here and the file size is bounded already.
+_CSV_FIELD_CEILING = 2**31 - 1
+
+
+def _json_problem(err: Exception, text: str = "", offset: int = 0) -> str:
+    if isinstance(err, json.JSONDecodeError):
+        return f"not valid JSON ({err.msg} at line {err.lineno} column {err.colno})"
+    if isinstance(err, RecursionError):
+        line = text.count("\n", 0, offset) + 1
+        return f"not valid JSON (nested too deeply, from line {line})"
+    return f"not valid JSON ({err})"
+
+
+def _not_object(label: str, value: object) -> str:
+    kind = {list: "list", str: "string", bool: "true/false", type(None): "null"}.get(type(value), "number")
+    return f"{label}: a JSON {kind}, not an object with fields"
+
+
+def jsonl_records(text: str) -> Iterator[Triple]:
+    """Records of a JSON Lines text; a broken line is a problem of that line only."""
+    # Split on "\n" only: JSON strings may hold U+2028 and other characters that
+    # str.splitlines would take for line ends.
+    for number, line in enumerate(text.split("\n"), 1):
+        if not line.strip():
+            continue
+        label = f"line {number}"
+        try:
+            value = json.loads(line)
+        except (ValueError, RecursionError) as err:
+            yield label, None, f"{label}: {_json_problem(err)}"
+            continue
+        if isinstance(value, dict):
+            yield label, value, ""
+        else:
+            yield label, None, _not_object(label, value)
+
+
+def _skip_space(text: str, i: int) -> int:
+    while i < len(text) and text[i] in _JSON_WHITESPACE:
+        i += 1
+    return i
+
+
+def _line_col(text: str, i: int) -> str:
+    line = text.count("\n", 0, i) + 1
+    return f"line {line} column {i - (text.rfind(chr(10), 0, i) + 1) + 1}"
+
+
+def json_records(text: str) -> Iterator[Triple]:
+    """Records of a JSON file: an array of objects (item by item), or one object."""
+    decoder = json.JSONDecoder()
+    i = _skip_space(text, 0)
+    if i == len(text):
+        return
+    if text[i] != "[":
+        try:
+            value, end = decoder.raw_decode(text, i)
+        except (ValueError, RecursionError) as err:
+            yield "", None, _json_problem(err, text, i)
+            return
+        if _skip_space(text, end) != len(text):
+            yield "", None, f"not valid JSON (extra data at {_line_col(text, _skip_space(text, end))})"
+        elif isinstance(value, dict):
+            yield "item 1", value, ""
+        else:
+            yield "", None, _not_object("the file", value).replace(", not an object", ", not objects")
+        return
+    i += 1
+    number = 0
+    while True:
+        i = _skip_space(text, i)
+        if i < len(text) and text[i] == "]" and number == 0:
+            i += 1
+            break
+        number += 1
+        label = f"item {number}"
+        try:
+            value, i = decoder.raw_decode(text, i)
+        except (ValueError, RecursionError) as err:
+            yield label, None, f"{label}: {_json_problem(err, text, i)}; rest of file not read"
+            return
+        yield (label, value, "") if isinstance(value, dict) else (label, None, _not_object(label, value))
+        i = _skip_space(text, i)
+        if i < len(text) and text[i] == ",":
+            i += 1
+            continue
+        if i < len(text) and text[i] == "]":
+            i += 1
+            break
+        where = _line_col(text, i) if i < len(text) else "the end of the file"
+        yield "", None, f"not valid JSON (expected ',' or ']' at {where}); rest of file not read"
+        return
+    if _skip_space(text, i) != len(text):
+        yield (
+            "",
+            None,
+            f"not valid JSON (extra data after the array at {_line_col(text, _skip_space(text, i))})",
+        )
+
+
+def csv_records(text: str, delimiter: str, text_fields: Sequence[str]) -> Iterator[Triple]:
+    """Records of a CSV or TSV text with a header row."""
+    if csv.field_size_limit() < len(text) + 1:
+        csv.field_size_limit(min(len(text) + 1, _CSV_FIELD_CEILING))
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    try:
+        header = next(reader)
+    except StopIteration:
+        return
+    except csv.Error as err:
+        yield "", None, f"cannot read the header row: {err}"
+        return
+    if all(f not in header for f in text_fields):
+        columns = ", ".join(header[:12]) + (" …" if len(header) > 12 else "")
+        wanted = ", ".join(repr(f) for f in text_fields)
+        yield "", None, f"no column {wanted} (columns: {columns}); choose with --text-field"
+        return
+    end_of_previous = reader.line_num
+    try:
+        for row in reader:
+            label = f"row {end_of_previous + 1}"
+            end_of_previous = reader.line_num
+            if not any(cell.strip() for cell in row):
+                continue  # a blank line is not a record
+            if len(row) != len(header):
+                yield label, None, f"{label}: {len(row)} cells where the header has {len(header)}"
+                continue
+            yield label, dict(zip(header, row)), ""
+    except csv.Error as err:
+        label = f"row {end_of_previous + 1}"
+        yield label, None, f"{label}: broken CSV ({err}); rest of file not read"
+
+
+def _as_text(value: object) -> str:
+    if isinstance(value, str):
+        return value
+    return json.dumps(value, ensure_ascii=False, sort_keys=True, default=str)
+
+
+def join_fields(record: dict, text_fields: Sequence[str]) -> tuple[str | None, str]:
+    """``(text, problem)``: the text fields present, joined by a blank line; None when none is."""
+    present = [f for f in text_fields if f in record]
+    if not present:
+        return None, f"no field {', '.join(repr(f) for f in text_fields)}"
+    return "\n\n".join(_as_text(record[f]) for f in present if record[f] is not None), ""
+
+
+def _metadata(record: dict, text_fields: Sequence[str]) -> dict:
+    # Scalars only (dates for --keeper newest/oldest, authors, ...); dates as ISO text.
+    out = {}
+    for key, value in record.items():
+        if key in text_fields:
+            continue
+        if isinstance(value, (datetime.date, datetime.datetime)):
+            value = value.isoformat()
+        if isinstance(value, (str, int, float)):
+            out[str(key)] = value
+    return out
+
+
+def record_outcomes(
+    triples: Iterable[Triple], item: Item, opts: ReadOptions, *, encoding: str = ""
+) -> Iterator[Outcome]:
+    """Documents and entries for the records of one input; one entry per record."""
+    seen_keys: set[str] = set()
+    any_record = False
+    for label, record, problem in triples:
+        any_record = True
+        if record is None:
+            yield None, item.entry("skipped", problem, encoding=encoding, record=label)
+            continue
+        text, missing = join_fields(record, opts.text_fields)
+        if text is None:
+            reason = f"{label}: {missing}; choose the text with --text-field"
+            yield None, item.entry("skipped", reason, encoding=encoding, record=label)
+            continue
+        key = label
+        if opts.id_field:
+            value = record.get(opts.id_field)
+            if value is None or str(value).strip() == "":
+                reason = f"{label}: no value in id field {opts.id_field!r}"
+                yield None, item.entry("skipped", reason, encoding=encoding, record=label)
+                continue
+            key = value if isinstance(value, str) else _as_text(value)
+        if key in seen_keys:
+            reason = f"{label}: id {key!r} repeats an earlier record of this file"
+            yield None, item.entry("skipped", reason, encoding=encoding, record=label)
+            continue
+        seen_keys.add(key)
+        title = record.get("title")
+        yield item.document(
+            text,
+            title=title if isinstance(title, str) else "",
+            encoding=encoding,
+            record=label,
+            key=key,
+            metadata=_metadata(record, opts.text_fields),
+        )
+    if not any_record:
+        yield None, item.entry("empty", "no records", encoding=encoding)

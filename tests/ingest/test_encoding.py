@@ -1,0 +1,103 @@
+"""Bytes to text: marks, wide encodings without a mark, UTF-8, legacy encodings, binary data."""
+
+from __future__ import annotations
+
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from dedup.ingest import decode_text
+from dedup.ingest.encoding import MIN_DETECT_BYTES
+
+GREETING = "Grüße aus Köln — naïve café"
+
+
+@pytest.mark.parametrize(
+    ("encoding", "recorded"),
+    [
+        ("utf-8-sig", "utf-8-sig"),
+        ("utf-16", "utf-16-le"),
+        ("utf-16-be", "utf-16-be"),
+        ("utf-32", "utf-32-le"),
+        ("utf-32-be", "utf-32-be"),
+    ],
+)
+def test_byte_order_marks(encoding, recorded):
+    data = GREETING.encode(encoding)
+    if encoding in ("utf-16-be", "utf-32-be"):
+        data = "\ufeff".encode(encoding) + data
+    assert decode_text(data) == (GREETING, recorded, "")
+
+
+@pytest.mark.parametrize("encoding", ["utf-16-le", "utf-16-be", "utf-32-le", "utf-32-be"])
+def test_wide_encodings_without_a_mark_are_recognised(encoding):
+    text = "Plain words of a policy document.\nSecond line."
+    assert decode_text(text.encode(encoding)) == (text, encoding, "")
+
+
+def test_invalid_utf8_is_skipped_with_its_byte_offset():
+    data = b"valid start \xff\xfe then more"  # too short for a guess
+    text, _, problem = decode_text(data)
+    assert text is None
+    assert problem.startswith("not UTF-8 text: byte 0xff at offset 12 cannot be decoded")
+
+
+def test_invalid_text_after_a_mark_names_the_offset():
+    text, encoding, problem = decode_text(b"\xef\xbb\xbfok \xc3\x28")
+    assert text is None and encoding == "utf-8-sig"
+    assert problem == "not valid utf-8-sig text: byte 6 cannot be decoded"
+
+
+def test_nul_bytes_mean_binary_data():
+    assert decode_text(b"GIF89a\x01\x00\x01\x00\x80\x00\x00") == (
+        None,
+        "",
+        "binary data: NUL byte at offset 7",
+    )
+
+
+def test_control_characters_mean_binary_data_even_when_valid_utf8():
+    text, _, problem = decode_text(bytes(range(1, 9)) * 20 + b"some words")
+    assert text is None and problem == "binary data: control character 0x01 at offset 0"
+
+
+def test_text_controls_are_text():
+    data = b"col\tcol\r\n\x0cpage two \x1b[1mbold\x1b[0m b\x08b"
+    assert decode_text(data)[0] == data.decode()
+
+
+def test_legacy_encodings_are_detected_and_recorded():
+    pytest.importorskip("charset_normalizer")
+    text = "Привет! Это длинный текст о правилах отпуска для сотрудников кооператива."
+    decoded, encoding, problem = decode_text(text.encode("cp1251"))
+    assert (decoded, encoding, problem) == (text, "cp1251", "")
+
+
+def test_short_non_utf8_is_not_guessed():
+    data = "café".encode("latin-1")
+    assert len(data) < MIN_DETECT_BYTES
+    text, _, problem = decode_text(data)
+    assert text is None and "too short to detect its encoding" in problem
+
+
+def test_a_declared_charset_is_used_after_utf8():
+    data = "Résumé de la réunion".encode("cp1252")
+    assert decode_text(data, declared="windows-1252") == ("Résumé de la réunion", "cp1252", "")
+
+
+def test_without_the_detector_the_reason_says_what_to_install(monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "charset_normalizer", None)
+    data = ("Résumé de la réunion du comité " * 3).encode("cp1252")
+    text, _, problem = decode_text(data)
+    assert text is None and "install dedup[docs] to detect other encodings" in problem
+
+
+@given(st.binary(max_size=600))
+def test_any_bytes_give_text_or_a_reason(data):
+    text, encoding, problem = decode_text(data)
+    assert (text is None) == bool(problem)
+    if text is not None:
+        text.encode("utf-8")  # whatever decoded can be written out
+        assert encoding
