@@ -35,7 +35,7 @@ def make_corpus(folder: Path, n: int, seed: int = 5) -> int:
             if handle:
                 handle.close()
             shard = k // SHARD
-            handle = open(folder / f"part-{shard:05d}.jsonl", "w", encoding="utf-8")
+            handle = open(folder / f"part-{shard:05d}.jsonl", "w", encoding="utf-8")  # noqa: SIM115 - one shard after another
         handle.write(json.dumps({"id": f"d{k}", "text": text}) + "\n")
         written += 1
         if k % 20 == 0:
