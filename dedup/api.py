@@ -244,7 +244,12 @@ def audit(
     lines_of: dict[str, list[str]] = {}  # canonical lines of each distinct text, for boilerplate
     with_text: list[int] = []  # indices into documents
     for doc in raw:
-        canonical_string = canonical_text(doc.text)
+        if settings.boilerplate:
+            # The canonical text is its canonical lines joined by spaces: normalize once, keep both.
+            lines = canonical_lines(doc.text)
+            canonical_string = " ".join(lines)
+        else:
+            canonical_string = canonical_text(doc.text)
         canonical = canonical_string.encode("utf-8")
         record = {
             "id": doc.id,
@@ -264,7 +269,7 @@ def audit(
             if record["content_hash"] not in canonical_of:
                 canonical_of[record["content_hash"]] = canonical
                 if settings.boilerplate:
-                    lines_of[record["content_hash"]] = canonical_lines(doc.text)
+                    lines_of[record["content_hash"]] = lines
         documents.append(record)
         progress.advance()
     progress.done()

@@ -2,9 +2,14 @@
 
 from __future__ import annotations
 
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
 import dedup
 from dedup import AuditSettings
 from dedup.cli import main
+from dedup.normalize import canonical_text
+from dedup.normalize.boilerplate import canonical_lines
 
 FOOTER = (
     "This page is maintained by the knowledge team of the cooperative. Report mistakes through the service "
@@ -84,3 +89,10 @@ def test_a_family_of_generated_pages_is_compared_whole(write_corpus):
     result = dedup.audit([str(root)])
     assert result.boilerplate["lines"] == 30 and result.boilerplate["texts_compared_whole"] == 8
     assert len(result.clusters) == 1 and result.clusters[0]["size"] == 8
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.text(alphabet=st.characters(codec="utf-8"), max_size=200))
+def test_canonical_lines_joined_equal_the_canonical_text(text):
+    """The audit hashes exact copies from the joined lines; it must equal canonical_text of the whole."""
+    assert " ".join(canonical_lines(text)) == canonical_text(text)
