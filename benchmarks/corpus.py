@@ -77,8 +77,17 @@ _REF_END = "\x11"
 
 # Applied with str.replace, which is much faster here than str.translate.
 _FINAL_REPLACEMENTS = (
-    (_BS, "\\"), (_ZW, ""), (_NBSP, " "), (_DQ, '"'), (_JOIN, ""), (_APOS, "'"), (_DOT, "."),
-    (_OPEN, ""), (_CLOSE, ""), (_REF, ""), (_REF_END, ""),
+    (_BS, "\\"),
+    (_ZW, ""),
+    (_NBSP, " "),
+    (_DQ, '"'),
+    (_JOIN, ""),
+    (_APOS, "'"),
+    (_DOT, "."),
+    (_OPEN, ""),
+    (_CLOSE, ""),
+    (_REF, ""),
+    (_REF_END, ""),
 )
 
 _PROTECT = {".": _DOT, "'": _APOS, '"': _DQ, "\\": _BS}
@@ -86,37 +95,147 @@ _PROTECT = {".": _DOT, "'": _APOS, '"': _DQ, "\\": _BS}
 
 def _build_char_map() -> dict[str, str]:
     table = {
-        "bu": "\u2022", "em": "\u2014", "en": "\u2013", "hy": "-", "mi": "-", "aq": "'",
-        "cq": "'", "oq": "'", "lq": '"', "rq": '"', "dq": '"', "Fo": "\u00ab", "Fc": "\u00bb",
-        "fo": "\u2039", "fc": "\u203a", "bq": ",", "Bq": '"', "rs": "\\", "sl": "/", "ga": "`",
-        "aa": "\u00b4", "ul": "_", "ru": "_", "ba": "|", "or": "|", "br": "|", "bv": "|",
-        "ci": "\u25cb", "sq": "\u25a1", "lh": "\u261c", "rh": "\u261e", "ps": "\u00b6",
-        "sc": "\u00a7", "co": "\u00a9", "rg": "\u00ae", "tm": "\u2122", "de": "\u00b0",
-        "dg": "\u2020", "dd": "\u2021", "mu": "\u00d7", "di": "\u00f7", "+-": "\u00b1",
-        "<=": "\u2264", ">=": "\u2265", "!=": "\u2260", "==": "\u2261", "~=": "\u2245",
-        "~~": "\u2248", "->": "\u2192", "<-": "\u2190", "<>": "\u2194", "rA": "\u21d2",
-        "lA": "\u21d0", "hA": "\u21d4", "ua": "\u2191", "da": "\u2193", "uA": "\u21d1",
-        "dA": "\u21d3", "ha": "^", "ti": "~", "at": "@", "sh": "#", "Do": "$", "pc": "\u00b7",
-        "pl": "+", "eq": "=", "fm": "'", "sd": '"', "mc": "\u00b5", "ct": "\u00a2",
-        "Po": "\u00a3", "Ye": "\u00a5", "Eu": "\u20ac", "eu": "\u20ac", "OK": "\u2713",
-        "es": "\u2205", "if": "\u221e", "pd": "\u2202", "gr": "\u2207", "no": "\u00ac",
-        "AN": "\u2227", "OR": "\u2228", "fa": "\u2200", "te": "\u2203", "mo": "\u2208",
-        "nm": "\u2209", "sb": "\u2282", "sp": "\u2283", "ib": "\u2286", "ip": "\u2287",
-        "ca": "\u2229", "cu": "\u222a", "is": "\u222b", "sr": "\u221a", "pt": "\u221d",
-        "12": "\u00bd", "14": "\u00bc", "34": "\u00be", "S1": "\u00b9", "S2": "\u00b2",
-        "S3": "\u00b3", "ss": "\u00df", "ae": "\u00e6", "AE": "\u00c6", "oe": "\u0153",
-        "OE": "\u0152", "/o": "\u00f8", "/O": "\u00d8", "-D": "\u00d0", "Sd": "\u00f0",
-        "TP": "\u00de", "Tp": "\u00fe", "r!": "\u00a1", "r?": "\u00bf", "lz": "\u25ca",
-        "ff": "ff", "fi": "fi", "fl": "fl", "Fi": "ffi", "Fl": "ffl", "shc": "", "cs": "",
-        "char94": "^", "char92": "\\", "ts": "s",
+        "bu": "\u2022",
+        "em": "\u2014",
+        "en": "\u2013",
+        "hy": "-",
+        "mi": "-",
+        "aq": "'",
+        "cq": "'",
+        "oq": "'",
+        "lq": '"',
+        "rq": '"',
+        "dq": '"',
+        "Fo": "\u00ab",
+        "Fc": "\u00bb",
+        "fo": "\u2039",
+        "fc": "\u203a",
+        "bq": ",",
+        "Bq": '"',
+        "rs": "\\",
+        "sl": "/",
+        "ga": "`",
+        "aa": "\u00b4",
+        "ul": "_",
+        "ru": "_",
+        "ba": "|",
+        "or": "|",
+        "br": "|",
+        "bv": "|",
+        "ci": "\u25cb",
+        "sq": "\u25a1",
+        "lh": "\u261c",
+        "rh": "\u261e",
+        "ps": "\u00b6",
+        "sc": "\u00a7",
+        "co": "\u00a9",
+        "rg": "\u00ae",
+        "tm": "\u2122",
+        "de": "\u00b0",
+        "dg": "\u2020",
+        "dd": "\u2021",
+        "mu": "\u00d7",
+        "di": "\u00f7",
+        "+-": "\u00b1",
+        "<=": "\u2264",
+        ">=": "\u2265",
+        "!=": "\u2260",
+        "==": "\u2261",
+        "~=": "\u2245",
+        "~~": "\u2248",
+        "->": "\u2192",
+        "<-": "\u2190",
+        "<>": "\u2194",
+        "rA": "\u21d2",
+        "lA": "\u21d0",
+        "hA": "\u21d4",
+        "ua": "\u2191",
+        "da": "\u2193",
+        "uA": "\u21d1",
+        "dA": "\u21d3",
+        "ha": "^",
+        "ti": "~",
+        "at": "@",
+        "sh": "#",
+        "Do": "$",
+        "pc": "\u00b7",
+        "pl": "+",
+        "eq": "=",
+        "fm": "'",
+        "sd": '"',
+        "mc": "\u00b5",
+        "ct": "\u00a2",
+        "Po": "\u00a3",
+        "Ye": "\u00a5",
+        "Eu": "\u20ac",
+        "eu": "\u20ac",
+        "OK": "\u2713",
+        "es": "\u2205",
+        "if": "\u221e",
+        "pd": "\u2202",
+        "gr": "\u2207",
+        "no": "\u00ac",
+        "AN": "\u2227",
+        "OR": "\u2228",
+        "fa": "\u2200",
+        "te": "\u2203",
+        "mo": "\u2208",
+        "nm": "\u2209",
+        "sb": "\u2282",
+        "sp": "\u2283",
+        "ib": "\u2286",
+        "ip": "\u2287",
+        "ca": "\u2229",
+        "cu": "\u222a",
+        "is": "\u222b",
+        "sr": "\u221a",
+        "pt": "\u221d",
+        "12": "\u00bd",
+        "14": "\u00bc",
+        "34": "\u00be",
+        "S1": "\u00b9",
+        "S2": "\u00b2",
+        "S3": "\u00b3",
+        "ss": "\u00df",
+        "ae": "\u00e6",
+        "AE": "\u00c6",
+        "oe": "\u0153",
+        "OE": "\u0152",
+        "/o": "\u00f8",
+        "/O": "\u00d8",
+        "-D": "\u00d0",
+        "Sd": "\u00f0",
+        "TP": "\u00de",
+        "Tp": "\u00fe",
+        "r!": "\u00a1",
+        "r?": "\u00bf",
+        "lz": "\u25ca",
+        "ff": "ff",
+        "fi": "fi",
+        "fl": "fl",
+        "Fi": "ffi",
+        "Fl": "ffl",
+        "shc": "",
+        "cs": "",
+        "char94": "^",
+        "char92": "\\",
+        "ts": "s",
     }
     greek = "abgdezyhiklmncoprstufxqw"
     greek_lower = "\u03b1\u03b2\u03b3\u03b4\u03b5\u03b6\u03b7\u03b8\u03b9\u03ba\u03bb\u03bc\u03bd\u03be\u03bf\u03c0\u03c1\u03c3\u03c4\u03c5\u03c6\u03c7\u03c8\u03c9"
     for latin, glyph in zip(greek, greek_lower, strict=True):
         table["*" + latin] = glyph
         table["*" + latin.upper()] = glyph.upper()
-    accents = {":": "\u0308", "'": "\u0301", "`": "\u0300", "^": "\u0302", "~": "\u0303",
-               ",": "\u0327", "o": "\u030a", "v": "\u030c"}
+    accents = {
+        ":": "\u0308",
+        "'": "\u0301",
+        "`": "\u0300",
+        "^": "\u0302",
+        "~": "\u0303",
+        ",": "\u0327",
+        "o": "\u030a",
+        "v": "\u030c",
+    }
     for mark, combining in accents.items():
         for letter in "aeiouyAEIOUYnNcCsSzZ":
             composed = unicodedata.normalize("NFC", letter + combining)
@@ -130,34 +249,127 @@ _CHAR_MAP = _build_char_map()
 # Strings predefined by the man, mdoc and pod2man macro packages, used when a
 # page refers to them without defining them itself.
 _BUILTIN_STRINGS = {
-    "R": "\u00ae", "Tm": "\u2122", "lq": '"', "rq": '"', "Lq": '"', "Rq": '"', "q": '"',
-    "Aq": "'", "C`": '"', "C'": '"', "L\"": '"', "R\"": '"', "--": "--", "PI": "pi",
-    "C+": "C++", "Lt": "<", "Gt": ">", "Le": "\u2264", "Ge": "\u2265", "Ne": "\u2260",
-    "Pi": "\u03c0", "Ba": "|", "Am": "&", "Na": "NaN", "If": "\u221e", "Ua": "\u2191",
-    "Da": "\u2193", "Ra": "\u2192", "La": "\u2190", "Pm": "\u00b1", "Ai": "ANSI",
-    "HV": "", "S": "", "ex": "", "Em": "\u2014", "En": "\u2013", "Tx": "TeX", "lx": "LaTeX",
-    "tx": "TeX", "softhyphen": "",
+    "R": "\u00ae",
+    "Tm": "\u2122",
+    "lq": '"',
+    "rq": '"',
+    "Lq": '"',
+    "Rq": '"',
+    "q": '"',
+    "Aq": "'",
+    "C`": '"',
+    "C'": '"',
+    'L"': '"',
+    'R"': '"',
+    "--": "--",
+    "PI": "pi",
+    "C+": "C++",
+    "Lt": "<",
+    "Gt": ">",
+    "Le": "\u2264",
+    "Ge": "\u2265",
+    "Ne": "\u2260",
+    "Pi": "\u03c0",
+    "Ba": "|",
+    "Am": "&",
+    "Na": "NaN",
+    "If": "\u221e",
+    "Ua": "\u2191",
+    "Da": "\u2193",
+    "Ra": "\u2192",
+    "La": "\u2190",
+    "Pm": "\u00b1",
+    "Ai": "ANSI",
+    "HV": "",
+    "S": "",
+    "ex": "",
+    "Em": "\u2014",
+    "En": "\u2013",
+    "Tx": "TeX",
+    "lx": "LaTeX",
+    "tx": "TeX",
+    "softhyphen": "",
 }
 
 _SIMPLE_ESCAPES = {
-    "-": "-", "&": _ZW, " ": _NBSP, "~": _NBSP, "0": " ", "|": "", "^": "", "%": "",
-    "c": _JOIN, "e": _BS, "E": _BS, ".": _DOT, "'": _APOS, "`": "`", "_": "_", "t": "\t",
-    "a": "", ",": "", "/": "", ":": "", ")": "", "p": "", "r": "", "u": "", "d": "",
-    "z": "", "{": _OPEN, "}": _CLOSE, "!": "", "?": "", "#": "", '"': "", "\n": "",
+    "-": "-",
+    "&": _ZW,
+    " ": _NBSP,
+    "~": _NBSP,
+    "0": " ",
+    "|": "",
+    "^": "",
+    "%": "",
+    "c": _JOIN,
+    "e": _BS,
+    "E": _BS,
+    ".": _DOT,
+    "'": _APOS,
+    "`": "`",
+    "_": "_",
+    "t": "\t",
+    "a": "",
+    ",": "",
+    "/": "",
+    ":": "",
+    ")": "",
+    "p": "",
+    "r": "",
+    "u": "",
+    "d": "",
+    "z": "",
+    "{": _OPEN,
+    "}": _CLOSE,
+    "!": "",
+    "?": "",
+    "#": "",
+    '"': "",
+    "\n": "",
     "\\": _BS,
 }
 
 # The bulk of real pages uses a handful of escapes; plain str.replace on the
 # whole document handles those at C speed before the general regex runs.
 _FAST_ESCAPES = (
-    ("\\-", "-"), ("\\fB", ""), ("\\fI", ""), ("\\fR", ""), ("\\fP", ""), ("\\&", _ZW),
-    ("\\f(CW", ""), ("\\f(CB", ""), ("\\f[]", ""), ("\\f[R]", ""), ("\\f[B]", ""),
-    ("\\f[I]", ""), ("\\f[CB]", ""), ("\\fC", ""), ("\\f1", ""), ("\\f2", ""),
-    ("\\f3", ""), ("\\f4", ""), ("\\e", _BS), ("\\ ", _NBSP), ("\\(em", "\u2014"),
-    ("\\(en", "\u2013"), ("\\(bu", "\u2022"), ("\\[bu]", "\u2022"), ("\\(aq", _APOS),
-    ("\\[aq]", _APOS), ("\\(cq", _APOS), ("\\(oq", _APOS), ("\\(dq", _DQ),
-    ("\\(lq", _DQ), ("\\(rq", _DQ), ("\\%", ""), ("\\|", ""), ("\\^", ""),
-    ("\\c", _JOIN), ("\\{", _OPEN), ("\\}", _CLOSE), ("\\(hy", "-"), ("\\~", _NBSP),
+    ("\\-", "-"),
+    ("\\fB", ""),
+    ("\\fI", ""),
+    ("\\fR", ""),
+    ("\\fP", ""),
+    ("\\&", _ZW),
+    ("\\f(CW", ""),
+    ("\\f(CB", ""),
+    ("\\f[]", ""),
+    ("\\f[R]", ""),
+    ("\\f[B]", ""),
+    ("\\f[I]", ""),
+    ("\\f[CB]", ""),
+    ("\\fC", ""),
+    ("\\f1", ""),
+    ("\\f2", ""),
+    ("\\f3", ""),
+    ("\\f4", ""),
+    ("\\e", _BS),
+    ("\\ ", _NBSP),
+    ("\\(em", "\u2014"),
+    ("\\(en", "\u2013"),
+    ("\\(bu", "\u2022"),
+    ("\\[bu]", "\u2022"),
+    ("\\(aq", _APOS),
+    ("\\[aq]", _APOS),
+    ("\\(cq", _APOS),
+    ("\\(oq", _APOS),
+    ("\\(dq", _DQ),
+    ("\\(lq", _DQ),
+    ("\\(rq", _DQ),
+    ("\\%", ""),
+    ("\\|", ""),
+    ("\\^", ""),
+    ("\\c", _JOIN),
+    ("\\{", _OPEN),
+    ("\\}", _CLOSE),
+    ("\\(hy", "-"),
+    ("\\~", _NBSP),
 )
 
 _ESCAPE_RE = re.compile(
@@ -279,8 +491,18 @@ def _name_set(names: str) -> frozenset[str]:
 # man(7) and an-ext font macros; the value says whether arguments are glued
 # (alternating fonts) or separated by spaces.
 _FONT_MACROS = {
-    "B": False, "I": False, "SM": False, "SB": False, "R": False, "CW": False,
-    "BR": True, "BI": True, "IB": True, "IR": True, "RB": True, "RI": True,
+    "B": False,
+    "I": False,
+    "SM": False,
+    "SB": False,
+    "R": False,
+    "CW": False,
+    "BR": True,
+    "BI": True,
+    "IB": True,
+    "IR": True,
+    "RB": True,
+    "RI": True,
 }
 _PARA_MACROS = frozenset({"PP", "LP", "P", "HP", "sp", "bp", "Sp", "Pp", "Lp"})
 _BREAK_MACROS = frozenset(
@@ -313,22 +535,54 @@ _MDOC_BLOCK = _name_set(
 _MDOC_OPENERS = frozenset({"(", "["})
 _MDOC_CLOSERS = frozenset({".", ",", ":", ";", ")", "]", "?", "!"})
 _MDOC_ENCLOSE = {
-    "Op": ("[", "]"), "Dq": ('"', '"'), "Qq": ('"', '"'), "Sq": ("'", "'"), "Ql": ("'", "'"),
-    "Pq": ("(", ")"), "Bq": ("[", "]"), "Aq": ("<", ">"), "Brq": ("{", "}"),
+    "Op": ("[", "]"),
+    "Dq": ('"', '"'),
+    "Qq": ('"', '"'),
+    "Sq": ("'", "'"),
+    "Ql": ("'", "'"),
+    "Pq": ("(", ")"),
+    "Bq": ("[", "]"),
+    "Aq": ("<", ">"),
+    "Brq": ("{", "}"),
 }
 _MDOC_OPEN_CLOSE = {
-    "Oo": "[", "Oc": "]", "Qo": '"', "Qc": '"', "Do": '"', "Dc": '"', "So": "'", "Sc": "'",
-    "Po": "(", "Pc": ")", "Bo": "[", "Bc": "]", "Ao": "<", "Ac": ">", "Bro": "{", "Brc": "}",
+    "Oo": "[",
+    "Oc": "]",
+    "Qo": '"',
+    "Qc": '"',
+    "Do": '"',
+    "Dc": '"',
+    "So": "'",
+    "Sc": "'",
+    "Po": "(",
+    "Pc": ")",
+    "Bo": "[",
+    "Bc": "]",
+    "Ao": "<",
+    "Ac": ">",
+    "Bro": "{",
+    "Brc": "}",
 }
 _MDOC_FIXED = {
-    "Ux": "UNIX", "Bx": "BSD", "Fx": "FreeBSD", "Nx": "NetBSD", "Ox": "OpenBSD",
-    "Dx": "DragonFly", "Bsx": "BSD/OS", "At": "AT&T UNIX", "Ud": "currently under development.",
+    "Ux": "UNIX",
+    "Bx": "BSD",
+    "Fx": "FreeBSD",
+    "Nx": "NetBSD",
+    "Ox": "OpenBSD",
+    "Dx": "DragonFly",
+    "Bsx": "BSD/OS",
+    "At": "AT&T UNIX",
+    "Ud": "currently under development.",
 }
 _MDOC_STANDARDS = {
-    "-p1003.1": "IEEE Std 1003.1 (POSIX.1)", "-p1003.1-2001": "IEEE Std 1003.1-2001 (POSIX.1)",
-    "-p1003.1-2008": "IEEE Std 1003.1-2008 (POSIX.1)", "-p1003.2": "IEEE Std 1003.2 (POSIX.2)",
-    "-ansiC": "ANSI X3.159-1989 (ANSI C89)", "-isoC": "ISO/IEC 9899:1990 (ISO C90)",
-    "-isoC99": "ISO/IEC 9899:1999 (ISO C99)", "-isoC-2011": "ISO/IEC 9899:2011 (ISO C11)",
+    "-p1003.1": "IEEE Std 1003.1 (POSIX.1)",
+    "-p1003.1-2001": "IEEE Std 1003.1-2001 (POSIX.1)",
+    "-p1003.1-2008": "IEEE Std 1003.1-2008 (POSIX.1)",
+    "-p1003.2": "IEEE Std 1003.2 (POSIX.2)",
+    "-ansiC": "ANSI X3.159-1989 (ANSI C89)",
+    "-isoC": "ISO/IEC 9899:1990 (ISO C90)",
+    "-isoC99": "ISO/IEC 9899:1999 (ISO C99)",
+    "-isoC-2011": "ISO/IEC 9899:2011 (ISO C11)",
     "-susv2": "Version 2 of the Single UNIX Specification (SUSv2)",
     "-susv3": "Version 3 of the Single UNIX Specification (SUSv3)",
     "-xpg4": "X/Open Portability Guide Issue 4 (XPG4)",
@@ -583,7 +837,7 @@ class _TroffConverter:
         if not parts:
             return
         key = parts[0]
-        value = args.lstrip()[len(key):].lstrip(" \t")
+        value = args.lstrip()[len(key) :].lstrip(" \t")
         if value.startswith('"'):
             value = value[1:]
         if name in ("as", "as1"):
@@ -835,14 +1089,16 @@ class _TroffConverter:
             args.append(tokens[i])
             i += 1
         words = [a for a in args if a not in _MDOC_CLOSERS and a not in _MDOC_OPENERS]
-        trailing = args[len(words):] if words == args[: len(words)] else []
+        trailing = args[len(words) :] if words == args[: len(words)] else []
         if trailing:
             args = args[: len(words)]
         if name == "Fl":
             if not args:
                 items.extend(("-", _NS) if i < n and tokens[i] == "Fl" else ("-",))
             else:
-                items.extend("-" + a if a not in _MDOC_CLOSERS and a not in _MDOC_OPENERS else a for a in args)
+                items.extend(
+                    "-" + a if a not in _MDOC_CLOSERS and a not in _MDOC_OPENERS else a for a in args
+                )
         elif name == "Ar":
             items.extend(args or ["file", "..."])
         elif name == "Nm":
@@ -969,21 +1225,48 @@ def _evaluate_condition(args: str) -> tuple[bool, str]:
 
 # Requests and macros with a handler of their own, by method name.
 _REQUESTS = {
-    "SH": "req_heading", "SS": "req_heading",
-    "TP": "req_tp", "TQ": "req_tp", "IP": "req_ip", "bP": "req_bullet",
-    "TH": "req_ignore", "so": "req_ignore", "mso": "req_ignore",
-    "ds": "req_ds", "ds1": "req_ds", "as": "req_ds", "as1": "req_ds",
-    "rm": "req_rm", "als": "req_als", "tr": "req_tr",
-    "TS": "req_table", "T&": "req_table", "TE": "req_table",
-    "OP": "req_op", "SY": "req_sy", "MR": "req_mr",
-    "UR": "req_url_start", "MT": "req_url_start",
-    "UE": "req_url_end", "ME": "req_url_end",
-    "URL": "req_url_inline", "MTO": "req_url_inline", "FTP": "req_url_inline",
-    "QW": "req_quoted", "UN": "req_ignore",
-    "IX": "req_ignore", "PD": "req_ignore", "DT": "req_ignore",
-    "UC": "req_ignore", "AT": "req_ignore", "LINKSTYLE": "req_ignore",
-    "tm": "req_ignore", "ab": "req_ignore", "nr": "req_ignore",
-    "TX": "req_text_args", "Tn": "req_text_args",
+    "SH": "req_heading",
+    "SS": "req_heading",
+    "TP": "req_tp",
+    "TQ": "req_tp",
+    "IP": "req_ip",
+    "bP": "req_bullet",
+    "TH": "req_ignore",
+    "so": "req_ignore",
+    "mso": "req_ignore",
+    "ds": "req_ds",
+    "ds1": "req_ds",
+    "as": "req_ds",
+    "as1": "req_ds",
+    "rm": "req_rm",
+    "als": "req_als",
+    "tr": "req_tr",
+    "TS": "req_table",
+    "T&": "req_table",
+    "TE": "req_table",
+    "OP": "req_op",
+    "SY": "req_sy",
+    "MR": "req_mr",
+    "UR": "req_url_start",
+    "MT": "req_url_start",
+    "UE": "req_url_end",
+    "ME": "req_url_end",
+    "URL": "req_url_inline",
+    "MTO": "req_url_inline",
+    "FTP": "req_url_inline",
+    "QW": "req_quoted",
+    "UN": "req_ignore",
+    "IX": "req_ignore",
+    "PD": "req_ignore",
+    "DT": "req_ignore",
+    "UC": "req_ignore",
+    "AT": "req_ignore",
+    "LINKSTYLE": "req_ignore",
+    "tm": "req_ignore",
+    "ab": "req_ignore",
+    "nr": "req_ignore",
+    "TX": "req_text_args",
+    "Tn": "req_text_args",
 }
 
 
@@ -991,16 +1274,24 @@ def _is_redirect(raw: str) -> bool:
     m = _SO_LINE_RE.match(raw)
     if m is None:
         return False
-    return all(_EMPTY_LINE_RE.match(line) for line in raw[m.end():].split("\n"))
+    return all(_EMPTY_LINE_RE.match(line) for line in raw[m.end() :].split("\n"))
 
 
 def _build_dispatch() -> dict:
     table: dict = {}
     groups = (
-        (_IGNORED_REQUESTS, "req_ignore"), (_MDOC_CALLABLE, "mdoc"), (_MDOC_BLOCK, "mdoc"),
-        (_DEFINITION_MACROS, "req_define"), (_SKIP_BLOCKS, "req_skip"), (_NOFILL_ON, "req_nofill"),
-        (_NOFILL_OFF, "req_nofill"), (_BREAK_MACROS, "req_break"), (_PARA_MACROS, "req_para"),
-        (_FONT_MACROS, "req_font"), (("do",), "req_do"), (("nop",), "req_nop"),
+        (_IGNORED_REQUESTS, "req_ignore"),
+        (_MDOC_CALLABLE, "mdoc"),
+        (_MDOC_BLOCK, "mdoc"),
+        (_DEFINITION_MACROS, "req_define"),
+        (_SKIP_BLOCKS, "req_skip"),
+        (_NOFILL_ON, "req_nofill"),
+        (_NOFILL_OFF, "req_nofill"),
+        (_BREAK_MACROS, "req_break"),
+        (_PARA_MACROS, "req_para"),
+        (_FONT_MACROS, "req_font"),
+        (("do",), "req_do"),
+        (("nop",), "req_nop"),
         (("if", "ie", "el"), "req_conditional"),
     )
     for names, method in groups:  # later groups take precedence
@@ -1065,8 +1356,12 @@ def manpage_to_text(raw: str) -> str:
 # Man pages on this machine
 # ---------------------------------------------------------------------------
 
-_COMPRESSED = {".gz": gzip.decompress, ".bz2": bz2.decompress, ".xz": lzma.decompress,
-               ".lzma": lzma.decompress}
+_COMPRESSED = {
+    ".gz": gzip.decompress,
+    ".bz2": bz2.decompress,
+    ".xz": lzma.decompress,
+    ".lzma": lzma.decompress,
+}
 
 
 def _page_name(file_name: str) -> str:
@@ -1080,9 +1375,7 @@ def _page_stem(name: str) -> str:
     return re.split(r"[-_.]", name, maxsplit=1)[0].lower()
 
 
-def _manpage_files(
-    sections: Sequence[str], root: str | os.PathLike[str] | None
-) -> list[tuple[str, Path]]:
+def _manpage_files(sections: Sequence[str], root: str | os.PathLike[str] | None) -> list[tuple[str, Path]]:
     """Regular page files as (page name, path), sorted by name then section.
 
     Symbolic links are alias names for another page and are left out, as
@@ -1231,9 +1524,42 @@ def available_manpages(
 # Synthetic documents
 # ---------------------------------------------------------------------------
 
-_ONSETS = ("", "b", "c", "d", "f", "g", "h", "j", "k", "l", "m", "n", "p", "r", "s", "t",
-           "v", "w", "z", "br", "cr", "dr", "fl", "gr", "pl", "pr", "st", "tr", "sh", "ch",
-           "th", "sl", "sp", "qu")
+_ONSETS = (
+    "",
+    "b",
+    "c",
+    "d",
+    "f",
+    "g",
+    "h",
+    "j",
+    "k",
+    "l",
+    "m",
+    "n",
+    "p",
+    "r",
+    "s",
+    "t",
+    "v",
+    "w",
+    "z",
+    "br",
+    "cr",
+    "dr",
+    "fl",
+    "gr",
+    "pl",
+    "pr",
+    "st",
+    "tr",
+    "sh",
+    "ch",
+    "th",
+    "sl",
+    "sp",
+    "qu",
+)
 _NUCLEI = ("a", "e", "i", "o", "u", "a", "e", "i", "o", "ai", "ea", "ou", "io", "y")
 _CODAS = ("", "", "", "", "n", "r", "s", "l", "t", "m", "nd", "st", "rk", "ng", "x")
 _SYLLABLE_COUNTS = np.array([0.22, 0.62, 0.90, 1.0])  # cumulative: 1, 2, 3, 4 syllables
@@ -1441,9 +1767,22 @@ _TEMPLATES = (
         "to the documentation mailing list. To unsubscribe, reply with the word STOP.",
     ),
 )
-_STRUCTURAL_OPS = ("reorder_sentences", "remove_paragraph", "add_paragraph", "whitespace_case", "wrap_template")
-_WHITESPACE_VARIANTS = ("lowercase", "uppercase_lines", "double_spaces", "rewrap", "trailing_spaces",
-                        "indent", "crlf")
+_STRUCTURAL_OPS = (
+    "reorder_sentences",
+    "remove_paragraph",
+    "add_paragraph",
+    "whitespace_case",
+    "wrap_template",
+)
+_WHITESPACE_VARIANTS = (
+    "lowercase",
+    "uppercase_lines",
+    "double_spaces",
+    "rewrap",
+    "trailing_spaces",
+    "indent",
+    "crlf",
+)
 _PARA_SPLIT_RE = re.compile(r"\n[ \t]*\n+")
 _SENTENCE_SPLIT_RE = re.compile(r"(?<=[.!?])\s+(?=[A-Z(\"'])")
 _WORD_PARTS_RE = re.compile(r"^([^A-Za-z0-9]*)(.*?)([^A-Za-z0-9]*)$", re.S)
@@ -1534,8 +1873,14 @@ def _word_edits(text: str, rate: float, rng: np.random.Generator, source: _WordS
             words.insert(j, fresh[2 * t])
             seps.insert(j, " ")
     edited = lead + "".join(map(str.__add__, words, seps))
-    return edited, {"op": "word_edits", "rate": rate, "words": n, "substituted": counts[1],
-                    "deleted": counts[2], "inserted": counts[3]}
+    return edited, {
+        "op": "word_edits",
+        "rate": rate,
+        "words": n,
+        "substituted": counts[1],
+        "deleted": counts[2],
+        "inserted": counts[3],
+    }
 
 
 def _paragraphs(text: str) -> list[str]:
@@ -1547,7 +1892,9 @@ def _reorder_sentences(paras: list[str], rate: float, rng: np.random.Generator) 
     if not candidates:
         return None
     k = max(1, min(len(candidates), int(round(len(candidates) * min(1.0, 2 * rate)))))
-    chosen = sorted(candidates[i] for i in np.argsort(rng.random(len(candidates)), kind="stable")[:k].tolist())
+    chosen = sorted(
+        candidates[i] for i in np.argsort(rng.random(len(candidates)), kind="stable")[:k].tolist()
+    )
     for i in chosen:
         sentences = _SENTENCE_SPLIT_RE.split(paras[i])
         order = np.argsort(rng.random(len(sentences)), kind="stable").tolist()
@@ -1562,7 +1909,9 @@ def _whitespace_case(text: str, rng: np.random.Generator) -> tuple[str, dict, bo
     first = int(u[0] * len(_WHITESPACE_VARIANTS))
     chosen = [_WHITESPACE_VARIANTS[min(first, len(_WHITESPACE_VARIANTS) - 1)]]
     if u[1] < 0.5:
-        second = _WHITESPACE_VARIANTS[min(int(u[2] * len(_WHITESPACE_VARIANTS)), len(_WHITESPACE_VARIANTS) - 1)]
+        second = _WHITESPACE_VARIANTS[
+            min(int(u[2] * len(_WHITESPACE_VARIANTS)), len(_WHITESPACE_VARIANTS) - 1)
+        ]
         if second not in chosen:
             chosen.append(second)
     chosen.sort(key=_WHITESPACE_VARIANTS.index)
@@ -1573,16 +1922,23 @@ def _whitespace_case(text: str, rng: np.random.Generator) -> tuple[str, dict, bo
         elif variant == "uppercase_lines":
             lines = text.split("\n")
             flags = rng.random(len(lines)) < 0.1
-            text = "\n".join(line.upper() if f else line for line, f in zip(lines, flags.tolist(), strict=True))
+            text = "\n".join(
+                line.upper() if f else line for line, f in zip(lines, flags.tolist(), strict=True)
+            )
         elif variant == "double_spaces":
             text = text.replace(". ", ".  ").replace(", ", ",  ")
         elif variant == "rewrap":
             width = 50 + int(rng.random() * 40)
             detail["width"] = width
-            text = "\n\n".join(
-                textwrap.fill(" ".join(p.split()), width=width, break_long_words=False, break_on_hyphens=False)
-                for p in _paragraphs(text)
-            ) + "\n"
+            text = (
+                "\n\n".join(
+                    textwrap.fill(
+                        " ".join(p.split()), width=width, break_long_words=False, break_on_hyphens=False
+                    )
+                    for p in _paragraphs(text)
+                )
+                + "\n"
+            )
         elif variant == "trailing_spaces":
             lines = text.split("\n")
             pads = _uniform_index(rng.random(len(lines)), 4).tolist()
@@ -1622,8 +1978,15 @@ def _make_copy(
             src = min(int(rng.random() * len(donor_paras)), len(donor_paras) - 1)
             at = min(1 + int(rng.random() * len(paras)), len(paras))
             paras.insert(at, donor_paras[src])
-            ops.append({"op": "add_paragraph", "source": plan["donor"], "source_index": src,
-                        "index": at, "words": len(donor_paras[src].split())})
+            ops.append(
+                {
+                    "op": "add_paragraph",
+                    "source": plan["donor"],
+                    "source_index": src,
+                    "index": at,
+                    "words": len(donor_paras[src].split()),
+                }
+            )
     if plan["reorder_sentences"]:
         detail = _reorder_sentences(paras, rate, rng)
         if detail is not None:
@@ -1657,7 +2020,9 @@ def _rate_label(rate: float) -> str:
     return "e" + f"{percent:04.1f}".replace(".", "p")
 
 
-def _select_manpages(n_base: int, seed: int, max_per_stem: int | None, min_words: int) -> list[tuple[str, str]]:
+def _select_manpages(
+    n_base: int, seed: int, max_per_stem: int | None, min_words: int
+) -> list[tuple[str, str]]:
     files = _capped(_manpage_files(("1", "5", "8"), None), max_per_stem)
     order = np.argsort(_rng(seed, 1).random(len(files)), kind="stable").tolist()
     chosen: list[tuple[str, str]] = []
@@ -1766,7 +2131,9 @@ def make_planted_corpus(
     base_dir, copy_dir, truth_path = out / "base", out / "copies", out / "truth.json"
     existing = [p for p in (base_dir, copy_dir, truth_path) if p.exists()]
     if existing and not overwrite:
-        raise FileExistsError(f"{out} already holds a corpus; pass overwrite=True (--overwrite) to replace it")
+        raise FileExistsError(
+            f"{out} already holds a corpus; pass overwrite=True (--overwrite) to replace it"
+        )
     # Man pages are chosen before anything is written, so a shortage fails cleanly.
     if source == "manpages":
         docs: Iterable[tuple[str, str]] = _select_manpages(n_base, seed, max_per_stem, min_words)
@@ -1822,7 +2189,9 @@ def make_planted_corpus(
         for k, rate in enumerate(rates):
             plan = plans[(f, k)]
             donor_text = kept[plan["donor"]][1] if plan["donor"] is not None else None
-            text, ops = _make_copy(base_text, title, rate, plan, _rng(seed, 3, f, k, 1), word_source, donor_text)
+            text, ops = _make_copy(
+                base_text, title, rate, plan, _rng(seed, 3, f, k, 1), word_source, donor_text
+            )
             rel = f"copies/{f:0{width}d}-{labels[k]}.txt"
             (out / rel).write_bytes(text.encode("utf-8"))
             files[rel] = {"family": f, "kind": "copy", "base": base_rel, "rate": rate, "operations": ops}
@@ -1851,6 +2220,7 @@ def _dump_truth(truth: dict) -> str:
     Readable in a pager and much faster than ``json.dumps(indent=...)`` for
     corpora with a million files; key order is fixed by the caller.
     """
+
     def dumps(value: object) -> str:
         return json.dumps(value, sort_keys=True, ensure_ascii=False)
 
@@ -1894,20 +2264,35 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser.add_argument("--families", type=int, required=True, help="base documents that get copies")
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument("--source", choices=("manpages", "synthetic"), default="manpages")
-    parser.add_argument("--rates", type=_parse_rates, default=[0.02, 0.05, 0.1, 0.2],
-                        help="comma-separated edit rates (default 0.02,0.05,0.1,0.2)")
+    parser.add_argument(
+        "--rates",
+        type=_parse_rates,
+        default=[0.02, 0.05, 0.1, 0.2],
+        help="comma-separated edit rates (default 0.02,0.05,0.1,0.2)",
+    )
     parser.add_argument("--doc-bytes", type=int, default=2048, help="synthetic document size")
     parser.add_argument("--structural-prob", type=float, default=0.5)
-    parser.add_argument("--max-per-stem", type=int, default=10,
-                        help="man pages kept per name stem such as gcloud_* (0: no cap; default 10)")
+    parser.add_argument(
+        "--max-per-stem",
+        type=int,
+        default=10,
+        help="man pages kept per name stem such as gcloud_* (0: no cap; default 10)",
+    )
     parser.add_argument("--overwrite", action="store_true", help="replace an existing corpus")
     args = parser.parse_args(argv)
     started = time.perf_counter()
     try:
         truth = make_planted_corpus(
-            args.out, args.base, args.families, args.seed, edit_rates=args.rates, source=args.source,
-            doc_bytes=args.doc_bytes, structural_prob=args.structural_prob,
-            max_per_stem=args.max_per_stem or None, overwrite=args.overwrite,
+            args.out,
+            args.base,
+            args.families,
+            args.seed,
+            edit_rates=args.rates,
+            source=args.source,
+            doc_bytes=args.doc_bytes,
+            structural_prob=args.structural_prob,
+            max_per_stem=args.max_per_stem or None,
+            overwrite=args.overwrite,
         )
     except (ValueError, FileExistsError) as exc:
         print(f"error: {exc}", file=sys.stderr)

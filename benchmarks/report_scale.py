@@ -68,7 +68,9 @@ def main(argv: list[str] | None = None) -> int:
     print(f"clusters: {clusters:,} ({2 * args.clusters:,} documents of ~{args.doc_bytes} bytes)")
     print(f"audit {audit_s:.1f} s, writing outputs (report included) {write_s:.1f} s")
     print(f"report.html: {size_mb:.1f} MB, {size_mb / clusters * 1000:.2f} MB per 1,000 clusters")
-    print(f"Chromium: first page drawn {open_s:.2f} s, evidence opened {evidence_s:.2f} s, path filter {filter_s:.2f} s")
+    print(
+        f"Chromium: first page drawn {open_s:.2f} s, evidence opened {evidence_s:.2f} s, path filter {filter_s:.2f} s"
+    )
     return 0
 
 

@@ -68,6 +68,8 @@ class AuditResult:
         be byte-identical between runs) but written to ``run.json``.
     texts : dict
         Original text of every clustered document, for the report's evidence view.
+    delta : dict or None
+        With an index: what changed since the last audit (see `dedup.index`).
     """
 
     settings: AuditSettings
@@ -86,6 +88,7 @@ class AuditResult:
     audit_id: str
     run: dict = field(default_factory=dict)
     texts: dict = field(default_factory=dict)
+    delta: dict | None = None
 
     def to_dict(self) -> dict:
         """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path)."""
@@ -107,6 +110,7 @@ class AuditResult:
             "pairs": self.pairs,
             "clusters": self.clusters,
             "actions": self.actions,
+            **({"delta": self.delta} if self.delta is not None else {}),
         }
 
     def write(self, out_dir: str) -> dict[str, str]:

@@ -3,7 +3,8 @@
 Exit codes
 ----------
 0  the audit ran (whatever it found)
-1  ``--fail-on any`` and at least one cluster was found
+1  ``--fail-on any`` and at least one cluster was found; with ``--index``, ``--fail-on new`` /
+   ``grown`` and a cluster new (or grown) since the last audit; reviewed clusters never count
 2  usage error: a bad option, a path that does not exist, an output folder that
    cannot be written
 3  an unexpected internal error (reported in one line; please file it)
@@ -55,7 +56,7 @@ def build_parser() -> argparse.ArgumentParser:
             "run.json and report.html into --out."
         ),
         epilog=CAUTION
-        + " Exit codes: 0 ran, 1 clusters found with --fail-on any, 2 usage error, 3 internal error.",
+        + " Exit codes: 0 ran, 1 --fail-on was met, 2 usage error (or an unusable index), 3 internal error.",
         formatter_class=argparse.ArgumentDefaultsHelpFormatter,
     )
     d = AuditSettings()
@@ -206,21 +207,67 @@ def build_parser() -> argparse.ArgumentParser:
         help="skip files larger than this",
     )
     g.add_argument("--include-hidden", action="store_true", help="also read hidden files and folders")
-    g.add_argument("--include-vcs", action="store_true", help="also read version-control folders (.git, .hg, .svn, …)")
-    g.add_argument("--include", action="append", default=[], metavar="GLOB", help="read only paths matching this glob (repeatable)")
-    g.add_argument("--exclude", action="append", default=[], metavar="GLOB", help="do not read paths matching this glob (repeatable)")
-    g.add_argument("--max-text-chars", type=int, default=d.max_text_chars, metavar="N", help="cut longer texts to this many characters (marked truncated)")
-    g.add_argument("--max-archive-ratio", type=float, default=d.max_archive_ratio, metavar="R", help="refuse archive members that expand more than R times")
-    g.add_argument("--max-archive-bytes", type=int, default=d.max_archive_bytes, metavar="N", help="stop expanding an archive beyond N bytes in all")
-    g.add_argument("--html-keep-all", action="store_true", help="keep navigation, headers, footers and asides of HTML pages")
+    g.add_argument(
+        "--include-vcs", action="store_true", help="also read version-control folders (.git, .hg, .svn, …)"
+    )
+    g.add_argument(
+        "--include",
+        action="append",
+        default=[],
+        metavar="GLOB",
+        help="read only paths matching this glob (repeatable)",
+    )
+    g.add_argument(
+        "--exclude",
+        action="append",
+        default=[],
+        metavar="GLOB",
+        help="do not read paths matching this glob (repeatable)",
+    )
+    g.add_argument(
+        "--max-text-chars",
+        type=int,
+        default=d.max_text_chars,
+        metavar="N",
+        help="cut longer texts to this many characters (marked truncated)",
+    )
+    g.add_argument(
+        "--max-archive-ratio",
+        type=float,
+        default=d.max_archive_ratio,
+        metavar="R",
+        help="refuse archive members that expand more than R times",
+    )
+    g.add_argument(
+        "--max-archive-bytes",
+        type=int,
+        default=d.max_archive_bytes,
+        metavar="N",
+        help="stop expanding an archive beyond N bytes in all",
+    )
+    g.add_argument(
+        "--html-keep-all",
+        action="store_true",
+        help="keep navigation, headers, footers and asides of HTML pages",
+    )
     g = p.add_argument_group("running")
     g.add_argument(
         "--fail-on",
-        choices=("none", "any"),
+        choices=("none", "any", "new", "grown"),
         default="none",
-        help="exit with code 1 when any cluster is found",
+        help="exit with code 1 when any cluster is found (any), or, with --index, when a cluster is new (new) "
+        "or new or grown (grown) since the last audit; reviewed clusters never count",
+    )
+    g.add_argument(
+        "--index",
+        default=None,
+        metavar="FILE",
+        help="index file: apply remembered review decisions, compare with the last audit, record this one",
     )
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    from . import cli_index
+
+    cli_index.register(commands)
     return parser
 
 
@@ -303,6 +350,20 @@ def _run_audit(args: argparse.Namespace) -> int:
         if path != "-" and not os.path.exists(path):
             print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
             return EXIT_USAGE
+    if settings.fail_on in ("new", "grown") and not args.index:
+        print(
+            f"dedup: error: --fail-on {settings.fail_on} compares with the last audit: give --index FILE",
+            file=sys.stderr,
+        )
+        return EXIT_USAGE
+    if args.index and os.path.exists(args.index):
+        from .index import IndexFileError, open_index
+
+        try:
+            open_index(args.index).close()
+        except IndexFileError as err:
+            print(f"dedup: error: {err}", file=sys.stderr)
+            return EXIT_USAGE
     out = args.out
     if os.path.exists(out) and not os.path.isdir(out):
         print(f"dedup: error: --out {out} exists and is not a folder", file=sys.stderr)
@@ -321,6 +382,15 @@ def _run_audit(args: argparse.Namespace) -> int:
     except InputError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE
+    code = EXIT_FOUND if settings.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK
+    delta = None
+    if args.index:
+        from .cli_index import audit_with_index, delta_lines
+
+        delta, code = audit_with_index(args.index, result, settings.fail_on)
+        if code == EXIT_USAGE:
+            return EXIT_USAGE
+        result.delta = delta
     try:
         paths = result.write(out)
     except OSError as err:
@@ -328,9 +398,9 @@ def _run_audit(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     if not args.quiet:
         print("\n".join(_summary_lines(result, paths)))
-    if settings.fail_on == "any" and result.summary["clusters"] > 0:
-        return EXIT_FOUND
-    return EXIT_OK
+        if delta is not None:
+            print("\n".join(delta_lines(delta)))
+    return code
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -342,6 +412,10 @@ def main(argv: list[str] | None = None) -> int:
     try:
         if args.command == "audit":
             return _run_audit(args)
+        from . import cli_index
+
+        if args.command in cli_index.COMMANDS:
+            return cli_index.run(args)
     except KeyboardInterrupt:
         print("dedup: interrupted", file=sys.stderr)
         return 130

@@ -118,8 +118,9 @@ class AuditSettings:
         Read hidden files and folders (names starting with a dot) too.
     include_vcs : bool
         Read version-control folders (.git, .hg, .svn, …) too.
-    fail_on : {"none", "any"}
-        ``any``: the CLI exits with code 1 when any cluster is found.
+    fail_on : {"none", "any", "new", "grown"}
+        ``any``: the CLI exits with code 1 when any cluster is found; ``new`` / ``grown``
+        (with an index): when a cluster is new, or new or grown, since the last audit.
     """
 
     threshold: float = 0.8
@@ -228,8 +229,8 @@ class AuditSettings:
             fail(f"candidates must be one of {', '.join(CANDIDATE_METHODS)}, got {self.candidates!r}")
         if self.hash_scheme not in HASH_SCHEMES:
             fail(f"hash_scheme must be one of {', '.join(HASH_SCHEMES)}, got {self.hash_scheme!r}")
-        if self.fail_on not in ("none", "any"):
-            fail(f"fail_on must be 'none' or 'any', got {self.fail_on!r}")
+        if self.fail_on not in ("none", "any", "new", "grown"):
+            fail(f"fail_on must be one of none, any, new, grown, got {self.fail_on!r}")
         positive = {
             "shingle_size": self.shingle_size,
             "num_perm": self.num_perm,

@@ -254,6 +254,13 @@
     toggle.appendChild(el("span", { text: "retire " + c[4] + " (" + c[5].toLocaleString("en") + " bytes) · lowest similarity " + fmt(c[6]) }));
     var d = decisions[clusterKey(c)];
     toggle.appendChild(el("span", { cls: "badge" + (d ? " decided" : ""), "data-badge": c[0], text: d && d.decision ? DECISION_WORDS[d.decision] : "undecided" }));
+    if (c[9]) {
+      // A decision remembered by the index from an earlier review.
+      var r = c[9];
+      var words = "earlier review: " + r.status + (r.decision ? " (" + (DECISION_WORDS[r.decision] || r.decision) + ")" : "") +
+        (r.comment ? " — " + r.comment : "") + (r.decided_at ? " · " + r.decided_at : "");
+      toggle.appendChild(el("span", { cls: "badge decided", text: words }));
+    }
     var heading = el("h3", {}, [toggle]);
     card.appendChild(heading);
     if (open) card.appendChild(clusterBody(c));

@@ -85,8 +85,12 @@ def similarity_histogram(values: Sequence[float], threshold: float, measure: str
                 f'height="{_y(0, top) - _y(c, top):.1f}" fill="{BAR}"><title>{c} pairs</title></rect>'
             )
     tx = _x(threshold, low, 1.0)
-    body.append(f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{HEIGHT - BOTTOM}" stroke="{LINE}" stroke-dasharray="4 3"/>')
-    body.append(f'<text x="{tx + 3:.1f}" y="{TOP + 10}" font-size="10" fill="{LINE}">threshold {threshold:g}</text>')
+    body.append(
+        f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{HEIGHT - BOTTOM}" stroke="{LINE}" stroke-dasharray="4 3"/>'
+    )
+    body.append(
+        f'<text x="{tx + 3:.1f}" y="{TOP + 10}" font-size="10" fill="{LINE}">threshold {threshold:g}</text>'
+    )
     return _frame(
         "Similarity of confirmed pairs",
         f"{measure} score",
@@ -105,9 +109,13 @@ def s_curve(bands: int, rows: int, threshold: float) -> str:
     body = _x_ticks(0, 1, [0, 0.2, 0.4, 0.6, 0.8, 1.0]) + _y_ticks(1.0)
     body.append(f'<polyline points="{" ".join(points)}" fill="none" stroke="{ACCENT}" stroke-width="2"/>')
     tx = _x(threshold, 0, 1)
-    body.append(f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{HEIGHT - BOTTOM}" stroke="{LINE}" stroke-dasharray="4 3"/>')
+    body.append(
+        f'<line x1="{tx:.1f}" y1="{TOP}" x2="{tx:.1f}" y2="{HEIGHT - BOTTOM}" stroke="{LINE}" stroke-dasharray="4 3"/>'
+    )
     p = float(catch_probability(threshold, bands, rows))
-    body.append(f'<text x="{tx + 3:.1f}" y="{_y(p, 1.0) + 12:.1f}" font-size="10" fill="{LINE}">{p:.1%} at {threshold:g}</text>')
+    body.append(
+        f'<text x="{tx + 3:.1f}" y="{_y(p, 1.0) + 12:.1f}" font-size="10" fill="{LINE}">{p:.1%} at {threshold:g}</text>'
+    )
     return _frame(
         "Chance a pair is compared",
         "Jaccard similarity of a pair",

@@ -36,7 +36,10 @@ MAX_TEXT_CHARS = 200_000
 def template_folder() -> str:
     """Where the templates are: inside the installed package, or at the top of a checkout."""
     here = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    for candidate in (os.path.join(here, "report_templates"), os.path.join(os.path.dirname(here), "report_templates")):
+    for candidate in (
+        os.path.join(here, "report_templates"),
+        os.path.join(os.path.dirname(here), "report_templates"),
+    ):
         if os.path.isdir(candidate):
             return candidate
     raise FileNotFoundError("report templates not found: reinstall dedup (pip install -e .)")
@@ -118,7 +121,18 @@ def report_data(result) -> dict:
                 edges.append([ia, ib, p["deciding_score"], p["kind"]])
                 evidence_pairs.append((ia, ib))
         clusters.append(
-            [c["id"], c["size"], c["kind"], keeper, c["retire_documents"], c["retire_bytes"], c["lowest_similarity_to_keeper"], members, edges]
+            [
+                c["id"],
+                c["size"],
+                c["kind"],
+                keeper,
+                c["retire_documents"],
+                c["retire_bytes"],
+                c["lowest_similarity_to_keeper"],
+                members,
+                edges,
+                c.get("review"),
+            ]
         )
     texts = {}
     for doc_id, i in doc_index.items():
@@ -131,7 +145,9 @@ def report_data(result) -> dict:
         if key in seen or len(evidence) >= MAX_EVIDENCE_PAIRS:
             continue
         seen.add(key)
-        evidence[f"{key[0]}:{key[1]}"] = pair_evidence(texts[key[0]], texts[key[1]], shingle_size).to_compact()
+        evidence[f"{key[0]}:{key[1]}"] = pair_evidence(
+            texts[key[0]], texts[key[1]], shingle_size
+        ).to_compact()
     skipped = [[e.input, e.record, e.status, e.reason] for e in result.ledger if e.status != "read"]
     return {
         "audit_id": result.audit_id,

@@ -44,10 +44,22 @@ def page(browser):
     context = browser.new_context(viewport={"width": 1280, "height": 1000})
     page = context.new_page()
     page.problems = []
-    page.on("console", lambda m: page.problems.append(f"console {m.type}: {m.text}") if m.type in ("error", "warning") else None)
+    page.on(
+        "console",
+        lambda m: (
+            page.problems.append(f"console {m.type}: {m.text}") if m.type in ("error", "warning") else None
+        ),
+    )
     page.on("pageerror", lambda e: page.problems.append(f"page error: {e}"))
     page.on("dialog", lambda d: (page.problems.append(f"dialog: {d.message}"), d.dismiss()))
-    page.on("request", lambda r: None if r.url.startswith(("file:", "data:", "blob:")) else page.problems.append(f"request: {r.url}"))
+    page.on(
+        "request",
+        lambda r: (
+            None
+            if r.url.startswith(("file:", "data:", "blob:"))
+            else page.problems.append(f"request: {r.url}")
+        ),
+    )
     yield page
     context.close()
 
@@ -137,7 +149,9 @@ def test_decisions_export_and_survive_reload(page, demo_report):
     with page.expect_download() as download:
         page.click("#export-decisions")
     exported = json.loads(Path(download.value.path()).read_text())
-    assert exported == json.loads(page.locator("#decisions-json").input_value()) | {"exported_at": exported["exported_at"]}
+    assert exported == json.loads(page.locator("#decisions-json").input_value()) | {
+        "exported_at": exported["exported_at"]
+    }
     assert validate_decisions(exported) == []
     assert exported["audit_id"] == result.audit_id
     (decision,) = exported["decisions"]
@@ -178,9 +192,11 @@ def test_hostile_documents_run_no_script_and_still_render(page, tmp_path):
     ) * 3
     root = tmp_path / "hostile"
     root.mkdir()
-    names = ['<script>x<\\script>.txt', 'onerror="alert(1)".txt', "javascript:alert(1).txt", "\u202etxt.txt"]
+    names = ["<script>x<\\script>.txt", 'onerror="alert(1)".txt', "javascript:alert(1).txt", "\u202etxt.txt"]
     for n, name in enumerate(names):
-        (root / name).write_text(f"{HOSTILE[n % len(HOSTILE)]} {body} {' '.join(HOSTILE)} {'x' * 5000}\n", encoding="utf-8")
+        (root / name).write_text(
+            f"{HOSTILE[n % len(HOSTILE)]} {body} {' '.join(HOSTILE)} {'x' * 5000}\n", encoding="utf-8"
+        )
     (root / "<iframe>.bin").write_bytes(b"\x00")
     result = dedup.audit([str(root)])
     assert len(result.clusters) == 1 and result.clusters[0]["size"] == len(names)

@@ -1,0 +1,443 @@
+"""Command line of the persistent index: ``dedup index``, ``dedup decisions`` and ``dedup similar``.
+
+``register(commands)`` adds the subcommands to the main parser's subparsers and
+``run(args)`` runs one of them; ``audit_with_index`` is what ``dedup audit --index FILE``
+calls after the audit and before writing its outputs.
+
+Commands
+--------
+dedup index build PATH... --index FILE     create an index of the documents under PATH
+dedup index update [PATH...] --index FILE  bring it up to date (default: the paths of the last run)
+dedup index info --index FILE [--check]    what the index holds; --check runs SQLite's integrity check
+dedup decisions import FILE --index FILE   store the review decisions exported by a report
+dedup similar [TEXT] --index FILE          indexed documents most similar to TEXT (or --file)
+
+Exit codes
+----------
+0  the command ran
+1  (``dedup audit --index`` only) ``--fail-on`` is met: ``any`` cluster, a ``new`` cluster,
+   or a new or ``grown`` one; clusters settled by a review never count
+2  usage error: a bad option, a path that does not exist, a file that is not an index,
+   an index written by a newer dedup, a damaged index, settings that would mix sketches,
+   a decisions file that does not follow the schema, a query without words
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from .settings import AuditSettings, SettingsError
+
+__all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines"]
+
+COMMANDS = ("index", "decisions", "similar")
+EXIT_OK, EXIT_FOUND, EXIT_USAGE = 0, 1, 2
+
+# Option name -> AuditSettings field, for the options that shape sketches and reading.
+_SKETCH_OPTIONS = {
+    "shingle_size": "shingle_size",
+    "char_ngrams": "char_ngrams",
+    "num_perm": "num_perm",
+    "seed": "seed",
+    "hash_scheme": "hash_scheme",
+    "tfidf_features": "tfidf_features",
+    "sublinear_tf": "sublinear_tf",
+}
+_READ_OPTIONS = {
+    "id_field": "id_field",
+    "text_field": "text_fields",
+    "max_file_bytes": "max_file_bytes",
+    "include_hidden": "include_hidden",
+}
+
+
+def _add_settings_options(p: argparse.ArgumentParser, stored: bool) -> None:
+    """Sketch and reading options; with ``stored`` every default is "as the index records"."""
+    d = AuditSettings()
+
+    def default(value):
+        return None if stored else value
+
+    suffix = " (default: as the index records)" if stored else ""
+    g = p.add_argument_group("sketches (recorded in the index; an update cannot change them)")
+    g.add_argument(
+        "--shingle-size",
+        type=int,
+        default=default(d.shingle_size),
+        metavar="K",
+        help="words per shingle" + suffix,
+    )
+    g.add_argument(
+        "--char-ngrams",
+        type=int,
+        default=None,
+        metavar="N",
+        help="character N-grams instead of word shingles",
+    )
+    g.add_argument(
+        "--num-perm", type=int, default=default(d.num_perm), metavar="N", help="MinHash permutations" + suffix
+    )
+    g.add_argument(
+        "--seed", type=int, default=default(d.seed), help="seed of the MinHash permutations" + suffix
+    )
+    g.add_argument(
+        "--hash-scheme",
+        choices=("stable64", "datasketch-sha1"),
+        default=default(d.hash_scheme),
+        help="shingle hashing" + suffix,
+    )
+    g.add_argument(
+        "--tfidf-features",
+        type=int,
+        default=default(d.tfidf_features),
+        metavar="N",
+        help="size of the hashed TF-IDF feature space" + suffix,
+    )
+    g.add_argument(
+        "--sublinear-tf",
+        action="store_const",
+        const=True,
+        default=default(False),
+        help="use 1 + ln(tf) for term frequency",
+    )
+    g = p.add_argument_group("inputs")
+    g.add_argument("--id-field", default=None, metavar="FIELD", help="record field holding the document id")
+    g.add_argument(
+        "--text-field",
+        action="append",
+        default=None,
+        metavar="FIELD",
+        help="record field(s) holding the text",
+    )
+    g.add_argument(
+        "--max-file-bytes",
+        type=int,
+        default=default(d.max_file_bytes),
+        metavar="N",
+        help="skip larger files" + suffix,
+    )
+    g.add_argument(
+        "--include-hidden",
+        action="store_const",
+        const=True,
+        default=default(False),
+        help="also read hidden files and folders",
+    )
+
+
+def register(commands: argparse._SubParsersAction) -> None:
+    """Add ``index``, ``decisions`` and ``similar`` to the main parser's subcommands."""
+    parser_class = commands._parser_class  # keep the main parser's one-line errors in nested commands
+
+    p = commands.add_parser(
+        "index",
+        help="build or update a persistent index of documents",
+        description=(
+            "A persistent index (one SQLite file) of documents with their signatures, shingles and TF-IDF "
+            "statistics, for scheduled audits (dedup audit --index), remembered review decisions and "
+            "similarity search (dedup similar)."
+        ),
+    )
+    sub = p.add_subparsers(dest="index_command", metavar="ACTION", parser_class=parser_class)
+    b = sub.add_parser(
+        "build",
+        help="create an index of the documents under PATH",
+        description="Create an index of the documents under PATH (read as dedup audit reads them).",
+    )
+    b.add_argument("paths", nargs="+", metavar="PATH", help="files and folders to read (folders recursively)")
+    b.add_argument("--index", required=True, metavar="FILE", help="the index file to create")
+    _add_settings_options(b, stored=False)
+    _add_output_options(b)
+    u = sub.add_parser(
+        "update",
+        help="bring an index up to date",
+        description=(
+            "Bring an index up to date: documents whose text is unchanged are only hashed, new and changed "
+            "ones are sketched, documents no longer found are marked removed. The whole update is one "
+            "transaction: interrupted, the index stays as it was."
+        ),
+    )
+    u.add_argument(
+        "paths", nargs="*", metavar="PATH", help="files and folders to read (default: those of the last run)"
+    )
+    u.add_argument("--index", required=True, metavar="FILE", help="the index file")
+    _add_settings_options(u, stored=True)
+    _add_output_options(u)
+    i = sub.add_parser(
+        "info", help="what an index holds", description="Counts, settings and recent runs of an index."
+    )
+    i.add_argument("--index", required=True, metavar="FILE", help="the index file")
+    i.add_argument(
+        "--check", action="store_true", help="also run SQLite's integrity check over the whole file"
+    )
+    i.add_argument("--json", action="store_true", help="print JSON")
+
+    p = commands.add_parser(
+        "decisions",
+        help="store review decisions in an index",
+        description="Store review decisions exported by the report, so later audits with --index respect them.",
+    )
+    sub = p.add_subparsers(dest="decisions_command", metavar="ACTION", parser_class=parser_class)
+    m = sub.add_parser(
+        "import",
+        help="import a decisions file exported by the report",
+        description=(
+            "Import a decisions file exported by the report. A pair or cluster marked not-duplicate or keep-both "
+            "is not raised again by audits with --index while its texts are unchanged."
+        ),
+    )
+    m.add_argument("file", metavar="FILE", help="the exported decisions (JSON)")
+    m.add_argument("--index", required=True, metavar="INDEX", help="the index file (created if missing)")
+
+    s = commands.add_parser(
+        "similar",
+        help="indexed documents most similar to a text",
+        description=(
+            "The indexed documents most similar to a text by TF-IDF cosine, with the terms that contribute most "
+            "and the MinHash Jaccard estimate. Similarity is evidence for review, not a verdict."
+        ),
+    )
+    s.add_argument("text", nargs="?", metavar="TEXT", help="the query text")
+    s.add_argument("--file", metavar="FILE", help="read the query from a document file instead")
+    s.add_argument("--index", required=True, metavar="FILE", help="the index file")
+    s.add_argument("-k", "--top", type=int, default=10, metavar="K", help="how many results")
+    s.add_argument("--terms", type=int, default=5, metavar="N", help="contributing terms shown per result")
+    s.add_argument("--json", action="store_true", help="print JSON for scripts")
+
+
+def _add_output_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress and no summary")
+
+
+def _given_settings(args: argparse.Namespace) -> dict:
+    given = {}
+    for option, name in {**_SKETCH_OPTIONS, **_READ_OPTIONS}.items():
+        value = getattr(args, option, None)
+        if value is not None:
+            given[name] = tuple(value) if isinstance(value, list) else value
+    return given
+
+
+def _error(message: str) -> int:
+    print(f"dedup: error: {message}", file=sys.stderr)
+    return EXIT_USAGE
+
+
+def run(args: argparse.Namespace) -> int:
+    """Run ``index``, ``decisions`` or ``similar``; returns the exit code.
+
+    Every expected failure (see the module's exit codes) is one line on stderr and
+    code 2; anything else propagates to the main command's internal-error handling.
+    """
+    from .index import DecisionsFileError, IndexFileError, QueryError
+    from .ingest import InputError
+
+    try:
+        if args.command == "index":
+            action = getattr(args, "index_command", None)
+            if action in ("build", "update"):
+                return _run_build_or_update(args, action)
+            if action == "info":
+                return _run_info(args)
+            return _error("dedup index needs an action: build, update or info")
+        if args.command == "decisions":
+            if getattr(args, "decisions_command", None) == "import":
+                return _run_import(args)
+            return _error("dedup decisions needs an action: import")
+        if args.command == "similar":
+            return _run_similar(args)
+    except (IndexFileError, InputError, SettingsError, DecisionsFileError, QueryError) as err:
+        return _error(str(err))
+    return _error(f"unknown command {args.command!r}")
+
+
+def _progress(args: argparse.Namespace):
+    from .progress import Progress, StderrProgress
+
+    return Progress.silent() if getattr(args, "quiet", False) else StderrProgress()
+
+
+def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
+    from .index import build, open_index, update
+
+    given = _given_settings(args)
+    if action == "build":
+        summary = build(args.paths, args.index, AuditSettings(**given).validate(), progress=_progress(args))
+    else:
+        with open_index(args.index) as index:
+            settings = index.settings.replace(**given).validate()
+        summary = update(args.paths, args.index, settings, progress=_progress(args))
+    if args.json:
+        print(json.dumps(summary.to_dict(), indent=1, sort_keys=True))
+    elif not args.quiet:
+        inputs = summary.inputs
+        print(
+            f"{summary.kind} {summary.run}: {summary.documents:,} documents ({summary.added:,} added, "
+            f"{summary.changed:,} changed, {summary.removed:,} removed, {summary.unchanged:,} unchanged); "
+            f"{summary.sketched:,} texts sketched, {summary.texts:,} searchable; {summary.seconds:.1f} s"
+        )
+        print(
+            f"inputs: {inputs.get('entries', 0):,} ({inputs.get('read', 0):,} read, "
+            f"{inputs.get('empty', 0):,} empty, {inputs.get('skipped', 0):,} skipped)"
+        )
+        print(f"index: {args.index}")
+    return EXIT_OK
+
+
+def _run_info(args: argparse.Namespace) -> int:
+    from .index import open_index
+
+    with open_index(args.index) as index, index.reading() as db:
+        info = {
+            "index": args.index,
+            "schema_version": int(index.meta("schema_version") or 0),
+            "created_at": index.meta("created_at"),
+            "created_by": index.meta("created_by"),
+            "settings": json.loads(index.meta("settings") or "{}"),
+            "documents": dict(
+                db.execute("SELECT status, count(*) FROM documents GROUP BY status").fetchall()
+            ),
+            "texts": db.execute("SELECT count(*) FROM texts").fetchone()[0],
+            "searchable_texts": db.execute("SELECT texts FROM tfidf").fetchone()[0],
+            "postings_segments": db.execute("SELECT segments FROM tfidf").fetchone()[0],
+            "audits": db.execute("SELECT count(*) FROM audits").fetchone()[0],
+            "decisions": db.execute("SELECT count(*) FROM decisions").fetchone()[0],
+            "runs": [
+                dict(
+                    zip(
+                        ("run", "kind", "started_at", "seconds", "added", "changed", "removed", "unchanged"),
+                        row,
+                    )
+                )
+                for row in db.execute(
+                    "SELECT run, kind, started_at, seconds, added, changed, removed, unchanged FROM runs "
+                    "ORDER BY run DESC LIMIT 5"
+                )
+            ],
+        }
+        if args.check:
+            problems = [row[0] for row in db.execute("PRAGMA integrity_check")]
+            info["integrity_check"] = problems
+    if args.json:
+        print(json.dumps(info, indent=1, sort_keys=True))
+    else:
+        docs = info["documents"]
+        print(f"index: {args.index} (schema {info['schema_version']}, created {info['created_at']})")
+        print(
+            f"documents: {docs.get('present', 0):,} present, {docs.get('removed', 0):,} removed; "
+            f"texts: {info['texts']:,} ({info['searchable_texts']:,} searchable)"
+        )
+        print(f"audits recorded: {info['audits']:,}; decisions: {info['decisions']:,}")
+        s = info["settings"]
+        print(
+            f"sketches: shingle_size={s.get('shingle_size')} char_ngrams={s.get('char_ngrams')} "
+            f"num_perm={s.get('num_perm')} seed={s.get('seed')} hash_scheme={s.get('hash_scheme')} "
+            f"tfidf_features={s.get('tfidf_features')} sublinear_tf={s.get('sublinear_tf')}"
+        )
+        if args.check:
+            print("integrity check: " + "; ".join(info["integrity_check"]))
+    if args.check and info["integrity_check"] != ["ok"]:
+        return EXIT_USAGE
+    return EXIT_OK
+
+
+def _run_import(args: argparse.Namespace) -> int:
+    import os
+
+    from .index import import_decisions, load_decisions_file, open_index
+
+    data = load_decisions_file(args.file)
+    with open_index(args.index, create=not os.path.exists(args.index)) as index:
+        counts = import_decisions(index, data)
+    print(
+        f"decisions: {counts['decisions']:,} in {args.file}, {counts['new']:,} new, "
+        f"{counts['known']:,} already in {args.index}"
+    )
+    return EXIT_OK
+
+
+def _run_similar(args: argparse.Namespace) -> int:
+    from .index import QueryError, open_index, query_text_of_file, similar
+
+    if (args.text is None) == (args.file is None):
+        raise QueryError("give the query as TEXT or with --file, not both")
+    if args.top < 1 or args.terms < 0:
+        raise QueryError("-k must be at least 1 and --terms at least 0")
+    with open_index(args.index) as index:
+        text = args.text if args.file is None else query_text_of_file(args.file, index.settings)
+        results = similar(index, text, k=args.top, terms=args.terms)
+    if args.json:
+        out = {"query": {"file": args.file, "characters": len(text)}, "k": args.top, "results": results}
+        print(json.dumps(out, indent=1, ensure_ascii=False))
+        return EXIT_OK
+    if not results:
+        print("no indexed document shares a term with the query")
+        return EXIT_OK
+    for r in results:
+        copies = (
+            f"  (+{len(r['copies'])} exact {'copy' if len(r['copies']) == 1 else 'copies'})"
+            if r["copies"]
+            else ""
+        )
+        title = f"  {r['title']!r}" if r["title"] else ""
+        print(f"{r['rank']:>3}. cosine {r['cosine']:.3f}  {r['document_id']}{copies}{title}")
+        terms = ", ".join(f"{t['term']} {t['share']:.3f}" for t in r["terms"])
+        print(
+            f"     Jaccard {r['jaccard_estimate']:.2f} (MinHash estimate), {r['jaccard']:.2f} exact; terms: {terms}"
+        )
+    print("note: similarity is evidence for review, not a verdict.")
+    return EXIT_OK
+
+
+def audit_with_index(index_path: str, result, fail_on: str = "none") -> tuple[dict | None, int]:
+    """For ``dedup audit --index FILE``: apply reviews, compare with the last audit, record this one.
+
+    Call it after `dedup.audit` and before ``result.write(out)``: it marks ``result`` in
+    place (reviews on pairs and clusters, actions of reviewed clusters).
+
+    Returns
+    -------
+    delta : dict or None
+        The ``delta`` block for ``audit.json`` and the report (None when the index
+        cannot be used).
+    exit_code : int
+        0, 1 when ``fail_on`` is met, 2 when the index cannot be used (the message has
+        been printed on stderr).
+    """
+    from .index import IndexFileError, track_audit
+
+    try:
+        delta, failed = track_audit(index_path, result, fail_on)
+    except IndexFileError as err:
+        _error(str(err))
+        return None, EXIT_USAGE
+    return delta, EXIT_FOUND if failed else EXIT_OK
+
+
+def delta_lines(delta: dict) -> list[str]:
+    """Summary lines of a delta for the audit command's terminal output."""
+    c = delta["counts"]
+    if delta["previous"] is None:
+        head = "since last audit: no earlier audit in the index; every cluster is new"
+    else:
+        p = delta["previous"]
+        head = f"since last audit ({p['audit_id']}, {p['recorded_at']})"
+    lines = [
+        f"{head}: {c['new']} new, {c['grown']} grown, {c['shrunk']} shrunk, {c['resolved']} resolved, "
+        f"{c['unchanged']} unchanged clusters; {c['reviewed']} settled by review"
+    ]
+    docs = delta.get("documents")
+    if docs:
+        lines.append(
+            f"documents since last audit: {len(docs['added'])} added, {len(docs['changed'])} changed, "
+            f"{len(docs['removed'])} removed"
+        )
+    lapsed = delta.get("review", {}).get("clusters", {}).get("lapsed", 0)
+    if lapsed:
+        lines.append(f"reviews lapsed (texts changed since): {lapsed} clusters raised again")
+    if delta["settings_changed"]:
+        lines.append("settings changed since last audit: " + ", ".join(delta["settings_changed"]))
+    return lines

@@ -1,0 +1,52 @@
+"""The persistent index: one SQLite file for scheduled audits, reviews and similarity search.
+
+It keeps every document read (id, path, content hash, size, time, metadata), the
+signature, shingles and TF-IDF term counts of every distinct text, the TF-IDF
+statistics, the settings the sketches were built with, every audit recorded with it
+and the review decisions imported from reports. The tables are described in
+`dedup.index.schema`.
+
+>>> from dedup.index import build, update, open_index, similar  # doctest: +SKIP
+>>> build(["docs/"], "docs.index")  # doctest: +SKIP
+>>> update(["docs/"], "docs.index")  # doctest: +SKIP
+>>> with open_index("docs.index") as index:  # doctest: +SKIP
+...     similar(index, "how do I reset my password", k=5)
+
+The index is written only by `build`, `update`, `record_audit` (through `track_audit`)
+and `import_decisions`, each in one transaction; documents are only ever read.
+"""
+
+from importlib import import_module
+
+# Name -> module that defines it. Loaded on first use, so a search does not import the
+# indexing and audit machinery (the command line starts faster).
+_WHERE = {
+    "Index": "store",
+    "IndexFileError": "store",
+    "IndexSettingsError": "store",
+    "IndexBusyError": "store",
+    "open_index": "store",
+    "RunSummary": "indexing",
+    "build": "indexing",
+    "update": "indexing",
+    "QueryError": "search",
+    "similar": "search",
+    "query_text_of_file": "search",
+    "STATES": "history",
+    "MATCHING_RULE": "history",
+    "compare_clusters": "history",
+    "record_audit": "history",
+    "fails": "history",
+    "DecisionsFileError": "decisions",
+    "load_decisions_file": "decisions",
+    "import_decisions": "decisions",
+    "apply_decisions": "decisions",
+    "track_audit": "tracking",
+}
+__all__ = list(_WHERE)
+
+
+def __getattr__(name: str):
+    if name in _WHERE:
+        return getattr(import_module(f".{_WHERE[name]}", __name__), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

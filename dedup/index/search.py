@@ -1,0 +1,215 @@
+"""Similarity search: the indexed documents closest to a query text by TF-IDF cosine.
+
+The query is normalized, tokenized and counted exactly as indexed texts are, and
+weighted with the index's current idf (a term no indexed text uses gets the unseen idf,
+as `dedup.sketch.TfidfModel.transform` gives it), then scaled to unit length. The cosine
+with an indexed text t is
+
+    cos(q, t) = sum over the query's columns c of  q(c) * tf(t, c) * idf(c) / ||w(t)||
+
+so only the posting lists of the query's own columns are read: an inverted-index
+product, O(sum of those lists' lengths), independent of the rest of the index. The norms
+``||w(t)||`` are the stored statistics (`dedup.index.postings`).
+
+Each result names the query terms that contribute most to its score (a column's share
+of the cosine, ``q(c) * w(t, c) / ||w(t)||``; the shares add up to the cosine). Only
+terms the query and the text share can contribute, so the query's own words name them,
+and the index needs no vocabulary. Two different words that hash to the same column are
+named together (``"reset / resets"``). Each result also has the MinHash estimate of the
+Jaccard similarity of the two shingle sets and the exact Jaccard from the stored
+shingles.
+
+Everything is read in one read transaction, so a search running while an update writes
+sees the index as it was before that update.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..features.shingles import features_from_buffer
+from ..normalize import canonical_text, token_text
+from ..sketch import estimate_jaccard, minhash_signatures
+from .blobs import unpack_array
+from .postings import load_statistics, postings_of, term_counts, term_frequency
+from .store import Index
+
+__all__ = ["QueryError", "similar", "query_text_of_file"]
+
+
+class QueryError(ValueError):
+    """The query cannot be searched for (it has no words, or its file cannot be read)."""
+
+
+def _features(canonical: str, settings):
+    encoded = canonical.encode("utf-8")
+    buf = np.frombuffer(encoded, dtype=np.uint8) if encoded else np.zeros(0, np.uint8)
+    offsets = np.asarray([0, len(encoded)], dtype=np.int64)
+    needs_strings = bool(settings.char_ngrams) or settings.hash_scheme != "stable64"
+    return features_from_buffer(
+        buf,
+        offsets,
+        texts=[canonical] if needs_strings else None,
+        shingle_size=settings.shingle_size,
+        char_ngrams=settings.char_ngrams,
+        hash_scheme=settings.hash_scheme,
+    )
+
+
+def _term_names(canonical: str, token_hashes: np.ndarray, n_features: int) -> dict[int, str]:
+    """Column -> the query word(s) in it. The kernel's tokens are `token_text`'s words, in order."""
+    words = token_text(canonical).split()
+    names: dict[int, set[str]] = {}
+    if len(words) == token_hashes.shape[0]:
+        for word, column in zip(words, (token_hashes % np.uint64(n_features)).tolist()):
+            names.setdefault(int(column), set()).add(word)
+    return {column: " / ".join(sorted(ws)) for column, ws in names.items()}
+
+
+def similar(index: Index, text: str, k: int = 10, *, terms: int = 5) -> list[dict]:
+    """The ``k`` indexed texts most similar to ``text`` by TF-IDF cosine, best first.
+
+    Parameters
+    ----------
+    index : Index
+    text : str
+        The query (any length; it is normalized like an indexed document).
+    k : int
+        How many results (distinct texts; exact copies are listed together).
+    terms : int
+        How many contributing terms to name per result.
+
+    Returns
+    -------
+    list of dict
+        ``rank``, ``document_id`` (the first of the documents with this text, by id),
+        ``copies`` (the others), ``title``, ``content_hash``, ``cosine``, ``terms``
+        (``[{"term", "share"}]``, largest first), ``jaccard_estimate`` (MinHash) and
+        ``jaccard`` (exact, over the stored shingles). Texts sharing no term with the
+        query are never listed. Ties are broken by document id, so the order is
+        deterministic.
+
+    Raises
+    ------
+    QueryError
+        The query has no words.
+
+    Notes
+    -----
+    Cost O(length of the query's posting lists) plus O(k) row reads.
+    """
+    if k < 1:
+        raise QueryError(f"k must be at least 1, got {k}")
+    settings = index.settings
+    canonical = canonical_text(text)
+    features = _features(canonical, settings)
+    if features.token_hashes.shape[0] == 0:
+        raise QueryError("the query has no words to search for")
+    counts = term_counts(features.token_hashes, features.token_offsets, settings.tfidf_features)
+    columns = counts.indices.astype(np.int64)
+    names = _term_names(canonical, features.token_hashes, settings.tfidf_features)
+    query_signature = minhash_signatures(
+        features.shingles,
+        features.shingle_offsets,
+        num_perm=settings.num_perm,
+        seed=settings.seed,
+        hash_scheme=settings.hash_scheme,
+        shingle_spec=features.spec,
+    ).values[0]
+    query_shingles = features.shingles
+
+    with index.reading() as db:
+        stats = load_statistics(db)
+        if stats.n_texts == 0:
+            return []
+        idf = stats.idf(columns)
+        weights = term_frequency(counts.data, settings.sublinear_tf) * idf
+        weights /= np.sqrt(float(np.dot(weights, weights)))
+        scores = np.zeros(stats.n_texts, dtype=np.float64)
+        parts: list[tuple[int, np.ndarray, np.ndarray]] = []  # column, positions (sorted), shares
+        for column, q_weight, column_idf, df in zip(
+            columns.tolist(), weights.tolist(), idf.tolist(), stats.df_of(columns).tolist()
+        ):
+            if df == 0:
+                continue
+            text_ids, values = postings_of(db, column)
+            positions = stats.position_of(text_ids)
+            keep = positions >= 0
+            positions = positions[keep]
+            shares = q_weight * term_frequency(values[keep], settings.sublinear_tf) * column_idf
+            shares /= stats.norms[positions]
+            scores[positions] += shares
+            parts.append((column, positions, shares))
+        hits = np.flatnonzero(scores > 0)
+        if not hits.size:
+            return []
+        # Take every text scoring at least the k-th best, so ties at the edge are decided by id.
+        top = hits if hits.size <= k else hits[scores[hits] >= np.partition(scores[hits], -k)[-k]]
+        chosen = []
+        for position in top.tolist():
+            text_id = int(stats.text_ids[position])
+            row = db.execute(
+                "SELECT t.content_hash, s.signature, s.shingles FROM texts AS t JOIN sketches AS s "
+                "ON s.text_id = t.text_id WHERE t.text_id = ?",
+                (text_id,),
+            ).fetchone()
+            if row is None:  # cannot happen within one snapshot; keep the search going regardless
+                continue
+            docs = db.execute(
+                "SELECT doc_id, title FROM documents WHERE content_hash = ? AND status = 'present' ORDER BY doc_id",
+                (row[0],),
+            ).fetchall()
+            if docs:
+                chosen.append((float(scores[position]), docs, position, row))
+        chosen.sort(key=lambda c: (-c[0], c[1][0][0]))
+        results = []
+        for rank, (score, docs, position, (digest, signature_blob, shingle_blob)) in enumerate(chosen[:k], 1):
+            contributions = []
+            for column, positions, shares in parts:
+                at = int(np.searchsorted(positions, position))
+                if at < positions.shape[0] and positions[at] == position:
+                    contributions.append((float(shares[at]), names.get(column, f"#{column}")))
+            contributions.sort(key=lambda c: (-c[0], c[1]))
+            signature = unpack_array(signature_blob, "<u4", settings.num_perm)
+            shingles = unpack_array(shingle_blob, "<u8")
+            shared = int(np.intersect1d(query_shingles, shingles, assume_unique=True).shape[0])
+            union = int(query_shingles.shape[0] + shingles.shape[0] - shared)
+            results.append(
+                {
+                    "rank": rank,
+                    "document_id": docs[0][0],
+                    "copies": [d[0] for d in docs[1:]],
+                    "title": docs[0][1],
+                    "content_hash": digest,
+                    "cosine": min(score, 1.0),
+                    "terms": [{"term": name, "share": share} for share, name in contributions[:terms]],
+                    "jaccard_estimate": estimate_jaccard(query_signature, signature),
+                    "jaccard": shared / union if union else 0.0,
+                }
+            )
+    return results
+
+
+def query_text_of_file(path: str, settings) -> str:
+    """The text of one document file, read as an audit reads it (markup removed).
+
+    Raises
+    ------
+    QueryError
+        The file cannot be read, has no document, or holds several (a records file).
+    """
+    from ..ingest import InputError, iter_documents
+    from .store import read_keys
+
+    ledger: list = []
+    reading = {key: getattr(settings, key) for key in read_keys()}
+    try:
+        docs = list(iter_documents([path], ledger=ledger, **reading))
+    except InputError as err:
+        raise QueryError(str(err)) from err
+    if not docs:
+        reasons = "; ".join(e.reason for e in ledger if e.reason) or "no text"
+        raise QueryError(f"nothing to search for in {path}: {reasons}")
+    if len(docs) > 1:
+        raise QueryError(f"{path} holds {len(docs)} documents; give a file with one document")
+    return docs[0].text

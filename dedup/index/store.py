@@ -1,0 +1,334 @@
+"""Opening an index file: recognising it, creating it, migrating it, and its transactions.
+
+Reliability rests on SQLite: the file is in WAL mode, so readers (an audit, a search)
+keep reading a consistent snapshot while one writer works, and every write of ours is
+one transaction (``BEGIN IMMEDIATE`` … ``COMMIT``), so a process killed at any point
+leaves the file as it was before that write or as it is after it, never in between.
+``synchronous = FULL`` makes a commit survive a power cut too.
+
+What is refused, with a one-line `IndexFileError` (the command line exits with code 2):
+a path that is not an SQLite file, an SQLite file of another program, a file written by
+a newer dedup (higher schema version), a damaged file, and settings that would mix
+sketches built differently (`IndexSettingsError`).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import dataclasses
+import inspect
+import json
+import os
+import sqlite3
+import time
+from collections.abc import Iterator
+from typing import Any
+
+from .. import __version__
+from ..settings import AuditSettings
+from . import schema
+from .blobs import BlobError
+
+__all__ = [
+    "Index",
+    "IndexFileError",
+    "IndexSettingsError",
+    "IndexBusyError",
+    "open_index",
+    "SKETCH_KEYS",
+    "read_keys",
+    "utc_now",
+]
+
+# Settings that decide what a stored sketch is; signatures or term columns made with
+# other values cannot be compared with the stored ones.
+SKETCH_KEYS = (
+    "shingle_size",
+    "char_ngrams",
+    "hash_scheme",
+    "num_perm",
+    "seed",
+    "tfidf_features",
+    "sublinear_tf",
+)
+# Larger pages make the long blobs (shingles, postings) cheaper to read and write.
+PAGE_SIZE = 16384
+# How long a writer waits for another writer to finish before giving up.
+BUSY_SECONDS = 600.0
+
+
+class IndexFileError(Exception):
+    """The index file cannot be used; the message says why in one line."""
+
+
+class IndexSettingsError(IndexFileError):
+    """Settings that differ from those the index was built with, where mixing is unsafe."""
+
+
+class IndexBusyError(IndexFileError):
+    """Another process holds the index for writing longer than we wait."""
+
+
+def utc_now() -> str:
+    """Current time as ISO 8601 UTC with seconds, e.g. ``2024-05-01T12:00:00Z``."""
+    return time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
+
+
+def read_keys() -> tuple[str, ...]:
+    """Settings that say which documents are read: those `iter_documents` takes.
+
+    Found by name, so an option added to both the settings and the reader is recorded
+    and passed on without a change here.
+    """
+    from ..ingest import iter_documents
+
+    names = set(inspect.signature(iter_documents).parameters) - {"roots", "ledger", "stdin"}
+    return tuple(f.name for f in dataclasses.fields(AuditSettings) if f.name in names)
+
+
+def _index_settings(settings: AuditSettings) -> dict[str, Any]:
+    data = settings.to_dict()
+    return {key: data[key] for key in (*SKETCH_KEYS, *read_keys())}
+
+
+class Index:
+    """An open index file. Use `open_index` to get one; close it (or use ``with``).
+
+    Attributes
+    ----------
+    path : str
+    connection : sqlite3.Connection
+        In autocommit mode: every transaction is opened explicitly by `writing` or
+        `reading`.
+    """
+
+    def __init__(self, path: str, connection: sqlite3.Connection) -> None:
+        self.path = path
+        self.connection = connection
+
+    # -- lifetime -----------------------------------------------------------------------
+    def close(self) -> None:
+        self.connection.close()
+
+    def __enter__(self) -> Index:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    # -- transactions -------------------------------------------------------------------
+    @contextlib.contextmanager
+    def writing(self) -> Iterator[sqlite3.Connection]:
+        """One write transaction: all of it is committed, or none of it.
+
+        ``BEGIN IMMEDIATE`` takes the write lock at once (waiting up to `BUSY_SECONDS`
+        for another writer), so two updates never interleave.
+        """
+        with self.guard():
+            self.connection.execute("BEGIN IMMEDIATE")
+            try:
+                yield self.connection
+            except BaseException:
+                self.connection.execute("ROLLBACK")
+                raise
+            self.connection.execute("COMMIT")
+
+    @contextlib.contextmanager
+    def reading(self) -> Iterator[sqlite3.Connection]:
+        """One read transaction: every query inside it sees the same committed state."""
+        with self.guard():
+            self.connection.execute("BEGIN")
+            try:
+                yield self.connection
+            finally:
+                self.connection.execute("COMMIT")
+
+    @contextlib.contextmanager
+    def guard(self) -> Iterator[None]:
+        """Turn SQLite's errors (and blobs that do not decode) into one-line `IndexFileError` messages."""
+        try:
+            yield
+        except sqlite3.OperationalError as err:
+            text = str(err)
+            if "locked" in text or "busy" in text:
+                raise IndexBusyError(
+                    f"the index {self.path} is being written by another process; try again when it is done"
+                ) from err
+            raise IndexFileError(f"cannot use the index {self.path}: {text}") from err
+        except (sqlite3.DatabaseError, BlobError) as err:
+            raise IndexFileError(f"the index {self.path} is damaged: {err}") from err
+
+    # -- what the index is --------------------------------------------------------------
+    def meta(self, key: str) -> str | None:
+        row = self.connection.execute("SELECT value FROM meta WHERE key = ?", (key,)).fetchone()
+        return None if row is None else row[0]
+
+    @property
+    def settings(self) -> AuditSettings:
+        """The settings the index was built with (others at their defaults)."""
+        with self.guard():
+            stored = json.loads(self.meta("settings") or "{}")
+        known = {f.name for f in dataclasses.fields(AuditSettings)}
+        values = {k: tuple(v) if isinstance(v, list) else v for k, v in stored.items() if k in known}
+        return AuditSettings().replace(**values)
+
+    def check_settings(self, settings: AuditSettings) -> None:
+        """Refuse settings whose sketches could not be compared with the stored ones.
+
+        Raises
+        ------
+        IndexSettingsError
+            Naming every setting that differs, with both values.
+        """
+        stored, given = _index_settings(self.settings), _index_settings(settings)
+        differ = [key for key in SKETCH_KEYS if stored[key] != given[key]]
+        if differ:
+            words = ", ".join(f"{key} {stored[key]!r} (given {given[key]!r})" for key in differ)
+            raise IndexSettingsError(
+                f"the index {self.path} was built with {words}; sketches made with other settings cannot be "
+                "mixed with its own: leave these options out, or build a new index"
+            )
+
+    def store_settings(self, settings: AuditSettings) -> None:
+        """Record the settings (inside a write transaction): the reading options may change."""
+        self.connection.execute(
+            "UPDATE meta SET value = ? WHERE key = 'settings'",
+            (json.dumps(_index_settings(settings), sort_keys=True),),
+        )
+
+
+def _connect(path: str) -> sqlite3.Connection:
+    connection = sqlite3.connect(path, isolation_level=None, timeout=BUSY_SECONDS, check_same_thread=False)
+    connection.execute("PRAGMA synchronous = FULL")
+    return connection
+
+
+def _has_tables(connection: sqlite3.Connection) -> bool:
+    return connection.execute("SELECT count(*) FROM sqlite_master").fetchone()[0] > 0
+
+
+def _create(index: Index, settings: AuditSettings) -> None:
+    connection = index.connection
+    connection.execute(f"PRAGMA page_size = {PAGE_SIZE}")
+    connection.execute("PRAGMA journal_mode = WAL")
+    with index.writing():
+        if _has_tables(connection):  # another process created it meanwhile
+            return
+        # One statement at a time: executescript would commit the open transaction.
+        for statement in schema.CREATE.split(";"):
+            if statement.strip():
+                connection.execute(statement)
+        connection.execute(f"PRAGMA application_id = {schema.APPLICATION_ID}")
+        rows = {
+            "format": schema.FORMAT,
+            "schema_version": str(schema.SCHEMA_VERSION),
+            "created_at": utc_now(),
+            "created_by": f"dedup {__version__}",
+            "settings": json.dumps(_index_settings(settings), sort_keys=True),
+        }
+        connection.executemany("INSERT INTO meta (key, value) VALUES (?, ?)", sorted(rows.items()))
+        connection.execute(
+            "INSERT INTO tfidf (id, texts, text_ids, norms, term_columns, df, entries, live_entries, segments, run) "
+            "VALUES (1, 0, x'', x'', x'', x'', 0, 0, 0, 0)"
+        )
+
+
+def _check_ours(index: Index) -> int:
+    """The schema version of an existing file, after checking that it is an index."""
+    connection = index.connection
+    app_id = connection.execute("PRAGMA application_id").fetchone()[0]
+    has_meta = connection.execute("SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name = 'meta'")
+    if app_id != schema.APPLICATION_ID or not has_meta.fetchone()[0] or index.meta("format") != schema.FORMAT:
+        raise IndexFileError(f"{index.path} is an SQLite file but not a dedup index")
+    version = index.meta("schema_version")
+    if version is None or not version.isdigit():
+        raise IndexFileError(f"the index {index.path} is damaged: it has no schema version")
+    return int(version)
+
+
+def _migrate(index: Index, version: int) -> None:
+    with index.writing() as connection:
+        # Read again under the write lock: another process may have migrated meanwhile.
+        version = int(index.meta("schema_version") or version)
+        while version < schema.SCHEMA_VERSION:
+            step = schema.MIGRATIONS.get(version)
+            if step is None:
+                raise IndexFileError(
+                    f"the index {index.path} has schema version {version}, which this dedup cannot upgrade"
+                )
+            step(connection)
+            version += 1
+            connection.execute("UPDATE meta SET value = ? WHERE key = 'schema_version'", (str(version),))
+
+
+def open_index(path: str, settings: AuditSettings | None = None, *, create: bool = False) -> Index:
+    """Open (or, with ``create``, create) an index file.
+
+    Parameters
+    ----------
+    path : str
+        The index file.
+    settings : AuditSettings, optional
+        Checked against the stored settings (`Index.check_settings`); for a new index,
+        the settings it is built with (default: ``AuditSettings()``).
+    create : bool
+        Create the file when it does not exist (or is empty, as an interrupted first
+        build leaves it).
+
+    Returns
+    -------
+    Index
+
+    Raises
+    ------
+    IndexFileError
+        The file is missing (without ``create``), not an index, damaged, or newer than
+        this dedup; `IndexSettingsError` when ``settings`` cannot be mixed with it.
+
+    Notes
+    -----
+    Cost: a few small reads; the file's content is not scanned (``dedup index info
+    --check`` runs SQLite's integrity check).
+    """
+    exists = os.path.exists(path)
+    if exists and os.path.isdir(path):
+        raise IndexFileError(f"{path} is a folder, not an index file")
+    if not exists and not create:
+        raise IndexFileError(f"there is no index at {path}: create one with 'dedup index build'")
+    try:
+        connection = _connect(path)
+    except sqlite3.Error as err:
+        if "not a database" in str(err):
+            raise IndexFileError(f"{path} is not a dedup index (not an SQLite file)") from err
+        raise IndexFileError(f"cannot open the index {path}: {err}") from err
+    index = Index(path, connection)
+    try:
+        # The header is checked by SQLite itself: opening and closing the file by other means
+        # would drop the locks other connections of this process hold on it.
+        with index.guard():
+            try:
+                has_tables = _has_tables(connection)
+            except sqlite3.DatabaseError as err:
+                if "not a database" in str(err):
+                    raise IndexFileError(f"{path} is not a dedup index (not an SQLite file)") from err
+                raise
+            if not has_tables:
+                if not create:
+                    raise IndexFileError(
+                        f"the index {path} is empty (a first build did not finish): run 'dedup index build' again"
+                    )
+                _create(index, settings or AuditSettings())
+            version = _check_ours(index)
+            if version > schema.SCHEMA_VERSION:
+                raise IndexFileError(
+                    f"the index {path} was written by a newer dedup (schema version {version}; "
+                    f"this dedup reads up to {schema.SCHEMA_VERSION}): upgrade dedup"
+                )
+            if version < schema.SCHEMA_VERSION:
+                _migrate(index, version)
+            if settings is not None:
+                index.check_settings(settings)
+    except BaseException:
+        connection.close()
+        raise
+    return index
