@@ -326,7 +326,12 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
         f"proposed: retire {s['retire_documents']:,} documents ({s['retire_bytes']:,} bytes), review {s['review_documents']:,}",
         f"candidates: {result.candidates['reason']}",
         (
-            f"expected recall: {r['at']['probability']:.1%} at Jaccard {r['at']['jaccard']}, "
+            "expected recall: 100% (exhaustive); LSH would catch "
+            if result.candidates["method"] == "exhaustive"
+            else "expected recall: "
+        )
+        + (
+            f"{r['at']['probability']:.1%} at Jaccard {r['at']['jaccard']}, "
             f"{r['below']['probability']:.1%} at {r['below']['jaccard']}, {r['above']['probability']:.1%} at {r['above']['jaccard']}"
         ),
     ]

@@ -14,7 +14,7 @@ from ..candidates.banding import catch_probability
 
 __all__ = ["similarity_histogram", "s_curve", "cluster_sizes"]
 
-WIDTH, HEIGHT = 360, 220
+WIDTH, HEIGHT = 340, 220
 LEFT, RIGHT, TOP, BOTTOM = 48, 12, 28, 44
 INK, MUTED, BAR, LINE, ACCENT = "#1f2a33", "#6b7780", "#7fa3b8", "#b4541e", "#2f5d7c"
 
