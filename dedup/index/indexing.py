@@ -26,12 +26,14 @@ import os
 import time
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass, field
+from datetime import datetime
 
 import numpy as np
 import scipy.sparse as sp
 
 from ..features.shingles import features_from_buffer
 from ..ingest import InputError, iter_documents, summarize
+from ..ingest.walk import UNCHANGED_REASON
 from ..normalize import canonical_text, content_hash
 from ..progress import Progress
 from ..settings import AuditSettings
@@ -186,13 +188,14 @@ def _run(
             )
         }
         stored_texts = {row[0] for row in db.execute("SELECT content_hash FROM texts")}
+        unchanged = _unchanged_check(db, known, run) if kind == "update" else None
         sketcher = _Sketcher(db, settings, run)
         batch: dict[str, tuple[bytes, int]] = {}
         seen: set[str] = set()
         tally = {"added": 0, "changed": 0, "unchanged": 0}
         replaced: set[str] = set()  # texts some document had before this run changed it
         progress.start("reading")
-        for doc in iter_documents(paths, ledger=ledger, **reading):
+        for doc in iter_documents(paths, ledger=ledger, unchanged=unchanged, **reading):
             canonical = canonical_text(doc.text)
             encoded = canonical.encode("utf-8")
             digest = content_hash(encoded)
@@ -238,6 +241,11 @@ def _run(
                     stored_texts.update(batch)
                     batch = {}
             progress.advance()
+        # Files skipped by their modification time are present and unchanged.
+        for entry in ledger:
+            if entry.reason == UNCHANGED_REASON and entry.document_id not in seen:
+                seen.add(entry.document_id)
+                tally["unchanged"] += 1
         progress.done(f"{len(seen):,} documents")
         progress.start("sketching")
         sketcher.add(batch)
@@ -289,6 +297,35 @@ def _run(
         inputs=summarize(ledger),
         statistics=statistics,
     )
+
+
+# A file changed within this many seconds of the last run may share its modification time
+# with the version that run read (coarse file-system clocks): such files are read again.
+MTIME_GUARD_SECONDS = 2.0
+
+
+def _unchanged_check(db, known: dict, run: int):
+    """``unchanged(id, mtime)`` for `iter_documents`: same modification time as last indexed.
+
+    Like make and rsync, an update trusts the file's modification time: a present document
+    whose file still has the time stored for it is not read or hashed again. Files whose
+    stored time lies within `MTIME_GUARD_SECONDS` of the previous run's start are read
+    anyway, since an edit in that window could keep the same time.
+    """
+    row = db.execute("SELECT started_at FROM runs WHERE run < ? ORDER BY run DESC LIMIT 1", (run,)).fetchone()
+    if row is None:
+        return None
+    try:
+        last_start = datetime.fromisoformat(str(row[0]).replace("Z", "+00:00")).timestamp()
+    except ValueError:
+        return None
+    cutoff = last_start - MTIME_GUARD_SECONDS
+
+    def unchanged(doc_id: str, mtime: float) -> bool:
+        before = known.get(doc_id)
+        return before is not None and before[1] == "present" and before[6] == mtime and mtime < cutoff
+
+    return unchanged
 
 
 def _delete_unused_texts(connection, candidates: set[str]) -> int:

@@ -13,7 +13,7 @@ import errno
 import os
 import stat
 import sys
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import IO
 
@@ -126,7 +126,16 @@ def _too_large(size: int, opts: ReadOptions) -> str:
     return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
 
-def _read_found(item: _Found, opts: ReadOptions) -> Iterator[Outcome]:
+# Formats whose file holds exactly one document, whose id is the file's path.
+_SINGLE_DOCUMENT_FORMATS = frozenset(
+    {"text", "markdown", "restructuredtext", "asciidoc", "html", "docx", "odt", "pdf", "email"}
+)
+UNCHANGED_REASON = "unchanged since the last index run (same modification time): not read again"
+
+
+def _read_found(
+    item: _Found, opts: ReadOptions, unchanged: Callable[[str, float], bool] | None = None
+) -> Iterator[Outcome]:
     """Outcomes of one found file; problems before its reader runs are entries too."""
     fmt = format_of(item.rel)
     name = item.rel.rsplit("/", 1)[-1]
@@ -142,6 +151,12 @@ def _read_found(item: _Found, opts: ReadOptions) -> Iterator[Outcome]:
         info = os.stat(item.path)
         if not stat.S_ISREG(info.st_mode):
             yield None, LedgerEntry(item.rel, "skipped", "not a regular file", fmt)
+            return
+        if unchanged is not None and fmt in _SINGLE_DOCUMENT_FORMATS and unchanged(item.rel, info.st_mtime):
+            yield (
+                None,
+                LedgerEntry(item.rel, "read", UNCHANGED_REASON, fmt, info.st_size, document_id=item.rel),
+            )
             return
         found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
         if fmt in STREAMED_FORMATS:
@@ -179,6 +194,7 @@ def iter_documents(
     exclude: Sequence[str] = (),
     include_vcs: bool = False,
     stdin: IO | None = None,
+    unchanged: Callable[[str, float], bool] | None = None,
 ) -> Iterator[RawDocument]:
     """Documents from files, folders and archives, appending one ledger entry per input to ``ledger``.
 
@@ -190,6 +206,10 @@ def iter_documents(
         Receives an entry for every input (file, archive member, record) as it is read.
     stdin : text or binary stream, optional
         Where ``-`` reads its paths (default: ``sys.stdin``).
+    unchanged : callable, optional
+        ``unchanged(id, mtime)``: for an index update, true when a one-document file is
+        known with this modification time; it is then not read again, and its ledger
+        entry (status ``read``, reason `UNCHANGED_REASON`) names the document.
 
     The other parameters are those of `ReadOptions`.
 
@@ -249,7 +269,7 @@ def iter_documents(
                 ledger.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
                 continue
             seen_files[real] = item.rel
-            for doc, entry in _read_found(item, opts):
+            for doc, entry in _read_found(item, opts, unchanged):
                 if doc is not None and doc.id in seen_ids:
                     # Only a file named like an archive member or a record ("a.zip!", "b.csv#1").
                     entry.status, entry.reason = "skipped", f"id {doc.id!r} repeats an earlier document"
@@ -259,3 +279,5 @@ def iter_documents(
                 if doc is not None:
                     seen_ids.add(doc.id)
                     yield doc
+                elif entry.reason == UNCHANGED_REASON:
+                    seen_ids.add(entry.document_id)

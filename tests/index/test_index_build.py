@@ -185,3 +185,31 @@ def test_update_of_a_missing_index_or_path_is_a_clear_error(tmp_path, write_corp
     with pytest.raises(InputError, match="no such file or folder"):
         update([str(tmp_path / "gone")], path)
     assert update(None, path).unchanged == len(corpus_files)  # the failed update left it whole
+
+
+def test_update_trusts_old_modification_times_and_reads_recent_ones(
+    tmp_path, write_corpus, corpus_files, monkeypatch
+):
+    """Like make and rsync (common practice, no source): a file whose modification time is the one
+    stored, and older than the last run, is not read again; a file with a new time is."""
+    import os
+
+    root = write_corpus(corpus_files)
+    old = 1_600_000_000.0  # files last touched long before the index was built
+    for name in corpus_files:
+        os.utime(root / name, (old, old))
+    path = str(tmp_path / "i.index")
+    build([str(root)], path)
+    reads = []
+    real = index_indexing.canonical_text
+    monkeypatch.setattr(index_indexing, "canonical_text", lambda text: reads.append(text) or real(text))
+    summary = update(None, path)
+    assert reads == [] and summary.unchanged == len(_documents(path))
+    assert (summary.added, summary.changed, summary.removed) == (0, 0, 0)
+    first = sorted(corpus_files)[0]
+    (root / first).write_text(
+        "A completely new text for this file, written after the build.", encoding="utf-8"
+    )
+    summary = update(None, path)
+    assert len(reads) == 1 and summary.changed == 1
+    assert summary.inputs["read"] == len(_documents(path))
