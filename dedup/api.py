@@ -23,13 +23,13 @@ from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
-from .features.shingles import features_from_buffer, pack_bytes
+from .features.shingles import features_with, pack_bytes
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
 from .normalize import canonical_text, content_hash, exact_groups
 from .normalize.boilerplate import canonical_lines, find_boilerplate, without_boilerplate
 from .progress import Progress
 from .settings import AuditSettings
-from .sketch import collision_stats, fit_tfidf, minhash_signatures
+from .sketch import collision_stats, fit_tfidf, signatures_with
 from .verify import PairScores, deciding_score, score_pairs
 
 __all__ = ["audit", "AuditResult", "SCHEMA_VERSION"]
@@ -324,22 +324,14 @@ def audit(
             boilerplate_affected += discounted
             boilerplate_protected += not discounted and any(line in boilerplate for line in lines_of[h])
         rep_buf, rep_offsets = pack_bytes(feature_texts)
+        del feature_texts
     else:
-        feature_texts = [canonical_of[h] for h in rep_hashes]
         position_of = {h: k for k, h in enumerate(distinct)}
         picks = np.asarray([position_of[h] for h in rep_hashes], dtype=np.int64)
         rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
     del lines_of
-    needs_strings = settings.char_ngrams or settings.hash_scheme != "stable64"
-    features = features_from_buffer(
-        rep_buf,
-        rep_offsets,
-        texts=[t.decode("utf-8") for t in feature_texts] if needs_strings else None,
-        shingle_size=settings.shingle_size,
-        char_ngrams=settings.char_ngrams,
-        hash_scheme=settings.hash_scheme,
-    )
-    del buf, rep_buf, canonical_of, feature_texts
+    features = features_with(settings, rep_buf, rep_offsets)
+    del buf, rep_buf, canonical_of
     progress.done()
     watch.lap("features")
     model = fit_tfidf(
@@ -366,14 +358,7 @@ def audit(
     oversize: list[dict] = []
     progress.start("candidates")
     if method == "lsh":
-        signatures = minhash_signatures(
-            features.shingles,
-            features.shingle_offsets,
-            num_perm=settings.num_perm,
-            seed=settings.seed,
-            hash_scheme=settings.hash_scheme,
-            shingle_spec=features.spec,
-        )
+        signatures = signatures_with(settings, features)
         watch.lap("minhash")
         left, right, oversize = lsh_candidate_pairs(signatures.values, bands, rows, settings.bucket_limit)
     else:

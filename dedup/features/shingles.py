@@ -22,6 +22,7 @@ __all__ = [
     "pack_texts",
     "build_features",
     "features_from_buffer",
+    "features_with",
     "tokens_of",
     "shingle_strings",
 ]
@@ -202,3 +203,14 @@ def features_from_buffer(
         "hash_scheme": hash_scheme,
     }
     return FeatureSet(tokens, token_offsets, shingles, shingle_offsets, spec)
+
+
+def features_with(settings, buf: np.ndarray, doc_offsets: np.ndarray) -> FeatureSet:
+    """`features_from_buffer` with the shingle settings of an `AuditSettings` (or alike)."""
+    return features_from_buffer(
+        buf,
+        doc_offsets,
+        shingle_size=settings.shingle_size,
+        char_ngrams=settings.char_ngrams,
+        hash_scheme=settings.hash_scheme,
+    )

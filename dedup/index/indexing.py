@@ -31,13 +31,13 @@ from datetime import datetime
 import numpy as np
 import scipy.sparse as sp
 
-from ..features.shingles import features_from_buffer
+from ..features.shingles import features_with
 from ..ingest import InputError, iter_documents, summarize
 from ..ingest.walk import UNCHANGED_REASON
 from ..normalize import canonical_text, content_hash
 from ..progress import Progress
 from ..settings import AuditSettings
-from ..sketch import minhash_signatures
+from ..sketch import signatures_with
 from .blobs import pack_array
 from .postings import refresh_statistics, term_counts, write_segment
 from .store import Index, IndexFileError, open_index, read_keys, utc_now
@@ -118,23 +118,8 @@ class _Sketcher:
         offsets = np.zeros(len(encoded) + 1, dtype=np.int64)
         np.cumsum([len(e) for e in encoded], out=offsets[1:])
         buf = np.frombuffer(b"".join(encoded), dtype=np.uint8) if offsets[-1] else np.zeros(0, np.uint8)
-        needs_strings = bool(s.char_ngrams) or s.hash_scheme != "stable64"
-        features = features_from_buffer(
-            buf,
-            offsets,
-            texts=[e.decode("utf-8") for e in encoded] if needs_strings else None,
-            shingle_size=s.shingle_size,
-            char_ngrams=s.char_ngrams,
-            hash_scheme=s.hash_scheme,
-        )
-        signatures = minhash_signatures(
-            features.shingles,
-            features.shingle_offsets,
-            num_perm=s.num_perm,
-            seed=s.seed,
-            hash_scheme=s.hash_scheme,
-            shingle_spec=features.spec,
-        ).values
+        features = features_with(s, buf, offsets)
+        signatures = signatures_with(s, features).values
         counts = term_counts(features.token_hashes, features.token_offsets, s.tfidf_features)
         words = np.diff(features.token_offsets)
         terms = np.diff(counts.indptr)

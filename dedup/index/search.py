@@ -27,9 +27,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..features.shingles import features_from_buffer
+from ..features.shingles import features_with
 from ..normalize import canonical_text, token_text
-from ..sketch import estimate_jaccard, minhash_signatures
+from ..sketch import estimate_jaccard, signatures_with
 from .blobs import unpack_array
 from .postings import load_statistics, postings_of, term_counts, term_frequency
 from .store import Index
@@ -45,15 +45,7 @@ def _features(canonical: str, settings):
     encoded = canonical.encode("utf-8")
     buf = np.frombuffer(encoded, dtype=np.uint8) if encoded else np.zeros(0, np.uint8)
     offsets = np.asarray([0, len(encoded)], dtype=np.int64)
-    needs_strings = bool(settings.char_ngrams) or settings.hash_scheme != "stable64"
-    return features_from_buffer(
-        buf,
-        offsets,
-        texts=[canonical] if needs_strings else None,
-        shingle_size=settings.shingle_size,
-        char_ngrams=settings.char_ngrams,
-        hash_scheme=settings.hash_scheme,
-    )
+    return features_with(settings, buf, offsets)
 
 
 def _term_names(canonical: str, token_hashes: np.ndarray, n_features: int) -> dict[int, str]:
@@ -108,14 +100,7 @@ def similar(index: Index, text: str, k: int = 10, *, terms: int = 5) -> list[dic
     counts = term_counts(features.token_hashes, features.token_offsets, settings.tfidf_features)
     columns = counts.indices.astype(np.int64)
     names = _term_names(canonical, features.token_hashes, settings.tfidf_features)
-    query_signature = minhash_signatures(
-        features.shingles,
-        features.shingle_offsets,
-        num_perm=settings.num_perm,
-        seed=settings.seed,
-        hash_scheme=settings.hash_scheme,
-        shingle_spec=features.spec,
-    ).values[0]
+    query_signature = signatures_with(settings, features).values[0]
     query_shingles = features.shingles
 
     with index.reading() as db:

@@ -1,6 +1,6 @@
 """Sketches: MinHash signatures and TF-IDF rows."""
 
-from .minhash import Signatures, estimate_jaccard, minhash_parameters, minhash_signatures
+from .minhash import Signatures, estimate_jaccard, minhash_parameters, minhash_signatures, signatures_with
 from .tfidf import TfidfModel, collision_stats, fit_tfidf, pair_cosines
 
 __all__ = [
@@ -8,6 +8,7 @@ __all__ = [
     "estimate_jaccard",
     "minhash_parameters",
     "minhash_signatures",
+    "signatures_with",
     "TfidfModel",
     "collision_stats",
     "fit_tfidf",

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
-__all__ = ["Signatures", "minhash_parameters", "minhash_signatures", "estimate_jaccard"]
+__all__ = ["Signatures", "minhash_parameters", "minhash_signatures", "signatures_with", "estimate_jaccard"]
 
 _MASK64 = (1 << 64) - 1
 _MASK32 = np.uint64(0xFFFFFFFF)
@@ -170,3 +170,15 @@ def estimate_jaccard(sig_a: np.ndarray, sig_b: np.ndarray) -> float:
     if sig_a.shape != sig_b.shape:
         raise ValueError(f"signatures of different lengths: {sig_a.shape} vs {sig_b.shape}")
     return float(np.mean(sig_a == sig_b))
+
+
+def signatures_with(settings, features) -> Signatures:
+    """`minhash_signatures` of a `FeatureSet` with the MinHash settings of an `AuditSettings`."""
+    return minhash_signatures(
+        features.shingles,
+        features.shingle_offsets,
+        num_perm=settings.num_perm,
+        seed=settings.seed,
+        hash_scheme=settings.hash_scheme,
+        shingle_spec=features.spec,
+    )
