@@ -9,6 +9,7 @@ actions.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import json
 import resource
@@ -343,6 +344,8 @@ def audit(
     tfidf_info = collision_stats(features.token_hashes, settings.tfidf_features, model.columns.shape[0])
     tfidf_info["sublinear_tf"] = settings.sublinear_tf
     tfidf_info["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
+    # Token hashes have served TF-IDF; only the shingle sets go on (a third of the memory at scale).
+    features = dataclasses.replace(features, token_hashes=np.zeros(0, np.uint64))
     watch.lap("tfidf")
 
     # -- candidates -------------------------------------------------------------------

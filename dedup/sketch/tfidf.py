@@ -138,9 +138,33 @@ def _weight_rows(indptr, data, entry_idf, sublinear):
                 data[i] /= norm
 
 
-def _weight(counts: sp.csr_matrix, entry_idf: np.ndarray, sublinear_tf: bool) -> sp.csr_matrix:
-    """tf * idf scaled to unit length; ``entry_idf`` is the idf of each stored entry."""
-    data = counts.data.copy()
+@njit(cache=True, parallel=True)
+def _weight_rows_by_column(indptr, indices, data, column_idf, sublinear):
+    # As _weight_rows, looking idf up by column (no per-entry idf array).
+    for d in prange(indptr.shape[0] - 1):
+        a, b = indptr[d], indptr[d + 1]
+        total = 0.0
+        for i in range(a, b):
+            tf = data[i]
+            if sublinear:
+                tf = 1.0 + np.log(tf)
+            w = tf * column_idf[indices[i]]
+            data[i] = w
+            total += w * w
+        if total > 0.0:
+            norm = np.sqrt(total)
+            for i in range(a, b):
+                data[i] /= norm
+
+
+def _weight(
+    counts: sp.csr_matrix, entry_idf: np.ndarray, sublinear_tf: bool, in_place: bool = False
+) -> sp.csr_matrix:
+    """tf * idf scaled to unit length; ``entry_idf`` is the idf of each stored entry.
+
+    ``in_place`` reuses the counts' own array (the counts are then gone), saving a copy.
+    """
+    data = counts.data if in_place else counts.data.copy()
     _weight_rows(
         counts.indptr.astype(np.int64), data, np.ascontiguousarray(entry_idf, dtype=np.float64), sublinear_tf
     )
@@ -174,12 +198,14 @@ def fit_tfidf(
         columns = np.flatnonzero(df)
         dense_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
         column_idf = dense_idf[columns]
-        entry_idf = dense_idf[counts.indices]
+        _weight_rows_by_column(
+            counts.indptr.astype(np.int64), counts.indices, counts.data, dense_idf, sublinear_tf
+        )
+        rows = sp.csr_matrix((counts.data, counts.indices, counts.indptr), shape=counts.shape)
     else:
         columns, inverse, df = np.unique(counts.indices, return_inverse=True, return_counts=True)
         column_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
-        entry_idf = column_idf[inverse.ravel()]
-    rows = _weight(counts, entry_idf, sublinear_tf)
+        rows = _weight(counts, column_idf[inverse.ravel()], sublinear_tf, in_place=True)
     unseen = float(np.log(1.0 + n_docs) + 1.0)
     return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, sublinear_tf)
 
