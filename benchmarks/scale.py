@@ -66,6 +66,7 @@ def run_one(folder: str, out: str, report: bool) -> dict:
         "write_seconds": round(write_s, 2),
         "peak_rss_mb": round(peak),
         "stages": result.run["stages_seconds"],
+        "peaks": result.run["peak_rss_mb_by_stage"],
     }
 
 
@@ -94,7 +95,8 @@ def main(argv: list[str] | None = None) -> int:
             rows.append(row)
             print(
                 f"{row['documents']:>9,} docs  audit {row['audit_seconds']:8.1f} s  write {row['write_seconds']:7.1f} s  "
-                f"peak RSS {row['peak_rss_mb']:6,} MB  clusters {row['clusters']:,}  stages {row['stages']}",
+                f"peak RSS {row['peak_rss_mb']:6,} MB  clusters {row['clusters']:,}  stages {row['stages']}  "
+                f"peak MB after each stage {row['peaks']}",
                 flush=True,
             )
     if len(rows) >= 2:

@@ -129,13 +129,17 @@ NOTICE = (
 
 
 class _Stopwatch:
+    """Seconds of each stage, and the peak memory of the process when each stage ended."""
+
     def __init__(self) -> None:
         self.stages: dict[str, float] = {}
+        self.peaks: dict[str, float] = {}
         self._t = time.perf_counter()
 
     def lap(self, stage: str) -> None:
         now = time.perf_counter()
         self.stages[stage] = round(now - self._t, 4)
+        self.peaks[stage] = _peak_rss_mb()
         self._t = now
 
 
@@ -330,9 +334,10 @@ def audit(
         position_of = {h: k for k, h in enumerate(distinct)}
         picks = np.asarray([position_of[h] for h in rep_hashes], dtype=np.int64)
         rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
-    del lines_of
+    # Only the packed texts to shingle are needed from here on.
+    del lines_of, buf, canonical_of
     features = features_with(settings, rep_buf, rep_offsets)
-    del buf, rep_buf, canonical_of
+    del rep_buf
     progress.done()
     watch.lap("features")
     model = fit_tfidf(
@@ -531,6 +536,7 @@ def audit(
         "stages_seconds": watch.stages,
         "total_seconds": round(sum(watch.stages.values()), 4),
         "peak_rss_mb": _peak_rss_mb(),
+        "peak_rss_mb_by_stage": watch.peaks,
         "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
     }
     # Original texts travel on only for clustered documents: the report's evidence needs them.
