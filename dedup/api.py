@@ -211,7 +211,7 @@ def audit(
     >>> import tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp())
     >>> _ = (d / "a.txt").write_text("the quick brown fox jumps over the lazy dog")
-    >>> _ = (d / "b.txt").write_text("The quick brown fox jumps over the lazy dog!")
+    >>> _ = (d / "b.txt").write_text("The  quick brown fox\\njumps over the LAZY dog")
     >>> audit([str(d)]).summary["exact_groups"]
     1
     """

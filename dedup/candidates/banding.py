@@ -23,7 +23,7 @@ __all__ = ["catch_probability", "choose_bands", "recall_statement"]
 def catch_probability(s: float | np.ndarray, bands: int, rows: int) -> float | np.ndarray:
     """P(s) = 1 - (1 - s^r)^b: probability a pair of Jaccard s becomes a candidate.
 
-    >>> round(catch_probability(0.5, 20, 5), 3)
+    >>> round(float(catch_probability(0.5, 20, 5)), 3)
     0.47
     """
     return 1.0 - (1.0 - np.power(s, rows)) ** bands

@@ -16,10 +16,9 @@ Cost O(lines) with a dictionary.
 from __future__ import annotations
 
 import math
+import unicodedata
 from collections import Counter
 from collections.abc import Iterable
-
-from .text import canonical_text
 
 __all__ = ["canonical_lines", "find_boilerplate", "without_boilerplate"]
 
@@ -29,15 +28,13 @@ def canonical_lines(text: str) -> list[str]:
 
     Joined by single spaces they give the canonical text of the whole:
 
+    >>> from dedup.normalize import canonical_text
     >>> " ".join(canonical_lines("A  b\\n\\n C\\n")) == canonical_text("A  b\\n\\n C\\n")
     True
     """
-    out = []
-    for line in text.splitlines():
-        canonical = canonical_text(line)
-        if canonical:
-            out.append(canonical)
-    return out
+    # Normalize the whole text once, then split: NFKC and case folding never join or create lines.
+    folded = unicodedata.normalize("NFKC", text).casefold()
+    return [line for line in (" ".join(raw.split()) for raw in folded.splitlines()) if line]
 
 
 def find_boilerplate(
