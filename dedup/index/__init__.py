@@ -6,11 +6,13 @@ statistics, the settings the sketches were built with, every audit recorded with
 and the review decisions imported from reports. The tables are described in
 `dedup.index.schema`.
 
->>> from dedup.index import build, update, open_index, similar  # doctest: +SKIP
->>> build(["docs/"], "docs.index")  # doctest: +SKIP
->>> update(["docs/"], "docs.index")  # doctest: +SKIP
->>> with open_index("docs.index") as index:  # doctest: +SKIP
-...     similar(index, "how do I reset my password", k=5)
+Use::
+
+    from dedup.index import build, update, open_index, similar
+    build(["docs/"], "docs.index")
+    update(["docs/"], "docs.index")
+    with open_index("docs.index") as index:
+        similar(index, "how do I reset my password", k=5)
 
 The index is written only by `build`, `update`, `record_audit` (through `track_audit`)
 and `import_decisions`, each in one transaction; documents are only ever read.
