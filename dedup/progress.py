@@ -47,7 +47,11 @@ class StderrProgress(Progress):
     def _draw(self, final: bool = False, note: str = "") -> None:
         if not self.enabled:
             return
-        count = f"{self._count:,}" + (f"/{self._total:,}" if self._total else "") if self._count or self._total else ""
+        count = (
+            f"{self._count:,}" + (f"/{self._total:,}" if self._total else "")
+            if self._count or self._total
+            else ""
+        )
         elapsed = time.monotonic() - self._started
         line = f"\r{self._stage:<12} {count:>20}  {elapsed:6.1f}s {note}"
         self.stream.write(line + ("\n" if final else ""))

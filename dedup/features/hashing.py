@@ -27,6 +27,7 @@ __all__ = [
     "char_ngram_counts",
     "char_ngrams",
     "sort_unique_segments",
+    "sort_segments_count_unique",
 ]
 
 # FNV-1a 64-bit parameters (Fowler, Noll, Vo; the published offset basis and prime).
@@ -178,7 +179,8 @@ def char_ngrams(buf: np.ndarray, doc_offsets: np.ndarray, gram_offsets: np.ndarr
 
 
 @njit(cache=True, parallel=True)
-def _sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
+def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
+    """Sort each segment of ``values`` in place and return its number of distinct values."""
     n_seg = offsets.shape[0] - 1
     uniques = np.zeros(n_seg, dtype=np.int64)
     for d in prange(n_seg):
@@ -218,7 +220,7 @@ def sort_unique_segments(values: np.ndarray, offsets: np.ndarray) -> tuple[np.nd
     Returns ``(unique_values, unique_offsets)`` in the same CSR-like layout. The input
     array is sorted in place. Cost O(m log m) per segment of length m.
     """
-    uniques = _sort_segments_count_unique(values, offsets)
+    uniques = sort_segments_count_unique(values, offsets)
     new_offsets = np.zeros(offsets.shape[0], dtype=np.int64)
     np.cumsum(uniques, out=new_offsets[1:])
     return _compact_segments(values, offsets, new_offsets), new_offsets

@@ -23,6 +23,8 @@ import numpy as np
 import scipy.sparse as sp
 from numba import njit, prange
 
+from ..features.hashing import sort_segments_count_unique
+
 __all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats"]
 
 # Up to this many columns document frequencies are counted in a dense array (8 bytes each).
@@ -72,21 +74,8 @@ class TfidfModel:
     def transform(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> sp.csr_matrix:
         """Rows for new texts with the fitted idf (e.g. a search query)."""
         counts = _term_counts(token_hashes, token_offsets, self.n_features)
-        return _weight(counts, self.idf(counts.indices), self.sublinear_tf)
-
-
-@njit(cache=True, parallel=True)
-def _count_columns(columns, offsets, unique_counts):
-    # Sort each document's columns in place and count the distinct ones.
-    for d in prange(offsets.shape[0] - 1):
-        a, b = offsets[d], offsets[d + 1]
-        if b > a:
-            columns[a:b] = np.sort(columns[a:b])
-            c = 1
-            for i in range(a + 1, b):
-                if columns[i] != columns[i - 1]:
-                    c += 1
-            unique_counts[d] = c
+        entry_idf = self.idf(counts.indices)
+        return _weight(counts, entry_idf, np.arange(entry_idf.shape[0]), self.sublinear_tf)
 
 
 @njit(cache=True, parallel=True)
@@ -108,8 +97,8 @@ def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features
     n_docs = token_offsets.shape[0] - 1
     columns = (token_hashes % np.uint64(n_features)).astype(np.int64)
     offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
-    unique_counts = np.zeros(n_docs, dtype=np.int64)
-    _count_columns(columns, offsets, unique_counts)
+    # Sorts each document's columns in place and counts the distinct ones.
+    unique_counts = sort_segments_count_unique(columns, offsets)
     indptr = np.zeros(n_docs + 1, dtype=np.int64)
     np.cumsum(unique_counts, out=indptr[1:])
     # 32-bit column numbers halve the memory of the index whenever the feature space allows it.
@@ -120,8 +109,8 @@ def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features
 
 
 @njit(cache=True, parallel=True)
-def _weight_rows(indptr, data, entry_idf, sublinear):
-    # In place: tf (or 1 + ln tf) times idf, then each row scaled to unit length.
+def _weight_rows(indptr, idf_index, data, idf, sublinear):
+    # In place: tf (or 1 + ln tf) times idf[idf_index[i]], then each row scaled to unit length.
     for d in prange(indptr.shape[0] - 1):
         a, b = indptr[d], indptr[d + 1]
         total = 0.0
@@ -129,26 +118,7 @@ def _weight_rows(indptr, data, entry_idf, sublinear):
             tf = data[i]
             if sublinear:
                 tf = 1.0 + np.log(tf)
-            w = tf * entry_idf[i]
-            data[i] = w
-            total += w * w
-        if total > 0.0:
-            norm = np.sqrt(total)
-            for i in range(a, b):
-                data[i] /= norm
-
-
-@njit(cache=True, parallel=True)
-def _weight_rows_by_column(indptr, indices, data, column_idf, sublinear):
-    # As _weight_rows, looking idf up by column (no per-entry idf array).
-    for d in prange(indptr.shape[0] - 1):
-        a, b = indptr[d], indptr[d + 1]
-        total = 0.0
-        for i in range(a, b):
-            tf = data[i]
-            if sublinear:
-                tf = 1.0 + np.log(tf)
-            w = tf * column_idf[indices[i]]
+            w = tf * idf[idf_index[i]]
             data[i] = w
             total += w * w
         if total > 0.0:
@@ -158,15 +128,19 @@ def _weight_rows_by_column(indptr, indices, data, column_idf, sublinear):
 
 
 def _weight(
-    counts: sp.csr_matrix, entry_idf: np.ndarray, sublinear_tf: bool, in_place: bool = False
+    counts: sp.csr_matrix, idf: np.ndarray, idf_index: np.ndarray, sublinear_tf: bool, in_place: bool = False
 ) -> sp.csr_matrix:
-    """tf * idf scaled to unit length; ``entry_idf`` is the idf of each stored entry.
+    """tf * idf scaled to unit length; entry i takes ``idf[idf_index[i]]``.
 
     ``in_place`` reuses the counts' own array (the counts are then gone), saving a copy.
     """
     data = counts.data if in_place else counts.data.copy()
     _weight_rows(
-        counts.indptr.astype(np.int64), data, np.ascontiguousarray(entry_idf, dtype=np.float64), sublinear_tf
+        counts.indptr.astype(np.int64),
+        idf_index,
+        data,
+        np.ascontiguousarray(idf, dtype=np.float64),
+        sublinear_tf,
     )
     return sp.csr_matrix((data, counts.indices, counts.indptr), shape=counts.shape)
 
@@ -198,14 +172,11 @@ def fit_tfidf(
         columns = np.flatnonzero(df)
         dense_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
         column_idf = dense_idf[columns]
-        _weight_rows_by_column(
-            counts.indptr.astype(np.int64), counts.indices, counts.data, dense_idf, sublinear_tf
-        )
-        rows = sp.csr_matrix((counts.data, counts.indices, counts.indptr), shape=counts.shape)
+        rows = _weight(counts, dense_idf, counts.indices, sublinear_tf, in_place=True)
     else:
         columns, inverse, df = np.unique(counts.indices, return_inverse=True, return_counts=True)
         column_idf = np.log((1.0 + n_docs) / (1.0 + df)) + 1.0
-        rows = _weight(counts, column_idf[inverse.ravel()], sublinear_tf, in_place=True)
+        rows = _weight(counts, column_idf, inverse.ravel(), sublinear_tf, in_place=True)
     unseen = float(np.log(1.0 + n_docs) + 1.0)
     return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, sublinear_tf)
 
