@@ -23,15 +23,14 @@ from . import __version__
 from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
-from .features import tokenize
-from .features.shingles import features_with, pack_bytes
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
-from .normalize import canonical_text, content_hash, exact_groups
-from .normalize.boilerplate import canonical_lines, find_boilerplate, without_boilerplate
+from .normalize import exact_groups
+from .normalize.boilerplate import Boilerplate, canonical_lines
 from .progress import Progress
 from .settings import AuditSettings
-from .sketch import collision_stats, fit_tfidf, signatures_with
+from .streaming import compared_sets, read_pass, sketch_pass
 from .verify import PairScores, deciding_score, score_pairs
+from .workdir import WorkFolder
 
 __all__ = ["audit", "AuditResult", "SCHEMA_VERSION"]
 
@@ -136,6 +135,15 @@ class _Stopwatch:
         self.peaks: dict[str, float] = {}
         self._t = time.perf_counter()
 
+    def split(self, first: str, first_seconds: float, rest: str) -> None:
+        """End two interleaved stages: ``first`` took ``first_seconds`` of the time since the last lap."""
+        now = time.perf_counter()
+        total = now - self._t
+        self.stages[first] = round(first_seconds, 4)
+        self.stages[rest] = round(max(total - first_seconds, 0.0), 4)
+        self.peaks[first] = self.peaks[rest] = _peak_rss_mb()
+        self._t = now
+
     def lap(self, stage: str) -> None:
         now = time.perf_counter()
         self.stages[stage] = round(now - self._t, 4)
@@ -146,22 +154,6 @@ class _Stopwatch:
 def _peak_rss_mb() -> float:
     # ru_maxrss is in kilobytes on Linux.
     return round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0, 1)
-
-
-def _date_of(value: object) -> float | None:
-    from datetime import datetime, timezone
-
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return float(value)
-    if isinstance(value, str) and value.strip():
-        try:
-            parsed = datetime.fromisoformat(value.strip().replace("Z", "+00:00"))
-        except ValueError:
-            return None
-        if parsed.tzinfo is None:
-            parsed = parsed.replace(tzinfo=timezone.utc)
-        return parsed.timestamp()
-    return None
 
 
 def _pair_record(ids: Sequence[str], scores: PairScores, i: int, kind: str, decided: float) -> dict:
@@ -183,6 +175,8 @@ def audit(
     settings: AuditSettings | None = None,
     *,
     progress: Progress | None = None,
+    work_dir: str | None = None,
+    keep_work: bool = False,
 ) -> AuditResult:
     """Audit files and folders for exact and near-duplicate documents.
 
@@ -194,6 +188,11 @@ def audit(
         Every knob; defaults to ``AuditSettings()``.
     progress : Progress, optional
         Receives stage progress (the CLI draws it on stderr).
+    work_dir : str, optional
+        Folder for intermediate data spilled to disk (texts, signatures); a temporary
+        folder by default. Removed at the end unless ``keep_work``.
+    keep_work : bool
+        Leave the work folder in place (to inspect it).
 
     Returns
     -------
@@ -218,13 +217,24 @@ def audit(
     settings = (settings or AuditSettings()).validate()
     progress = progress or Progress.silent()
     known_boilerplate = _read_ignore_text(settings.ignore_text_file)
-    watch = _Stopwatch()
+    with WorkFolder(work_dir, keep=keep_work) as work:
+        return _audit(paths, settings, progress, known_boilerplate, work)
 
-    # -- ingest ---------------------------------------------------------------------
+
+def _audit(
+    paths: Sequence[str],
+    settings: AuditSettings,
+    progress: Progress,
+    known_boilerplate: list[str],
+    work: WorkFolder,
+) -> AuditResult:
+    watch = _Stopwatch()
+    originals, canonicals = work.store("originals"), work.store("canonical")
+
+    # -- ingest + normalize + exact pass (one streaming pass) ---------------------------
     ledger: list[LedgerEntry] = []
     progress.start("reading")
-    raw = []
-    for doc in iter_documents(
+    documents_in = iter_documents(
         paths,
         id_field=settings.id_field,
         text_fields=settings.text_fields,
@@ -238,123 +248,46 @@ def audit(
         include=settings.include,
         exclude=settings.exclude,
         include_vcs=settings.include_vcs,
-    ):
-        raw.append(doc)
-        progress.advance()
-    progress.done(f"{len(raw):,} documents")
-    raw.sort(key=lambda d: d.id)
-    watch.lap("ingest")
+    )
+    read = read_pass(documents_in, settings, originals, canonicals, progress)
+    documents = read.documents
+    progress.done(f"{len(documents):,} documents")
+    watch.split("ingest", read.read_seconds, "normalize")
 
-    # -- normalize + exact pass -------------------------------------------------------
-    progress.start("normalizing", len(raw))
-    entry_of = {e.document_id: e for e in ledger if e.document_id}
-    documents: list[dict] = []
-    canonical_of: dict[str, bytes] = {}
-    lines_of: dict[str, list[str]] = {}  # canonical lines of each distinct text, for boilerplate
-    with_text: list[int] = []  # indices into documents
-    for doc in raw:
-        if settings.boilerplate:
-            # The canonical text is its canonical lines joined by spaces: normalize once, keep both.
-            lines = canonical_lines(doc.text)
-            canonical_string = " ".join(lines)
-        else:
-            canonical_string = canonical_text(doc.text)
-        canonical = canonical_string.encode("utf-8")
-        record = {
-            "id": doc.id,
-            "source": doc.source,
-            "format": doc.format,
-            "title": doc.title,
-            "bytes": len(doc.text.encode("utf-8")),
-            "characters": len(canonical_string),
-            "content_hash": content_hash(canonical),
-            "status": "read",
-        }
-        if settings.keeper_policy in ("newest", "oldest"):
-            value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
-            record["date"] = _date_of(value)
-        if canonical:
-            with_text.append(len(documents))
-            if record["content_hash"] not in canonical_of:
-                canonical_of[record["content_hash"]] = canonical
-                if settings.boilerplate:
-                    lines_of[record["content_hash"]] = lines
-        documents.append(record)
-        progress.advance()
-    progress.done()
-    # Distinct texts that have no word at all (only punctuation, say) are empty too.
-    distinct = list(canonical_of)
-    buf, offsets = pack_bytes([canonical_of[h] for h in distinct])
-    words = tokenize.count_words(buf, offsets, tokenize.word_table())
-    wordless = {h for h, n in zip(distinct, words.tolist()) if n == 0}
-    kept_rows = [i for i in with_text if documents[i]["content_hash"] not in wordless]
-    with_text_set = set(with_text)
+    kept_rows = []
+    empty_reason: dict[str, str] = {}
     for i, record in enumerate(documents):
-        if i in with_text_set and record["content_hash"] not in wordless:
+        if record["characters"] and record["content_hash"] not in read.wordless:
+            kept_rows.append(i)
             continue
         record["status"] = "empty"
-        entry = entry_of.get(record["id"])
-        if entry is not None:
-            entry.status = "empty"
-            entry.reason = "no text" if record["characters"] == 0 else "no words after normalization"
-    kept = [(None, documents[i]) for i in kept_rows]
-    ids = [rec["id"] for _, rec in kept]
-    hashes = [rec["content_hash"] for _, rec in kept]
+        empty_reason[record["id"]] = "no text" if record["characters"] == 0 else "no words after normalization"
+    if empty_reason:
+        for entry in ledger:
+            reason = empty_reason.get(entry.document_id) if entry.document_id else None
+            if reason is not None:
+                entry.status = "empty"
+                entry.reason = reason
+    kept = [documents[i] for i in kept_rows]
+    ids = [rec["id"] for rec in kept]
+    hashes = [rec["content_hash"] for rec in kept]
     representative, groups = exact_groups(hashes)
     rep_docs = np.flatnonzero(representative == np.arange(len(kept)))
     rep_position = np.full(len(kept), -1, dtype=np.int64)
     rep_position[rep_docs] = np.arange(rep_docs.shape[0])
     doc_to_rep = rep_position[representative] if len(kept) else np.zeros(0, np.int64)
-    watch.lap("normalize")
+    rep_slots = np.asarray([read.canonical_slot[hashes[i]] for i in rep_docs.tolist()], dtype=np.int64)
+    n_reps = int(rep_docs.shape[0])
 
-    # -- features + sketches ----------------------------------------------------------
-    progress.start("shingling", int(rep_docs.shape[0]))
-    rep_hashes = [hashes[i] for i in rep_docs.tolist()]
-    boilerplate, boilerplate_limit = {}, None
-    if settings.boilerplate:
-        boilerplate, boilerplate_limit = find_boilerplate(
-            (lines_of[h] for h in rep_hashes),
+    boilerplate: Boilerplate | None = None
+    if read.counter is not None:
+        boilerplate = read.counter.find(
             share=settings.boilerplate_share,
             min_texts=settings.boilerplate_min_texts,
             known=known_boilerplate,
         )
-    boilerplate_affected = boilerplate_protected = 0
-    if boilerplate:
-        feature_texts = []
-        for h in rep_hashes:
-            text, discounted = without_boilerplate(
-                lines_of[h], boilerplate, settings.boilerplate_max_text_share
-            )
-            feature_texts.append(text.encode("utf-8"))
-            boilerplate_affected += discounted
-            boilerplate_protected += not discounted and any(line in boilerplate for line in lines_of[h])
-        rep_buf, rep_offsets = pack_bytes(feature_texts)
-        del feature_texts
-    else:
-        position_of = {h: k for k, h in enumerate(distinct)}
-        picks = np.asarray([position_of[h] for h in rep_hashes], dtype=np.int64)
-        rep_buf, rep_offsets = tokenize.gather_segments(buf, offsets, picks)
-    # Only the packed texts to shingle are needed from here on.
-    del lines_of, buf, canonical_of
-    features = features_with(settings, rep_buf, rep_offsets)
-    del rep_buf
-    progress.done()
-    watch.lap("features")
-    model = fit_tfidf(
-        features.token_hashes,
-        features.token_offsets,
-        n_features=settings.tfidf_features,
-        sublinear_tf=settings.sublinear_tf,
-    )
-    tfidf_info = collision_stats(features.token_hashes, settings.tfidf_features, model.columns.shape[0])
-    tfidf_info["sublinear_tf"] = settings.sublinear_tf
-    tfidf_info["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
-    # Token hashes have served TF-IDF; only the shingle sets go on (a third of the memory at scale).
-    features = dataclasses.replace(features, token_hashes=np.zeros(0, np.uint64))
-    watch.lap("tfidf")
 
-    # -- candidates -------------------------------------------------------------------
-    n_reps = int(rep_docs.shape[0])
+    # -- features + sketches (second streaming pass over the distinct texts) ------------
     lsh_threshold = settings.effective_candidate_threshold
     if settings.bands is not None:
         bands, rows = settings.bands, settings.rows
@@ -363,16 +296,47 @@ def audit(
     method = settings.candidates
     if method == "auto":
         method = "exhaustive" if n_reps <= settings.exhaustive_max_docs else "lsh"
+    progress.start("shingling", n_reps)
+    sketch = sketch_pass(
+        rep_slots,
+        canonicals,
+        boilerplate,
+        settings,
+        lsh=(bands, rows) if method == "lsh" else None,
+        signature_path=work.file("signatures.u32"),
+        progress=progress,
+    )
+    progress.done()
+    watch.lap("features")
+    tfidf_info = sketch.frequencies.collision_stats()
+    tfidf_info["sublinear_tf"] = settings.sublinear_tf
+    tfidf_info["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
+
+    # -- candidates -------------------------------------------------------------------
     oversize: list[dict] = []
+    exact_reps = np.asarray([doc_to_rep[g[0]] for g in groups], dtype=np.int64)
     progress.start("candidates")
     if method == "lsh":
-        signatures = signatures_with(settings, features)
-        watch.lap("minhash")
-        left, right, oversize = lsh_candidate_pairs(signatures.values, bands, rows, settings.bucket_limit)
+        signatures = (
+            np.memmap(sketch.signature_file, dtype=np.uint32, mode="r", shape=(n_reps, settings.num_perm))
+            if n_reps
+            else np.zeros((0, settings.num_perm), np.uint32)
+        )
+        left, right, oversize = lsh_candidate_pairs(
+            signatures, bands, rows, settings.bucket_limit, keys=sketch.keys
+        )
+        del signatures
+        needed = np.unique(np.concatenate([left, right, exact_reps]))
+        compared = compared_sets(
+            needed, n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings
+        )
     else:
+        compared = compared_sets(
+            np.arange(n_reps), n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings
+        )
         cosine_extra = settings.threshold if settings.measure == "cosine" else None
         left, right = exhaustive_candidate_pairs(
-            features.shingles, features.shingle_offsets, model.rows, cosine_extra
+            compared.shingles, compared.shingle_offsets, compared.model.rows, cosine_extra
         )
     progress.done(f"{left.shape[0]:,} pairs")
     watch.lap("candidates")
@@ -399,7 +363,10 @@ def audit(
 
     # -- verify -----------------------------------------------------------------------
     progress.start("verifying", int(left.shape[0]))
-    scores = score_pairs(features.shingles, features.shingle_offsets, model.rows, left, right)
+    scores = score_pairs(
+        compared.shingles, compared.shingle_offsets, compared.model.rows, compared.of(left), compared.of(right)
+    )
+    scores = dataclasses.replace(scores, left=left, right=right)
     decided = deciding_score(scores, settings.measure) if len(scores) else np.zeros(0)
     confirmed = scores.select(decided >= settings.threshold)
     confirmed_decided = decided[decided >= settings.threshold]
@@ -424,14 +391,18 @@ def audit(
 
     def score_against(members: np.ndarray, keepers: np.ndarray) -> PairScores:
         return score_pairs(
-            features.shingles, features.shingle_offsets, model.rows, doc_to_rep[members], doc_to_rep[keepers]
+            compared.shingles,
+            compared.shingle_offsets,
+            compared.model.rows,
+            compared.of(doc_to_rep[members]),
+            compared.of(doc_to_rep[keepers]),
         )
 
     cluster_inputs = ClusterInputs(
         ids=ids,
-        lengths=[rec["characters"] for _, rec in kept],
-        sizes=[rec["bytes"] for _, rec in kept],
-        dates=[rec.get("date") for _, rec in kept],
+        lengths=[rec["characters"] for rec in kept],
+        sizes=[rec["bytes"] for rec in kept],
+        dates=[rec.get("date") for rec in kept],
         representative=representative,
     )
     clusters, roles = build_clusters(cluster_inputs, all_left, all_right, edge_score, score_against, settings)
@@ -453,7 +424,7 @@ def audit(
                 "containment_left_in_right": 1.0,
                 "containment_right_in_left": 1.0,
                 "cosine": 1.0,
-                "shared_shingles": int(np.diff(features.shingle_offsets)[doc_to_rep[a]]),
+                "shared_shingles": int(np.diff(compared.shingle_offsets)[compared.of(doc_to_rep[a])]),
             }
         )
     pairs.sort(key=lambda p: (-p["deciding_score"], p["left"], p["right"]))
@@ -461,7 +432,7 @@ def audit(
     exact_records = [
         {"content_hash": hashes[g[0]], "size": len(g), "members": [ids[m] for m in g]} for g in groups
     ]
-    kept_index = {rec["id"]: i for i, (_, rec) in enumerate(kept)}
+    kept_index = {rec["id"]: i for i, rec in enumerate(kept)}
     actions = []
     for rec in documents:
         i = kept_index.get(rec["id"])
@@ -503,14 +474,11 @@ def audit(
 
     boilerplate_info = {
         "enabled": settings.boilerplate,
-        "limit_texts": boilerplate_limit,
-        "lines": len(boilerplate),
-        "texts_affected": boilerplate_affected,
-        "texts_compared_whole": boilerplate_protected,
-        "top": [
-            {"text": line[:300], "texts": count}
-            for line, count in sorted(boilerplate.items(), key=lambda kv: (-kv[1], kv[0]))[:100]
-        ],
+        "limit_texts": boilerplate.limit if boilerplate is not None else None,
+        "lines": len(boilerplate) if boilerplate is not None else 0,
+        "texts_affected": sketch.texts_affected,
+        "texts_compared_whole": sketch.texts_compared_whole,
+        "top": boilerplate.top(100) if boilerplate is not None else [],
     }
     ledger_counts = summarize(ledger)
     in_clusters = sum(c["size"] for c in clusters)
@@ -541,7 +509,11 @@ def audit(
     }
     # Original texts travel on only for clustered documents: the report's evidence needs them.
     clustered = {m["document_id"] for c in clusters for m in c["members"]}
-    texts = {doc.id: doc.text for doc in raw if doc.id in clustered}
+    texts = {
+        rec["id"]: originals.get(slot).decode("utf-8", "surrogatepass")
+        for rec, slot in zip(documents, read.original_slot)
+        if rec["id"] in clustered
+    }
     return AuditResult(
         settings=settings,
         inputs=list(paths),

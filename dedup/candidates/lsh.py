@@ -61,9 +61,13 @@ def _unique_pairs(left: np.ndarray, right: np.ndarray, n_docs: int) -> tuple[np.
 
 
 def lsh_candidate_pairs(
-    signatures: np.ndarray, bands: int, rows: int, bucket_limit: int = 200
+    signatures: np.ndarray, bands: int, rows: int, bucket_limit: int = 200, keys: np.ndarray | None = None
 ) -> tuple[np.ndarray, np.ndarray, list[dict]]:
     """Candidate pairs ``(left, right)`` with ``left < right``, and oversize-bucket warnings.
+
+    ``keys`` are the band keys when already computed (chunk by chunk, as an audit
+    does); ``signatures`` may then be a memory map: only members of oversize buckets
+    are read from it.
 
     Notes
     -----
@@ -78,7 +82,8 @@ def lsh_candidate_pairs(
     [(0, 1)]
     """
     n_docs = signatures.shape[0]
-    keys = band_keys(np.ascontiguousarray(signatures), bands, rows)
+    if keys is None:
+        keys = band_keys(np.ascontiguousarray(signatures), bands, rows)
     lefts: list[np.ndarray] = []
     rights: list[np.ndarray] = []
     oversize: dict[tuple[int, ...], dict] = {}
@@ -103,7 +108,7 @@ def lsh_candidate_pairs(
         for s, m in zip(starts[~small].tolist(), lengths[~small].tolist()):
             members = np.sort(order[s : s + m])
             # Order by the whole signature so that neighbours are the most alike.
-            by_signature = members[np.lexsort(signatures[members].T[::-1])]
+            by_signature = members[np.lexsort(np.asarray(signatures[members]).T[::-1])]
             pair_left, pair_right = [], []
             for step in range(1, OVERSIZE_NEIGHBOURS + 1):
                 a, b = by_signature[:-step], by_signature[step:]

@@ -162,11 +162,14 @@ def features_from_buffer(
     shingle_size: int = 5,
     char_ngrams: int | None = None,
     hash_scheme: str = "stable64",
+    distinct: bool = True,
 ) -> FeatureSet:
     """`build_features` over canonical texts already packed as UTF-8 bytes with offsets.
 
     ``texts`` (the same texts as strings) is needed only for character n-grams and the
-    datasketch scheme, which work on the word text in Python.
+    datasketch scheme, which work on the word text in Python. With ``distinct=False``
+    the shingles are left in text order with their repeats (no per-document sort): all
+    MinHash needs, since a minimum does not change when a value repeats.
     """
     table = tokenize.word_table()
     token_offsets = _exclusive_cumsum(tokenize.count_words(buf, doc_offsets, table))
@@ -196,7 +199,10 @@ def features_from_buffer(
         raw_offsets = _exclusive_cumsum(hashing.shingle_counts(token_offsets, shingle_size))
         raw = hashing.word_shingles(tokens, token_offsets, raw_offsets, shingle_size)
 
-    shingles, shingle_offsets = hashing.sort_unique_segments(raw, raw_offsets)
+    if distinct:
+        shingles, shingle_offsets = hashing.sort_unique_segments(raw, raw_offsets)
+    else:
+        shingles, shingle_offsets = raw, raw_offsets
     spec = {
         "kind": "char" if char_ngrams else "word",
         "size": int(char_ngrams or shingle_size),
@@ -205,7 +211,7 @@ def features_from_buffer(
     return FeatureSet(tokens, token_offsets, shingles, shingle_offsets, spec)
 
 
-def features_with(settings, buf: np.ndarray, doc_offsets: np.ndarray) -> FeatureSet:
+def features_with(settings, buf: np.ndarray, doc_offsets: np.ndarray, *, distinct: bool = True) -> FeatureSet:
     """`features_from_buffer` with the shingle settings of an `AuditSettings` (or alike)."""
     return features_from_buffer(
         buf,
@@ -213,4 +219,5 @@ def features_with(settings, buf: np.ndarray, doc_offsets: np.ndarray) -> Feature
         shingle_size=settings.shingle_size,
         char_ngrams=settings.char_ngrams,
         hash_scheme=settings.hash_scheme,
+        distinct=distinct,
     )

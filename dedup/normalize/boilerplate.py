@@ -10,7 +10,13 @@ is not the text: when the shared lines would take away more than ``max_text_shar
 text's characters (a family of generated pages, or many near-copies of one article), the
 text is shingled whole, so near-copies are still compared on all they share.
 
-Cost O(lines) with a dictionary.
+`BoilerplateCounter` and `Boilerplate` do the same over packed texts (canonical lines
+joined by ``\n``) by line hash in compiled code, so an audit can count a corpus of any
+size as it streams by and strip the found lines chunk by chunk. `find_boilerplate` and
+`without_boilerplate` are the same rules over Python strings (and the reference the
+tests hold the compiled path to).
+
+Cost O(lines): a dictionary for strings, a sort of line hashes for packed texts.
 """
 
 from __future__ import annotations
@@ -19,8 +25,20 @@ import math
 import unicodedata
 from collections import Counter
 from collections.abc import Iterable
+from dataclasses import dataclass, field
 
-__all__ = ["canonical_lines", "find_boilerplate", "without_boilerplate"]
+import numpy as np
+
+from ..features.hashing import sort_unique_segments
+from .lines import join_kept_lines, line_characters, line_hashes, line_spans
+
+__all__ = [
+    "canonical_lines",
+    "find_boilerplate",
+    "without_boilerplate",
+    "BoilerplateCounter",
+    "Boilerplate",
+]
 
 
 def canonical_lines(text: str) -> list[str]:
@@ -75,3 +93,104 @@ def without_boilerplate(
     if not kept or removed > max_text_share * sum(len(line) for line in lines):
         return " ".join(lines), False
     return " ".join(kept), True
+
+
+class BoilerplateCounter:
+    """Counts, over distinct texts, how many texts each line appears in (by line hash).
+
+    Feed it packed texts (canonical lines joined by ``\n``), chunk after chunk, then
+    call `find`.
+    """
+
+    def __init__(self) -> None:
+        self._sets: list[np.ndarray] = []
+        self.texts = 0
+
+    def add(self, buf: np.ndarray, offsets: np.ndarray) -> None:
+        starts, stops, per_text = line_spans(buf, offsets)
+        hashes = line_hashes(buf, starts, stops)
+        distinct, _ = sort_unique_segments(hashes, per_text)
+        self._sets.append(distinct)
+        self.texts += int(offsets.shape[0] - 1)
+
+    def find(self, *, share: float, min_texts: int, known: Iterable[str] = ()) -> Boilerplate:
+        """The boilerplate: lines in at least ``max(min_texts, ceil(share * n))`` texts, and
+        every known line (as `find_boilerplate` does for strings)."""
+        everything = np.concatenate(self._sets) if self._sets else np.zeros(0, np.uint64)
+        self._sets = []
+        values, counts = np.unique(everything, return_counts=True)
+        del everything
+        limit = max(min_texts, math.ceil(share * self.texts))
+        chosen = counts >= limit
+        found = dict(zip(values[chosen].tolist(), counts[chosen].tolist()))
+        texts: dict[int, str] = {}
+        known = [line for line in known if line]
+        if known:
+            buf = np.frombuffer("\n".join(known).encode("utf-8"), dtype=np.uint8)
+            starts, stops, _ = line_spans(buf, np.array([0, buf.shape[0]], dtype=np.int64))
+            for line, h in zip(known, line_hashes(buf, starts, stops).tolist()):
+                where = int(np.searchsorted(values, np.uint64(h)))
+                seen = where < values.shape[0] and int(values[where]) == h
+                found.setdefault(h, int(counts[where]) if seen else 0)
+                texts.setdefault(h, line)
+        return Boilerplate(found, limit, texts)
+
+
+@dataclass
+class Boilerplate:
+    """Boilerplate lines found by a `BoilerplateCounter`: line hash → number of texts.
+
+    ``texts`` maps line hashes to their text as lines are met while stripping (the
+    report shows the most common ones).
+    """
+
+    counts: dict[int, int]
+    limit: int
+    texts: dict[int, str] = field(default_factory=dict)
+
+    def __len__(self) -> int:
+        return len(self.counts)
+
+    def strip(
+        self, buf: np.ndarray, offsets: np.ndarray, max_text_share: float = 0.5
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """The texts to shingle (lines joined by spaces, boilerplate left out where the
+        rule of `without_boilerplate` allows), and per text whether boilerplate was left
+        out (``discounted``) or the text kept whole despite having some (``protected``).
+        """
+        starts, stops, per_text = line_spans(buf, offsets)
+        n = per_text.shape[0] - 1
+        if not self.counts:
+            out = buf.copy()
+            out[out == 0x0A] = 0x20
+            return out, np.asarray(offsets, dtype=np.int64), np.zeros(n, bool), np.zeros(n, bool)
+        hashes = line_hashes(buf, starts, stops)
+        known = np.fromiter(self.counts, dtype=np.uint64, count=len(self.counts))
+        known.sort()
+        where = np.minimum(np.searchsorted(known, hashes), known.shape[0] - 1)
+        shared = known[where] == hashes
+        chars = line_characters(buf, starts, stops)
+
+        def per(values: np.ndarray) -> np.ndarray:
+            total = np.concatenate(([0], np.cumsum(values)))
+            return total[per_text[1:]] - total[per_text[:-1]]
+
+        lines, shared_lines = np.diff(per_text), per(shared.astype(np.int64))
+        total_chars, removed_chars = per(chars), per(np.where(shared, chars, 0))
+        has = shared_lines > 0
+        discounted = has & (shared_lines < lines) & (removed_chars <= max_text_share * total_chars)
+        protected = has & ~discounted
+        text_of_line = np.repeat(np.arange(n), lines)
+        keep = ~(shared & discounted[text_of_line])
+        for k in np.flatnonzero(shared).tolist():
+            h = int(hashes[k])
+            if h not in self.texts:
+                self.texts[h] = buf[starts[k] : stops[k]].tobytes().decode("utf-8")
+        out, out_offsets = join_kept_lines(buf, starts, stops, per_text, keep)
+        return out, out_offsets, discounted, protected
+
+    def top(self, n: int = 100) -> list[dict]:
+        """The ``n`` most common lines with the number of texts each is in."""
+        rows = [(count, self.texts.get(h, "")) for h, count in self.counts.items()]
+        rows.sort(key=lambda r: (-r[0], r[1]))
+        return [{"text": text[:300], "texts": count} for count, text in rows[:n]]

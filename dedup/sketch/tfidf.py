@@ -25,7 +25,7 @@ from numba import njit, prange
 
 from ..features.hashing import sort_segments_count_unique
 
-__all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats"]
+__all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats", "DocumentFrequency"]
 
 # Up to this many columns document frequencies are counted in a dense array (8 bytes each).
 DENSE_DF_LIMIT = 2**24
@@ -235,19 +235,27 @@ def collision_stats(token_hashes: np.ndarray, n_features: int, occupied_columns:
     is then not available.
     """
     if token_hashes.shape[0] <= EXACT_VOCABULARY_LIMIT or occupied_columns is None:
-        vocabulary = np.unique(token_hashes)
-        v = int(vocabulary.shape[0])
-        if v:
-            _, counts = np.unique(vocabulary % np.uint64(n_features), return_counts=True)
-            measured: float | None = float(counts[counts > 1].sum()) / v
-        else:
-            measured = 0.0
-        method = "exact"
+        return _exact_collisions(np.unique(token_hashes), n_features)
+    return _estimated_collisions(occupied_columns, n_features)
+
+
+def _exact_collisions(vocabulary: np.ndarray, n_features: int) -> dict:
+    v = int(vocabulary.shape[0])
+    if v:
+        _, counts = np.unique(vocabulary % np.uint64(n_features), return_counts=True)
+        measured: float | None = float(counts[counts > 1].sum()) / v
     else:
-        fill = min(occupied_columns / n_features, 1.0 - 1.0 / n_features)
-        v = int(round(np.log1p(-fill) / np.log1p(-1.0 / n_features)))
-        measured = None
-        method = "estimated from occupied columns (linear counting)"
+        measured = 0.0
+    return _collision_record(v, n_features, "exact", measured)
+
+
+def _estimated_collisions(occupied_columns: int, n_features: int) -> dict:
+    fill = min(occupied_columns / n_features, 1.0 - 1.0 / n_features)
+    v = int(round(np.log1p(-fill) / np.log1p(-1.0 / n_features)))
+    return _collision_record(v, n_features, "estimated from occupied columns (linear counting)", None)
+
+
+def _collision_record(v: int, n_features: int, method: str, measured: float | None) -> dict:
     expected = 1.0 - (1.0 - 1.0 / n_features) ** max(v - 1, 0) if v else 0.0
     return {
         "n_features": int(n_features),
@@ -256,3 +264,104 @@ def collision_stats(token_hashes: np.ndarray, n_features: int, occupied_columns:
         "expected_colliding_share": float(expected),
         "measured_colliding_share": measured,
     }
+
+
+@njit(cache=True)
+def _count_df(columns, offsets, first_doc, last_seen, df):
+    # One pass over the tokens: a column counts once per document (the last document that
+    # touched it is remembered), so no per-document sort is needed.
+    for d in range(offsets.shape[0] - 1):
+        doc = first_doc + d
+        for i in range(offsets[d], offsets[d + 1]):
+            c = columns[i]
+            if last_seen[c] != doc:
+                last_seen[c] = doc
+                df[c] += 1
+
+
+class DocumentFrequency:
+    """Document frequencies of hashed columns counted chunk after chunk.
+
+    An audit streams its texts once: each chunk's token hashes are counted here and
+    dropped; afterwards `model` gives the idf of the whole corpus and the TF-IDF rows of
+    just the texts that are compared — the same numbers `fit_tfidf` gives over all texts
+    at once. The vocabulary for `collision_stats` is kept exactly while the corpus has at
+    most `EXACT_VOCABULARY_LIMIT` tokens, as `collision_stats` does.
+
+    Examples
+    --------
+    >>> df = DocumentFrequency(8)
+    >>> df.add(np.array([1, 2, 1], np.uint64), np.array([0, 2, 3]))
+    >>> m = df.model(np.array([1, 2], np.uint64), np.array([0, 2]))
+    >>> ref = fit_tfidf(np.array([1, 2, 1], np.uint64), np.array([0, 2, 3]), n_features=8)
+    >>> bool(np.allclose(m.rows.toarray(), ref.rows[0].toarray()))
+    True
+    """
+
+    def __init__(self, n_features: int = 2**20, sublinear_tf: bool = False) -> None:
+        self.n_features = int(n_features)
+        self.sublinear_tf = sublinear_tf
+        self.n_docs = 0
+        self.tokens = 0
+        self._dense = self.n_features <= DENSE_DF_LIMIT
+        if self._dense:
+            self._df = np.zeros(self.n_features, dtype=np.int64)
+            self._last = np.full(self.n_features, -1, dtype=np.int64)
+        else:
+            self._parts: list[tuple[np.ndarray, np.ndarray]] = []
+        self._vocabulary: list[np.ndarray] | None = []
+
+    def add(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> None:
+        """Count the documents of one chunk."""
+        offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
+        n = offsets.shape[0] - 1
+        columns = (token_hashes % np.uint64(self.n_features)).astype(np.int64)
+        if self._dense:
+            _count_df(columns, offsets, self.n_docs, self._last, self._df)
+        else:
+            unique_counts = sort_segments_count_unique(columns, offsets)
+            keep = np.ones(columns.shape[0], dtype=bool)
+            keep[1:] = columns[1:] != columns[:-1]
+            keep[offsets[:-1][unique_counts > 0]] = True
+            self._parts.append(np.unique(columns[keep], return_counts=True))
+        self.tokens += int(token_hashes.shape[0])
+        if self._vocabulary is not None:
+            if self.tokens <= EXACT_VOCABULARY_LIMIT:
+                self._vocabulary.append(np.unique(token_hashes))
+            else:
+                self._vocabulary = None
+        self.n_docs += n
+
+    def _columns_and_df(self) -> tuple[np.ndarray, np.ndarray]:
+        if self._dense:
+            columns = np.flatnonzero(self._df)
+            return columns, self._df[columns]
+        if not self._parts:
+            return np.zeros(0, np.int64), np.zeros(0, np.int64)
+        cols = np.concatenate([c for c, _ in self._parts])
+        counts = np.concatenate([k for _, k in self._parts])
+        columns, inverse = np.unique(cols, return_inverse=True)
+        return columns, np.bincount(inverse.ravel(), weights=counts, minlength=columns.shape[0]).astype(np.int64)
+
+    def collision_stats(self) -> dict:
+        """What `collision_stats` reports for the whole corpus."""
+        columns, _ = self._columns_and_df()
+        if self._vocabulary is not None:
+            parts = self._vocabulary
+            vocabulary = np.unique(np.concatenate(parts)) if parts else np.zeros(0, np.uint64)
+            return _exact_collisions(vocabulary, self.n_features)
+        return _estimated_collisions(int(columns.shape[0]), self.n_features)
+
+    def model(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> TfidfModel:
+        """The fitted idf with the unit-length rows of the given texts."""
+        columns, df = self._columns_and_df()
+        column_idf = np.log((1.0 + self.n_docs) / (1.0 + df)) + 1.0
+        unseen = float(np.log(1.0 + self.n_docs) + 1.0)
+        counts = _term_counts(token_hashes, token_offsets, self.n_features)
+        if self._dense:
+            dense_idf = np.log((1.0 + self.n_docs) / (1.0 + self._df)) + 1.0
+            rows = _weight(counts, dense_idf, counts.indices, self.sublinear_tf, in_place=True)
+        else:
+            where = np.searchsorted(columns, counts.indices.astype(np.int64))
+            rows = _weight(counts, column_idf, where, self.sublinear_tf, in_place=True)
+        return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, self.sublinear_tf)

@@ -1,0 +1,293 @@
+"""The audit's passes over a corpus of any size, in bounded memory.
+
+1. `read_pass` streams the documents once: each is normalized and hashed, its record
+   kept, its original text and (for a new distinct text) its canonical text appended to
+   stores in the work folder; boilerplate lines are counted by hash chunk by chunk.
+2. `sketch_pass` reads the distinct texts back in chunks (in id order): boilerplate is
+   stripped, shingles hashed and MinHashed, band keys and document frequencies kept,
+   signatures spilled. No shingle set is kept: MinHash does not need one.
+3. `compared_sets` rebuilds shingle sets and TF-IDF rows only for the texts that have a
+   candidate pair (or are otherwise compared): exact scores need nothing else.
+
+So memory holds the per-document records, 8 bytes per band per text and one chunk at a
+time, never the corpus.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .candidates.lsh import band_keys
+from .features import tokenize
+from .features.shingles import features_with, pack_bytes
+from .normalize import canonical_text, content_hash
+from .normalize.boilerplate import Boilerplate, BoilerplateCounter, canonical_lines
+from .progress import Progress
+from .sketch import signatures_with
+from .sketch.tfidf import DocumentFrequency, TfidfModel
+from .workdir import ByteStore
+
+__all__ = ["ReadResult", "read_pass", "sketch_pass", "SketchResult", "compared_sets", "ComparedSets"]
+
+# Texts (or bytes of text) gathered before a chunk is processed.
+CHUNK_TEXTS = 8192
+CHUNK_BYTES = 32 * 2**20
+
+
+def _date_of(value: object) -> float | None:
+    from datetime import datetime, timezone
+
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return float(value)
+    if isinstance(value, str) and value.strip():
+        try:
+            parsed = datetime.fromisoformat(value.strip().replace("Z", "+00:00"))
+        except ValueError:
+            return None
+        if parsed.tzinfo is None:
+            parsed = parsed.replace(tzinfo=timezone.utc)
+        return parsed.timestamp()
+    return None
+
+
+@dataclass
+class ReadResult:
+    """What the read pass leaves: records in id order and where their texts are stored.
+
+    Attributes
+    ----------
+    documents : list of dict
+        One record per document, sorted by id.
+    original_slot : list of int
+        For each record, its slot in the originals store.
+    canonical_slot : dict
+        Content hash → slot of the canonical text in the canonical store (texts with words).
+    wordless : set of str
+        Content hashes of texts that have characters but no word.
+    counter : BoilerplateCounter or None
+    read_seconds : float
+        Time spent inside the readers (the rest of the pass is normalizing).
+    """
+
+    documents: list[dict]
+    original_slot: list[int]
+    canonical_slot: dict[str, int]
+    wordless: set[str]
+    counter: BoilerplateCounter | None
+    read_seconds: float
+
+
+def read_pass(
+    documents_in,
+    settings,
+    originals: ByteStore,
+    canonicals: ByteStore,
+    progress: Progress,
+) -> ReadResult:
+    """Stream the documents once (see the module notes)."""
+    use_lines = settings.boilerplate
+    with_dates = settings.keeper_policy in ("newest", "oldest")
+    counter = BoilerplateCounter() if use_lines else None
+    table = tokenize.word_table()
+    records: list[dict] = []
+    slots: dict[str, int] = {}
+    wordless: set[str] = set()
+    pending: list[tuple[str, bytes]] = []
+    pending_bytes = 0
+
+    def flush() -> None:
+        nonlocal pending_bytes
+        if not pending:
+            return
+        buf, offsets = pack_bytes([stored for _, stored in pending])
+        words = tokenize.count_words(buf, offsets, table)
+        has_words = words > 0
+        for (h, stored), ok in zip(pending, has_words.tolist()):
+            if ok:
+                slots[h] = canonicals.append(stored)
+            else:
+                wordless.add(h)
+        if counter is not None and has_words.any():
+            picks = np.flatnonzero(has_words)
+            counter.add(*tokenize.gather_segments(buf, offsets, picks))
+        pending.clear()
+        pending_bytes = 0
+
+    seen: set[str] = set()
+    read_seconds = 0.0
+    iterator = iter(documents_in)
+    while True:
+        start = time.perf_counter()
+        doc = next(iterator, None)
+        read_seconds += time.perf_counter() - start
+        if doc is None:
+            break
+        original = doc.text.encode("utf-8", "surrogatepass")
+        if use_lines:
+            lines = canonical_lines(doc.text)
+            canonical_string = " ".join(lines)
+        else:
+            canonical_string = canonical_text(doc.text)
+        canonical = canonical_string.encode("utf-8", "surrogatepass")
+        digest = content_hash(canonical)
+        record = {
+            "id": doc.id,
+            "source": doc.source,
+            "format": doc.format,
+            "title": doc.title,
+            "bytes": len(original),
+            "characters": len(canonical_string),
+            "content_hash": digest,
+            "status": "read",
+        }
+        if with_dates:
+            value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
+            record["date"] = _date_of(value)
+        originals.append(original)
+        records.append(record)
+        if canonical and digest not in seen:
+            seen.add(digest)
+            stored = "\n".join(lines).encode("utf-8", "surrogatepass") if use_lines else canonical
+            pending.append((digest, stored))
+            pending_bytes += len(stored)
+            if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
+                flush()
+        progress.advance()
+    flush()
+    order = sorted(range(len(records)), key=lambda i: records[i]["id"])
+    return ReadResult(
+        documents=[records[i] for i in order],
+        original_slot=order,
+        canonical_slot=slots,
+        wordless=wordless,
+        counter=counter,
+        read_seconds=read_seconds,
+    )
+
+
+@dataclass
+class SketchResult:
+    """What the sketch pass leaves for candidate generation and scoring."""
+
+    frequencies: DocumentFrequency
+    keys: np.ndarray | None
+    signature_file: str | None
+    texts_affected: int = 0
+    texts_compared_whole: int = 0
+    seconds: dict = field(default_factory=dict)
+
+
+def _chunks(slots: np.ndarray, store: ByteStore):
+    """Consecutive runs of slots of at most `CHUNK_TEXTS` texts and `CHUNK_BYTES` bytes
+    (or one text, when a single text is larger)."""
+    ends = np.cumsum(store.sizes(slots))
+    start = 0
+    n = slots.shape[0]
+    while start < n:
+        before = ends[start - 1] if start else 0
+        stop = int(np.searchsorted(ends, before + CHUNK_BYTES, side="right"))
+        stop = min(max(stop, start + 1), start + CHUNK_TEXTS, n)
+        yield start, stop, store.gather(slots[start:stop])
+        start = stop
+
+
+def _feature_texts(buf, offsets, boilerplate: Boilerplate | None, settings):
+    if boilerplate is None:
+        return buf, offsets, None, None
+    return boilerplate.strip(buf, offsets, settings.boilerplate_max_text_share)
+
+
+def sketch_pass(
+    slots: np.ndarray,
+    canonicals: ByteStore,
+    boilerplate: Boilerplate | None,
+    settings,
+    *,
+    lsh: tuple[int, int] | None,
+    signature_path: str,
+    progress: Progress,
+) -> SketchResult:
+    """Document frequencies of every distinct text, and with ``lsh=(bands, rows)`` their
+    band keys (kept) and MinHash signatures (spilled to ``signature_path``)."""
+    frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
+    keys = np.empty((slots.shape[0], lsh[0]), dtype=np.uint64) if lsh else None
+    affected = whole = 0
+    with open(signature_path, "wb") if lsh else _NoFile() as sig_out:
+        for start, stop, (buf, offsets) in _chunks(slots, canonicals):
+            buf, offsets, discounted, protected = _feature_texts(buf, offsets, boilerplate, settings)
+            if discounted is not None:
+                affected += int(discounted.sum())
+                whole += int(protected.sum())
+            features = features_with(settings, buf, offsets, distinct=False)
+            del buf
+            frequencies.add(features.token_hashes, features.token_offsets)
+            if lsh:
+                values = signatures_with(settings, features).values
+                keys[start:stop] = band_keys(values, lsh[0], lsh[1])
+                sig_out.write(values.tobytes())
+            progress.advance(stop - start)
+    return SketchResult(frequencies, keys, signature_path if lsh else None, affected, whole)
+
+
+class _NoFile:
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *exc):
+        return None
+
+
+@dataclass
+class ComparedSets:
+    """Shingle sets and TF-IDF rows of the texts that are compared, by local number."""
+
+    local: np.ndarray  # distinct text → local number, -1 when not compared
+    shingles: np.ndarray
+    shingle_offsets: np.ndarray
+    model: TfidfModel
+
+    def of(self, texts: np.ndarray) -> np.ndarray:
+        return self.local[texts]
+
+
+def compared_sets(
+    needed: np.ndarray,
+    n_texts: int,
+    slots: np.ndarray,
+    canonicals: ByteStore,
+    boilerplate: Boilerplate | None,
+    frequencies: DocumentFrequency,
+    settings,
+    progress: Callable[[int], None] | None = None,
+) -> ComparedSets:
+    """Sorted unique shingles and unit TF-IDF rows of the distinct texts ``needed`` (sorted)."""
+    import scipy.sparse as sp
+
+    needed = np.asarray(needed, dtype=np.int64)
+    local = np.full(n_texts, -1, dtype=np.int64)
+    local[needed] = np.arange(needed.shape[0])
+    parts_sh, parts_counts, parts_rows = [], [], []
+    model = None
+    for _, _, (buf, offsets) in _chunks(slots[needed], canonicals):
+        buf, offsets, _, _ = _feature_texts(buf, offsets, boilerplate, settings)
+        features = features_with(settings, buf, offsets)
+        parts_sh.append(features.shingles)
+        parts_counts.append(np.diff(features.shingle_offsets))
+        model = frequencies.model(features.token_hashes, features.token_offsets)
+        parts_rows.append(model.rows)
+        if progress:
+            progress(int(offsets.shape[0] - 1))
+    if model is None:
+        model = frequencies.model(np.zeros(0, np.uint64), np.zeros(1, np.int64))
+        parts_rows = [model.rows]
+    shingles = np.concatenate(parts_sh) if parts_sh else np.zeros(0, np.uint64)
+    counts = np.concatenate(parts_counts) if parts_counts else np.zeros(0, np.int64)
+    offsets = np.zeros(counts.shape[0] + 1, dtype=np.int64)
+    np.cumsum(counts, out=offsets[1:])
+    rows = sp.vstack(parts_rows, format="csr") if len(parts_rows) > 1 else parts_rows[0]
+    model = TfidfModel(rows.tocsr(), model.columns, model.column_idf, model.unseen_idf, model.sublinear_tf)
+    return ComparedSets(local, shingles, offsets, model)

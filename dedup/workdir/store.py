@@ -1,0 +1,113 @@
+"""An append-only store of byte strings in one file, read back by slot number.
+
+Writes go through an ordinary buffered file (the page cache holds them, not the
+process); reads map the file and copy the wanted slots into one packed buffer. After
+each read the mapping's pages are released, so reading a store of several gigabytes
+never grows the resident memory of the process beyond the slots just read.
+"""
+
+from __future__ import annotations
+
+import mmap
+import os
+from array import array
+
+import numpy as np
+
+from ..features.tokenize import gather_segments
+
+__all__ = ["ByteStore"]
+
+
+class ByteStore:
+    """Byte strings appended one after another to ``path``; slot ``k`` is the k-th one.
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> store = ByteStore(os.path.join(tempfile.mkdtemp(), "texts.bin"))
+    >>> store.append(b"alpha"), store.append(b"beta")
+    (0, 1)
+    >>> buf, offsets = store.gather([1, 0])
+    >>> bytes(buf).decode(), offsets.tolist()
+    ('betaalpha', [0, 4, 9])
+    >>> store.close()
+    """
+
+    def __init__(self, path: str) -> None:
+        self.path = path
+        self._file = open(path, "wb")  # noqa: SIM115 - kept open while the audit appends
+        self._starts = array("q", [0])
+        self._map: mmap.mmap | None = None
+        self._view: np.ndarray | None = None
+
+    def __len__(self) -> int:
+        return len(self._starts) - 1
+
+    @property
+    def size(self) -> int:
+        """Bytes stored."""
+        return self._starts[-1]
+
+    def sizes(self, slots) -> np.ndarray:
+        """Length in bytes of each given slot."""
+        starts = np.frombuffer(self._starts, dtype=np.int64)
+        slots = np.asarray(slots, dtype=np.int64)
+        return starts[slots + 1] - starts[slots]
+
+    def append(self, data: bytes) -> int:
+        """Store ``data``; returns its slot."""
+        if self._map is not None:
+            raise RuntimeError("the store has been read from; it takes no more writes")
+        self._file.write(data)
+        self._starts.append(self._starts[-1] + len(data))
+        return len(self._starts) - 2
+
+    def _open_view(self) -> np.ndarray:
+        if self._view is None:
+            self._file.close()
+            if self.size == 0:
+                self._view = np.zeros(0, np.uint8)
+            else:
+                with open(self.path, "rb") as handle:
+                    self._map = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+                self._view = np.frombuffer(self._map, dtype=np.uint8)
+        return self._view
+
+    def gather(self, slots) -> tuple[np.ndarray, np.ndarray]:
+        """The given slots, in that order, packed into one buffer with offsets (n + 1)."""
+        view = self._open_view()
+        starts = np.frombuffer(self._starts, dtype=np.int64)
+        buf, offsets = gather_segments(view, starts, np.asarray(slots, dtype=np.int64))
+        self.release()
+        return buf, offsets
+
+    def get(self, slot: int) -> bytes:
+        """One stored byte string."""
+        view = self._open_view()
+        data = view[self._starts[slot] : self._starts[slot + 1]].tobytes()
+        return data
+
+    def release(self) -> None:
+        """Give the mapped pages back to the system (they stay in the page cache)."""
+        if self._map is not None and hasattr(self._map, "madvise"):
+            self._map.madvise(mmap.MADV_DONTNEED)
+
+    def close(self) -> None:
+        self._view = None
+        if self._map is not None:
+            try:
+                self._map.close()
+            except BufferError:
+                # A caller still holds a view of the map; it is freed with that view.
+                pass
+            self._map = None
+        if not self._file.closed:
+            self._file.close()
+
+    def remove(self) -> None:
+        self.close()
+        try:
+            os.remove(self.path)
+        except FileNotFoundError:
+            pass
