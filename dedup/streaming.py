@@ -24,8 +24,9 @@ import numpy as np
 from .candidates.lsh import band_keys
 from .features import tokenize
 from .features.shingles import features_with, pack_bytes
-from .normalize import canonical_text, content_hash
-from .normalize.boilerplate import Boilerplate, BoilerplateCounter, canonical_lines
+from .normalize import content_hash
+from .normalize.canonical_bytes import canonical_line_bytes
+from .normalize.boilerplate import Boilerplate, BoilerplateCounter
 from .progress import Progress
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
@@ -33,6 +34,9 @@ from .workdir import ByteStore
 
 __all__ = ["ReadResult", "read_pass", "sketch_pass", "SketchResult", "compared_sets", "ComparedSets"]
 
+# Documents (or characters of text) normalized together.
+BATCH_DOCUMENTS = 1024
+BATCH_CHARACTERS = 8 * 2**20
 # Texts (or bytes of text) gathered before a chunk is processed.
 CHUNK_TEXTS = 8192
 CHUNK_BYTES = 32 * 2**20
@@ -118,6 +122,44 @@ def read_pass(
         pending_bytes = 0
 
     seen: set[str] = set()
+    batch: list = []
+    batch_bytes = 0
+
+    def normalize_batch() -> None:
+        nonlocal pending_bytes, batch_bytes
+        originals_bytes = [doc.text.encode("utf-8", "surrogatepass") for doc in batch]
+        stored_of, chars_of = canonical_line_bytes([doc.text for doc in batch])
+        for k, doc in enumerate(batch):
+            stored = stored_of[k]
+            # The canonical text is the canonical lines joined by spaces.
+            canonical = stored.replace(b"\n", b" ")
+            digest = content_hash(canonical)
+            record = {
+                "id": doc.id,
+                "source": doc.source,
+                "format": doc.format,
+                "title": doc.title,
+                "bytes": len(originals_bytes[k]),
+                "characters": chars_of[k],
+                "content_hash": digest,
+                "status": "read",
+            }
+            if with_dates:
+                value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
+                record["date"] = _date_of(value)
+            originals.append(originals_bytes[k])
+            records.append(record)
+            if canonical and digest not in seen:
+                seen.add(digest)
+                kept_form = stored if use_lines else canonical
+                pending.append((digest, kept_form))
+                pending_bytes += len(kept_form)
+                if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
+                    flush()
+        progress.advance(len(batch))
+        batch.clear()
+        batch_bytes = 0
+
     read_seconds = 0.0
     iterator = iter(documents_in)
     while True:
@@ -126,37 +168,12 @@ def read_pass(
         read_seconds += time.perf_counter() - start
         if doc is None:
             break
-        original = doc.text.encode("utf-8", "surrogatepass")
-        if use_lines:
-            lines = canonical_lines(doc.text)
-            canonical_string = " ".join(lines)
-        else:
-            canonical_string = canonical_text(doc.text)
-        canonical = canonical_string.encode("utf-8", "surrogatepass")
-        digest = content_hash(canonical)
-        record = {
-            "id": doc.id,
-            "source": doc.source,
-            "format": doc.format,
-            "title": doc.title,
-            "bytes": len(original),
-            "characters": len(canonical_string),
-            "content_hash": digest,
-            "status": "read",
-        }
-        if with_dates:
-            value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
-            record["date"] = _date_of(value)
-        originals.append(original)
-        records.append(record)
-        if canonical and digest not in seen:
-            seen.add(digest)
-            stored = "\n".join(lines).encode("utf-8", "surrogatepass") if use_lines else canonical
-            pending.append((digest, stored))
-            pending_bytes += len(stored)
-            if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
-                flush()
-        progress.advance()
+        batch.append(doc)
+        batch_bytes += len(doc.text)
+        if len(batch) >= BATCH_DOCUMENTS or batch_bytes >= BATCH_CHARACTERS:
+            normalize_batch()
+    if batch:
+        normalize_batch()
     flush()
     order = sorted(range(len(records)), key=lambda i: records[i]["id"])
     return ReadResult(

@@ -122,6 +122,15 @@ def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -
         stack.extend(reversed(subfolders))
 
 
+def _identity(path: str) -> object:
+    """What makes two paths the same file: device and inode (one stat call), else the real path."""
+    try:
+        info = os.stat(path)
+    except OSError:
+        return os.path.realpath(path)
+    return (info.st_dev, info.st_ino)
+
+
 def _too_large(size: int, opts: ReadOptions) -> str:
     return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
@@ -250,7 +259,7 @@ def iter_documents(
         else:
             paths.append((root, False))
     base = _base_of([p for p, _ in paths])
-    seen_files: dict[str, str] = {}
+    seen_files: dict[object, str] = {}
     seen_ids: set[str] = set()
     for path, listed in paths:
         if listed and not os.path.lexists(path):
@@ -264,7 +273,7 @@ def iter_documents(
         else:
             found = iter([_Found(path, _rel(path, base), walked=False)])
         for item in found:
-            real = os.path.realpath(item.path)
+            real = _identity(item.path)
             if real in seen_files:
                 ledger.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
                 continue

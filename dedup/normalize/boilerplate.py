@@ -182,10 +182,12 @@ class Boilerplate:
         protected = has & ~discounted
         text_of_line = np.repeat(np.arange(n), lines)
         keep = ~(shared & discounted[text_of_line])
-        for k in np.flatnonzero(shared).tolist():
-            h = int(hashes[k])
+        # The text of each boilerplate line, from its first occurrence met.
+        met, first = np.unique(hashes[shared], return_index=True)
+        where_shared = np.flatnonzero(shared)
+        for h, k in zip(met.tolist(), where_shared[first].tolist()):
             if h not in self.texts:
-                self.texts[h] = buf[starts[k] : stops[k]].tobytes().decode("utf-8")
+                self.texts[h] = buf[starts[k] : stops[k]].tobytes().decode("utf-8", "surrogatepass")
         out, out_offsets = join_kept_lines(buf, starts, stops, per_text, keep)
         return out, out_offsets, discounted, protected
 
