@@ -54,6 +54,11 @@ def run_one(folder: str, out: str, report: bool) -> dict:
     start = time.perf_counter()
     result = dedup.audit([folder], dedup.AuditSettings(id_field="id", candidates="lsh"))
     audit_s = time.perf_counter() - start
+    print(
+        f"audit {audit_s:.1f} s, stages {result.run['stages_seconds']}, peaks {result.run['peak_rss_mb_by_stage']}",
+        file=sys.stderr,
+        flush=True,
+    )
     start = time.perf_counter()
     if report:
         result.write(out)
@@ -89,7 +94,7 @@ def main(argv: list[str] | None = None) -> int:
             cmd = [sys.executable, "-m", "benchmarks.scale", "--child", str(folder), str(Path(tmp) / f"o{n}")]
             if args.no_report:
                 cmd.append("--no-report")
-            out = subprocess.run(cmd, capture_output=True, text=True, check=True, cwd=os.getcwd()).stdout
+            out = subprocess.run(cmd, stdout=subprocess.PIPE, text=True, check=True, cwd=os.getcwd()).stdout
             row = json.loads(out.strip().splitlines()[-1])
             row["inputs"] = written
             rows.append(row)

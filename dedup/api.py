@@ -28,7 +28,7 @@ from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
 from .progress import Progress
 from .settings import AuditSettings
-from .streaming import compared_sets, read_pass, sketch_pass
+from .streaming import compared_sets, prepare_documents, read_pass, sketch_pass
 from .verify import PairScores, deciding_score, score_pairs
 from .workdir import WorkFolder
 
@@ -90,8 +90,11 @@ class AuditResult:
     texts: dict = field(default_factory=dict)
     delta: dict | None = None
 
-    def to_dict(self) -> dict:
-        """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path)."""
+    def to_dict(self, lazy: bool = False) -> dict:
+        """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path).
+
+        With ``lazy`` the ledger is a generator of records (for writing, not keeping).
+        """
         return {
             "schema_version": SCHEMA_VERSION,
             "tool": {"name": "dedup", "version": __version__},
@@ -104,7 +107,7 @@ class AuditResult:
             "tfidf": self.tfidf,
             "boilerplate": self.boilerplate,
             "warnings": self.warnings,
-            "ledger": [e.to_dict() for e in self.ledger],
+            "ledger": (e.to_dict() for e in self.ledger) if lazy else [e.to_dict() for e in self.ledger],
             "documents": self.documents,
             "exact_groups": self.exact_groups,
             "pairs": self.pairs,
@@ -177,6 +180,7 @@ def audit(
     progress: Progress | None = None,
     work_dir: str | None = None,
     keep_work: bool = False,
+    workers: int = 1,
 ) -> AuditResult:
     """Audit files and folders for exact and near-duplicate documents.
 
@@ -193,6 +197,10 @@ def audit(
         folder by default. Removed at the end unless ``keep_work``.
     keep_work : bool
         Leave the work folder in place (to inspect it).
+    workers : int
+        Processes that read and normalize files in parallel (default 1: read in this
+        process). Results do not depend on it. Worth it where reading dominates and the
+        CPUs are real cores: the texts cross between processes once.
 
     Returns
     -------
@@ -218,7 +226,7 @@ def audit(
     progress = progress or Progress.silent()
     known_boilerplate = _read_ignore_text(settings.ignore_text_file)
     with WorkFolder(work_dir, keep=keep_work) as work:
-        return _audit(paths, settings, progress, known_boilerplate, work)
+        return _audit(paths, settings, progress, known_boilerplate, work, workers)
 
 
 def _audit(
@@ -227,6 +235,7 @@ def _audit(
     progress: Progress,
     known_boilerplate: list[str],
     work: WorkFolder,
+    workers: int,
 ) -> AuditResult:
     watch = _Stopwatch()
     originals, canonicals = work.store("originals"), work.store("canonical")
@@ -248,6 +257,8 @@ def _audit(
         include=settings.include,
         exclude=settings.exclude,
         include_vcs=settings.include_vcs,
+        workers=workers,
+        prepare=prepare_documents,
     )
     read = read_pass(documents_in, settings, originals, canonicals, progress)
     documents = read.documents
@@ -261,7 +272,9 @@ def _audit(
             kept_rows.append(i)
             continue
         record["status"] = "empty"
-        empty_reason[record["id"]] = "no text" if record["characters"] == 0 else "no words after normalization"
+        empty_reason[record["id"]] = (
+            "no text" if record["characters"] == 0 else "no words after normalization"
+        )
     if empty_reason:
         for entry in ledger:
             reason = empty_reason.get(entry.document_id) if entry.document_id else None
@@ -364,7 +377,11 @@ def _audit(
     # -- verify -----------------------------------------------------------------------
     progress.start("verifying", int(left.shape[0]))
     scores = score_pairs(
-        compared.shingles, compared.shingle_offsets, compared.model.rows, compared.of(left), compared.of(right)
+        compared.shingles,
+        compared.shingle_offsets,
+        compared.model.rows,
+        compared.of(left),
+        compared.of(right),
     )
     scores = dataclasses.replace(scores, left=left, right=right)
     decided = deciding_score(scores, settings.measure) if len(scores) else np.zeros(0)

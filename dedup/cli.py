@@ -265,6 +265,23 @@ def build_parser() -> argparse.ArgumentParser:
         help="index file: apply remembered review decisions, compare with the last audit, record this one",
     )
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    g.add_argument(
+        "--work-dir",
+        default=None,
+        metavar="DIR",
+        help="folder for intermediate data spilled to disk while auditing (texts, signatures; about twice "
+        "the size of the text read); default: .dedup-work in the output folder",
+    )
+    g.add_argument(
+        "--keep-work", action="store_true", help="leave the work folder in place at the end (to inspect it)"
+    )
+    g.add_argument(
+        "--workers",
+        type=_positive_int,
+        default=1,
+        metavar="N",
+        help="processes that read and normalize files in parallel (default 1); results are the same for any N",
+    )
     from . import cli_index
 
     cli_index.register(commands)
@@ -341,6 +358,20 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
     return lines
 
 
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"not a whole number: {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1: {value}")
+    return value
+
+
+# The default work folder inside the output folder (hidden, so a walk over it skips it).
+WORK_FOLDER = ".dedup-work"
+
+
 def _run_audit(args: argparse.Namespace) -> int:
     from .api import audit
     from .ingest import InputError
@@ -383,7 +414,14 @@ def _run_audit(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     progress = Progress.silent() if args.quiet else StderrProgress()
     try:
-        result = audit(args.paths, settings, progress=progress)
+        result = audit(
+            args.paths,
+            settings,
+            progress=progress,
+            work_dir=args.work_dir or os.path.join(out, WORK_FOLDER),
+            keep_work=args.keep_work,
+            workers=args.workers,
+        )
     except InputError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE

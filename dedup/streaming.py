@@ -25,8 +25,8 @@ from .candidates.lsh import band_keys
 from .features import tokenize
 from .features.shingles import features_with, pack_bytes
 from .normalize import content_hash
-from .normalize.canonical_bytes import canonical_line_bytes
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
+from .normalize.canonical_bytes import canonical_line_bytes
 from .progress import Progress
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
@@ -56,6 +56,20 @@ def _date_of(value: object) -> float | None:
             parsed = parsed.replace(tzinfo=timezone.utc)
         return parsed.timestamp()
     return None
+
+
+def prepare_documents(documents: list, parallel: bool = False) -> None:
+    """Normalize documents in place: ``doc.prepared`` becomes (original UTF-8 bytes,
+    canonical lines joined by LF, characters of the canonical text, content hash) and
+    ``doc.text`` is emptied (the bytes carry it). Runs where the documents are read — in
+    worker processes when there are workers — so the text crosses between processes once.
+    """
+    stored_of, chars_of = canonical_line_bytes([doc.text for doc in documents], parallel=parallel)
+    for doc, stored, characters in zip(documents, stored_of, chars_of):
+        # The canonical text is the canonical lines joined by spaces.
+        digest = content_hash(stored.replace(b"\n", b" "))
+        doc.prepared = (doc.text.encode("utf-8", "surrogatepass"), stored, characters, digest)
+        doc.text = ""
 
 
 @dataclass
@@ -127,31 +141,30 @@ def read_pass(
 
     def normalize_batch() -> None:
         nonlocal pending_bytes, batch_bytes
-        originals_bytes = [doc.text.encode("utf-8", "surrogatepass") for doc in batch]
-        stored_of, chars_of = canonical_line_bytes([doc.text for doc in batch])
-        for k, doc in enumerate(batch):
-            stored = stored_of[k]
-            # The canonical text is the canonical lines joined by spaces.
-            canonical = stored.replace(b"\n", b" ")
-            digest = content_hash(canonical)
+        todo = [doc for doc in batch if doc.prepared is None]
+        if todo:
+            prepare_documents(todo, parallel=True)
+        for doc in batch:
+            original, stored, characters, digest = doc.prepared
+            doc.prepared = None
             record = {
                 "id": doc.id,
                 "source": doc.source,
                 "format": doc.format,
                 "title": doc.title,
-                "bytes": len(originals_bytes[k]),
-                "characters": chars_of[k],
+                "bytes": len(original),
+                "characters": characters,
                 "content_hash": digest,
                 "status": "read",
             }
             if with_dates:
                 value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
                 record["date"] = _date_of(value)
-            originals.append(originals_bytes[k])
+            originals.append(original)
             records.append(record)
-            if canonical and digest not in seen:
+            if stored and digest not in seen:
                 seen.add(digest)
-                kept_form = stored if use_lines else canonical
+                kept_form = stored if use_lines else stored.replace(b"\n", b" ")
                 pending.append((digest, kept_form))
                 pending_bytes += len(kept_form)
                 if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
@@ -169,7 +182,7 @@ def read_pass(
         if doc is None:
             break
         batch.append(doc)
-        batch_bytes += len(doc.text)
+        batch_bytes += len(doc.text) if doc.prepared is None else len(doc.prepared[0])
         if len(batch) >= BATCH_DOCUMENTS or batch_bytes >= BATCH_CHARACTERS:
             normalize_batch()
     if batch:

@@ -28,6 +28,8 @@ class RawDocument:
     record: str = ""
     mtime: float | None = None
     metadata: dict = field(default_factory=dict)
+    # Filled by a ``prepare`` step where the document was read (see `iter_documents`).
+    prepared: tuple | None = None
 
 
 @dataclass(frozen=True)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import re
 from collections import Counter
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 
 __all__ = ["LedgerEntry", "STATUSES", "summarize", "reason_kind"]
 
@@ -25,7 +25,7 @@ STATUSES = ("read", "empty", "skipped", "truncated", "refused")
 _ADVICE = re.compile(r"\s*\([^()]*\)$")
 
 
-@dataclass
+@dataclass(slots=True)
 class LedgerEntry:
     """What became of one input (a file, an archive member, or one record of a records file)."""
 
@@ -39,7 +39,16 @@ class LedgerEntry:
     document_id: str = ""
 
     def to_dict(self) -> dict:
-        return asdict(self)
+        return {
+            "input": self.input,
+            "status": self.status,
+            "reason": self.reason,
+            "format": self.format,
+            "size": self.size,
+            "encoding": self.encoding,
+            "record": self.record,
+            "document_id": self.document_id,
+        }
 
 
 def reason_kind(entry: LedgerEntry) -> str:

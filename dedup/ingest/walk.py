@@ -122,13 +122,137 @@ def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -
         stack.extend(reversed(subfolders))
 
 
-def _identity(path: str) -> object:
-    """What makes two paths the same file: device and inode (one stat call), else the real path."""
+def _identity(path: str) -> tuple[object, int]:
+    """What makes two paths the same file — device and inode (one stat call), else the real
+    path — and the file's size (0 when unknown)."""
     try:
         info = os.stat(path)
     except OSError:
-        return os.path.realpath(path)
-    return (info.st_dev, info.st_ino)
+        return os.path.realpath(path), 0
+    return (info.st_dev, info.st_ino), info.st_size
+
+
+# A window of files is handed to the readers at once: at most this many files and bytes.
+WINDOW_FILES = 256
+WINDOW_BYTES = 64 * 2**20
+
+
+def _windows(
+    found: Iterator[_Found], walk_entries: list[LedgerEntry], seen_files: dict[object, str], max_files: int
+):
+    """Windows of events in walk order: ledger entries of the walk, and files to read.
+
+    Read in this process, a window is one file, so the walk never runs ahead of the
+    reading; workers get up to `WINDOW_FILES` files at once.
+
+    A file that is the same as one seen before (a link, a root given twice) becomes an
+    entry here, before any reading, so the order never depends on the readers.
+    """
+    window: list[LedgerEntry | _Sized] = []
+    files = size = 0
+    for item in found:
+        window.extend(walk_entries)
+        walk_entries.clear()
+        real, item_size = _identity(item.path)
+        if real in seen_files:
+            window.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
+            continue
+        seen_files[real] = item.rel
+        window.append(_Sized(item, item_size))
+        files += 1
+        size += item_size
+        if files >= max_files or size >= WINDOW_BYTES:
+            yield window
+            window, files, size = [], 0, 0
+    window.extend(walk_entries)
+    walk_entries.clear()
+    if window:
+        yield window
+
+
+@dataclass(frozen=True)
+class _Sized:
+    item: _Found
+    size: int
+
+
+# Files up to this size are read whole by a worker (archives never: they are streamed here).
+WORKER_FILE_BYTES = 16 * 2**20
+
+
+def _read_all(item: _Found, opts: ReadOptions, unchanged, prepare) -> list[Outcome]:
+    outcomes = list(_read_found(item, opts, unchanged))
+    if prepare is not None:
+        docs = [doc for doc, _ in outcomes if doc is not None]
+        if docs:
+            prepare(docs)
+    return outcomes
+
+
+_WORKER: dict = {}
+
+
+def _worker_start(opts: ReadOptions, prepare) -> None:
+    _WORKER["opts"], _WORKER["prepare"] = opts, prepare
+
+
+def _worker_read(item: _Found) -> list[Outcome]:
+    return _read_all(item, _WORKER["opts"], None, _WORKER["prepare"])
+
+
+class _Readers:
+    """Reads the files of a window, in this process or in a pool of worker processes."""
+
+    def __init__(self, opts: ReadOptions, unchanged, workers: int, prepare) -> None:
+        self.opts, self.unchanged, self.workers, self.prepare = opts, unchanged, max(1, workers), prepare
+        self._pool = None
+
+    def _to_workers(self, sized: _Sized) -> bool:
+        fmt = format_of(sized.item.rel)
+        return fmt is not None and fmt not in ARCHIVE_FORMATS and sized.size <= WORKER_FILE_BYTES
+
+    def outcomes(self, window: list):
+        """Each event of the window in order: an entry as is, a file as its outcomes.
+
+        With workers, files (not archives, not larger than `WORKER_FILE_BYTES`) are read
+        by the pool, which runs ahead within the window; the rest are read here, lazily
+        (an archive member by member).
+        """
+        results = iter(())
+        if self.workers > 1:
+            pooled = [e.item for e in window if isinstance(e, _Sized) and self._to_workers(e)]
+            if len(pooled) > 1 and self._pool is None:
+                self._pool = _start_pool(self.workers, self.opts, self.prepare)
+            if len(pooled) > 1 and self._pool is not None:
+                chunk = max(1, min(16, len(pooled) // (4 * self.workers)))
+                results = self._pool.imap(_worker_read, pooled, chunksize=chunk)
+            else:
+                results = (_read_all(item, self.opts, None, self.prepare) for item in pooled)
+        for event in window:
+            if not isinstance(event, _Sized):
+                yield event
+            elif self.workers > 1 and self._to_workers(event):
+                yield next(results)
+            else:
+                yield _read_found(event.item, self.opts, self.unchanged)
+
+    def close(self) -> None:
+        if self._pool is not None:
+            self._pool.terminate()
+            self._pool.join()
+            self._pool = None
+
+
+def _start_pool(workers: int, opts: ReadOptions, prepare):
+    """A pool of reading processes, or None where processes cannot be started (then read here)."""
+    import multiprocessing
+
+    methods = multiprocessing.get_all_start_methods()
+    context = multiprocessing.get_context("fork" if "fork" in methods else None)
+    try:
+        return context.Pool(workers, initializer=_worker_start, initargs=(opts, prepare))
+    except (OSError, ValueError):
+        return None
 
 
 def _too_large(size: int, opts: ReadOptions) -> str:
@@ -204,6 +328,8 @@ def iter_documents(
     include_vcs: bool = False,
     stdin: IO | None = None,
     unchanged: Callable[[str, float], bool] | None = None,
+    workers: int = 1,
+    prepare: Callable[[list[RawDocument]], None] | None = None,
 ) -> Iterator[RawDocument]:
     """Documents from files, folders and archives, appending one ledger entry per input to ``ledger``.
 
@@ -219,6 +345,13 @@ def iter_documents(
         ``unchanged(id, mtime)``: for an index update, true when a one-document file is
         known with this modification time; it is then not read again, and its ledger
         entry (status ``read``, reason `UNCHANGED_REASON`) names the document.
+    workers : int
+        Processes that read files in parallel (1: read in this process). Documents and
+        ledger entries come out in the same order whatever the number.
+    prepare : callable, optional
+        ``prepare(documents)`` runs on the documents of each file where it is read (in a
+        worker process when there are workers), e.g. to normalize them there; it must be
+        a module-level function and may change the documents in place.
 
     The other parameters are those of `ReadOptions`.
 
@@ -261,32 +394,41 @@ def iter_documents(
     base = _base_of([p for p, _ in paths])
     seen_files: dict[object, str] = {}
     seen_ids: set[str] = set()
-    for path, listed in paths:
-        if listed and not os.path.lexists(path):
-            ledger.append(
-                LedgerEntry(_rel(path, base), "skipped", "no such file or folder (listed on standard input)")
-            )
-            continue
-        found: Iterator[_Found]
-        if os.path.isdir(path):
-            found = _walk(path, base, opts, ledger)
-        else:
-            found = iter([_Found(path, _rel(path, base), walked=False)])
-        for item in found:
-            real = _identity(item.path)
-            if real in seen_files:
-                ledger.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
+    readers = _Readers(opts, unchanged, workers if unchanged is None else 1, prepare)
+    try:
+        for path, listed in paths:
+            if listed and not os.path.lexists(path):
+                ledger.append(
+                    LedgerEntry(
+                        _rel(path, base), "skipped", "no such file or folder (listed on standard input)"
+                    )
+                )
                 continue
-            seen_files[real] = item.rel
-            for doc, entry in _read_found(item, opts, unchanged):
-                if doc is not None and doc.id in seen_ids:
-                    # Only a file named like an archive member or a record ("a.zip!", "b.csv#1").
-                    entry.status, entry.reason = "skipped", f"id {doc.id!r} repeats an earlier document"
-                    entry.document_id = ""
-                    doc = None
-                ledger.append(entry)
-                if doc is not None:
-                    seen_ids.add(doc.id)
-                    yield doc
-                elif entry.reason == UNCHANGED_REASON:
-                    seen_ids.add(entry.document_id)
+            walk_entries: list[LedgerEntry] = []
+            if os.path.isdir(path):
+                found: Iterator[_Found] = _walk(path, base, opts, walk_entries)
+            else:
+                found = iter([_Found(path, _rel(path, base), walked=False)])
+            window_files = WINDOW_FILES if readers.workers > 1 else 1
+            for window in _windows(found, walk_entries, seen_files, window_files):
+                for event in readers.outcomes(window):
+                    if isinstance(event, LedgerEntry):
+                        ledger.append(event)
+                        continue
+                    for doc, entry in event:
+                        if doc is not None and doc.id in seen_ids:
+                            # Only a file named like an archive member or a record ("a.zip!", "b.csv#1").
+                            entry.status, entry.reason = (
+                                "skipped",
+                                f"id {doc.id!r} repeats an earlier document",
+                            )
+                            entry.document_id = ""
+                            doc = None
+                        ledger.append(entry)
+                        if doc is not None:
+                            seen_ids.add(doc.id)
+                            yield doc
+                        elif entry.reason == UNCHANGED_REASON:
+                            seen_ids.add(entry.document_id)
+    finally:
+        readers.close()

@@ -20,7 +20,6 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
-
 from ..features.tokenize import _decode
 
 __all__ = ["packed_canonical_lines", "canonical_line_bytes"]
@@ -42,55 +41,83 @@ def _kind(c):
     return 0
 
 
-@njit(cache=True, parallel=True)
-def _canonical(buf, offsets, out, lengths):
-    for d in prange(offsets.shape[0] - 1):
-        a, b = offsets[d], offsets[d + 1]
-        w = a
-        in_line = False  # the current output line has a word
-        space = False  # whitespace seen since the last word of the line
-        newline = False  # a finished line waits for its separator
-        i = a
-        while i < b:
-            c = buf[i]
-            n = 1
-            if c < 0x80:
-                k = _kind(np.int64(c))
-            else:
-                cp, n = _decode(buf, i, b)
-                k = _kind(cp)
-            if k == 0:
-                if not in_line:
-                    if newline:
-                        out[w] = 10
-                        w += 1
-                        newline = False
-                    in_line = True
-                elif space:
-                    out[w] = 32
+@njit(cache=True, inline="always")
+def _canonical_one(buf, a, b, out):
+    # Text buf[a:b] → its canonical lines written at out[a:]; returns (bytes, characters).
+    w = a
+    chars = 0
+    in_line = False  # the current output line has a word
+    space = False  # whitespace seen since the last word of the line
+    newline = False  # a finished line waits for its separator
+    i = a
+    while i < b:
+        c = buf[i]
+        n = 1
+        if c < 0x80:
+            k = _kind(np.int64(c))
+        else:
+            cp, n = _decode(buf, i, b)
+            k = _kind(cp)
+        if k == 0:
+            if not in_line:
+                if newline:
+                    out[w] = 10
                     w += 1
-                space = False
-                if 65 <= c <= 90:
-                    c += 32
-                out[w] = c
+                    chars += 1
+                    newline = False
+                in_line = True
+            elif space:
+                out[w] = 32
                 w += 1
-                for j in range(1, n):
-                    out[w] = buf[i + j]
-                    w += 1
-            elif k == 1:
-                if in_line:
-                    space = True
-            else:
-                if in_line:
-                    newline = True
-                in_line = False
-                space = False
-            i += n
-        lengths[d] = w - a
+                chars += 1
+            space = False
+            if 65 <= c <= 90:
+                c += 32
+            out[w] = c
+            w += 1
+            chars += 1
+            for j in range(1, n):
+                out[w] = buf[i + j]
+                w += 1
+        elif k == 1:
+            if in_line:
+                space = True
+        else:
+            if in_line:
+                newline = True
+            in_line = False
+            space = False
+        i += n
+    return w - a, chars
 
 
-def canonical_line_bytes(texts: list[str]) -> tuple[list[bytes], list[int]]:
-    """Canonical lines joined by LF of each text, as UTF-8, and the characters of each.
+@njit(cache=True, parallel=True)
+def _canonical(buf, offsets, out, lengths, chars):
+    for d in prange(offsets.shape[0] - 1):
+        lengths[d], chars[d] = _canonical_one(buf, offsets[d], offsets[d + 1], out)
+
+
+@njit(cache=True)
+def _canonical_serial(buf, offsets, out, lengths, chars):
+    # For worker processes, which must not start threads of their own after a fork.
+    for d in range(offsets.shape[0] - 1):
+        lengths[d], chars[d] = _canonical_one(buf, offsets[d], offsets[d + 1], out)
+
+
+def _run(buf, offsets, parallel):
+    offsets = np.asarray(offsets, dtype=np.int64)
+    out = np.empty(buf.shape[0], dtype=np.uint8)
+    lengths = np.empty(offsets.shape[0] - 1, dtype=np.int64)
+    chars = np.empty(offsets.shape[0] - 1, dtype=np.int64)
+    (_canonical if parallel else _canonical_serial)(buf, offsets, out, lengths, chars)
+    return out, offsets, lengths, chars
+
+
+def canonical_line_bytes(texts: list[str], parallel: bool = True) -> tuple[list[bytes], list[int]]:
+    """Canonical lines joined by LF of each text, as UTF-8, and the characters of each
+    (of the lines joined by spaces: the canonical text).
+
+    ``parallel=False`` runs in this thread only (for worker processes).
 
     >>> canonical_line_bytes(["  The ﬁle\\u2028IS  here ", "Straße"])
     ([b'the file\\nis here', b'strasse'], [16, 7])
@@ -100,23 +127,10 @@ def canonical_line_bytes(texts: list[str]) -> tuple[list[bytes], list[int]]:
         if not text.isascii():
             text = unicodedata.normalize("NFKC", text).casefold()
         encoded.append(text.encode("utf-8", "surrogatepass"))
-    out, offsets = packed_canonical_lines(*pack_bytes(encoded))
+    out, offsets, lengths, chars = _run(*pack_bytes(encoded), parallel)
     data = out.tobytes()
-    bounds = offsets.tolist()
-    characters = _characters(out, offsets).tolist()
-    return [data[bounds[k] : bounds[k + 1]] for k in range(len(encoded))], characters
-
-
-@njit(cache=True, parallel=True)
-def _characters(buf, offsets):
-    out = np.zeros(offsets.shape[0] - 1, dtype=np.int64)
-    for d in prange(offsets.shape[0] - 1):
-        n = 0
-        for i in range(offsets[d], offsets[d + 1]):
-            if (buf[i] & 0xC0) != 0x80:
-                n += 1
-        out[d] = n
-    return out
+    starts = offsets[:-1].tolist()
+    return [data[a : a + n] for a, n in zip(starts, lengths.tolist())], chars.tolist()
 
 
 def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -128,10 +142,7 @@ def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.nda
     >>> bytes(out), off.tolist()
     (b'the cat\\nsata', [0, 11, 12])
     """
-    offsets = np.asarray(offsets, dtype=np.int64)
-    out = np.empty(buf.shape[0], dtype=np.uint8)
-    lengths = np.empty(offsets.shape[0] - 1, dtype=np.int64)
-    _canonical(buf, offsets, out, lengths)
+    out, offsets, lengths, _ = _run(buf, offsets, True)
     new_offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
     np.cumsum(lengths, out=new_offsets[1:])
     result = np.empty(new_offsets[-1], dtype=np.uint8)

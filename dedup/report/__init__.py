@@ -16,7 +16,10 @@ from .files import (
 )
 from .html import render_html
 
-__all__ = ["write_outputs", "render_html"]
+__all__ = ["write_outputs", "render_html", "RECORD_LISTS"]
+
+# Lists of audit.json written one record per line.
+RECORD_LISTS = ("ledger", "documents", "exact_groups", "pairs", "clusters", "actions")
 
 
 def write_outputs(result, out_dir: str) -> dict[str, str]:
@@ -34,12 +37,12 @@ def write_outputs(result, out_dir: str) -> dict[str, str]:
             "run.json",
         )
     }
-    data = result.to_dict()
-    write_json(paths["audit.json"], data)
+    data = result.to_dict(lazy=True)
+    write_json(paths["audit.json"], data, RECORD_LISTS)
     write_csv(paths["pairs.csv"], result.pairs, PAIR_COLUMNS)
     write_csv(paths["clusters.csv"], cluster_rows(result.clusters), CLUSTER_COLUMNS)
     write_csv(paths["actions.csv"], result.actions, ACTION_COLUMNS)
-    write_csv(paths["ledger.csv"], [e.to_dict() for e in result.ledger], LEDGER_COLUMNS)
+    write_csv(paths["ledger.csv"], (e.to_dict() for e in result.ledger), LEDGER_COLUMNS)
     write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
     with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
         handle.write(render_html(result))

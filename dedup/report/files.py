@@ -12,6 +12,7 @@ import csv
 import io
 import json
 import os
+from collections.abc import Collection, Iterable
 
 __all__ = [
     "write_json",
@@ -60,25 +61,56 @@ def _cell(value) -> str:
     return str(value)
 
 
-def csv_text(rows: list[dict], columns: list[str]) -> str:
+def _write_rows(handle, rows: Iterable[dict], columns: list[str]) -> None:
+    writer = csv.writer(handle, lineterminator="\n")
+    writer.writerow(columns)
+    writer.writerows([_cell(row.get(c)) for c in columns] for row in rows)
+
+
+def csv_text(rows: Iterable[dict], columns: list[str]) -> str:
     """CSV with a header row, ``\\n`` line ends and minimal quoting."""
     buffer = io.StringIO()
-    writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(columns)
-    for row in rows:
-        writer.writerow([_cell(row.get(c)) for c in columns])
+    _write_rows(buffer, rows, columns)
     return buffer.getvalue()
 
 
-def write_csv(path: str, rows: list[dict], columns: list[str]) -> None:
+def write_csv(path: str, rows: Iterable[dict], columns: list[str]) -> None:
+    """`csv_text` written row by row (rows may be a generator: nothing is held whole)."""
     with open(path, "w", encoding="utf-8", newline="") as handle:
-        handle.write(csv_text(rows, columns))
+        _write_rows(handle, rows, columns)
 
 
-def write_json(path: str, data: dict) -> None:
+def write_json(path: str, data: dict, record_lists: Collection[str] = ()) -> None:
+    """JSON with one-space indents; the lists named in ``record_lists`` (top-level keys)
+    are written one record per line, streamed from any iterable.
+
+    A record per line keeps a file of a million documents readable with line tools and
+    lets it be written by the compiled encoder, record by record, without the whole
+    text in memory.
+    """
     with open(path, "w", encoding="utf-8", newline="\n") as handle:
-        json.dump(data, handle, ensure_ascii=False, indent=1, allow_nan=False)
-        handle.write("\n")
+        handle.write("{")
+        first = True
+        for key, value in data.items():
+            handle.write("\n " if first else ",\n ")
+            first = False
+            handle.write(json.dumps(key, ensure_ascii=False) + ": ")
+            if key in record_lists:
+                _write_records(handle, value)
+            else:
+                text = json.dumps(value, ensure_ascii=False, indent=1, allow_nan=False)
+                handle.write(text.replace("\n", "\n "))
+        handle.write("\n}\n" if not first else "}\n")
+
+
+def _write_records(handle, records: Iterable) -> None:
+    encode = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
+    empty = True
+    for record in records:
+        handle.write("[\n  " if empty else ",\n  ")
+        empty = False
+        handle.write(encode(record))
+    handle.write("[]" if empty else "\n ]")
 
 
 def cluster_rows(clusters: list[dict]) -> list[dict]:

@@ -341,7 +341,9 @@ class DocumentFrequency:
         cols = np.concatenate([c for c, _ in self._parts])
         counts = np.concatenate([k for _, k in self._parts])
         columns, inverse = np.unique(cols, return_inverse=True)
-        return columns, np.bincount(inverse.ravel(), weights=counts, minlength=columns.shape[0]).astype(np.int64)
+        return columns, np.bincount(inverse.ravel(), weights=counts, minlength=columns.shape[0]).astype(
+            np.int64
+        )
 
     def collision_stats(self) -> dict:
         """What `collision_stats` reports for the whole corpus."""

@@ -6,6 +6,8 @@ import os
 import shutil
 import tempfile
 
+import numpy as np
+
 from .store import ByteStore
 
 __all__ = ["WorkFolder"]
@@ -52,6 +54,9 @@ class WorkFolder:
         for store in self._stores:
             store.close()
         if self.keep:
+            # Where each stored text starts, so the kept stores can be read back.
+            for store in self._stores:
+                np.save(store.path[: -len(".bin")] + ".offsets.npy", store.offsets())
             return
         if self._created:
             shutil.rmtree(self.path, ignore_errors=True)

@@ -8,6 +8,7 @@ never grows the resident memory of the process beyond the slots just read.
 
 from __future__ import annotations
 
+import contextlib
 import mmap
 import os
 from array import array
@@ -48,6 +49,10 @@ class ByteStore:
     def size(self) -> int:
         """Bytes stored."""
         return self._starts[-1]
+
+    def offsets(self) -> np.ndarray:
+        """Start of every slot and the end of the last (``len(self) + 1`` values)."""
+        return np.frombuffer(self._starts, dtype=np.int64).copy()
 
     def sizes(self, slots) -> np.ndarray:
         """Length in bytes of each given slot."""
@@ -96,18 +101,14 @@ class ByteStore:
     def close(self) -> None:
         self._view = None
         if self._map is not None:
-            try:
+            # A caller may still hold a view of the map; it is then freed with that view.
+            with contextlib.suppress(BufferError):
                 self._map.close()
-            except BufferError:
-                # A caller still holds a view of the map; it is freed with that view.
-                pass
             self._map = None
         if not self._file.closed:
             self._file.close()
 
     def remove(self) -> None:
         self.close()
-        try:
+        with contextlib.suppress(FileNotFoundError):
             os.remove(self.path)
-        except FileNotFoundError:
-            pass

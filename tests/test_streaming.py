@@ -1,0 +1,191 @@
+"""The streaming passes give the same audit however the corpus is cut into chunks.
+
+The reference for each check is the one-shot computation over the whole corpus at once
+(`fit_tfidf`, `find_boilerplate` / `without_boilerplate` over Python strings, MinHash over
+sorted unique shingle sets), whose own checks against scikit-learn and datasketch live in
+tests/sketch.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import random
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import dedup
+from dedup import AuditSettings, streaming
+from dedup.features.shingles import features_from_buffer, pack_bytes, pack_texts
+from dedup.normalize.boilerplate import BoilerplateCounter, find_boilerplate, without_boilerplate
+from dedup.sketch import fit_tfidf, minhash_signatures
+from dedup.sketch.tfidf import DocumentFrequency
+
+WORDS = [
+    "meter",
+    "leave",
+    "fleet",
+    "token",
+    "portal",
+    "depot",
+    "reading",
+    "quarterly",
+    "estimate",
+    "calendar",
+    "keys",
+    "fuel",
+    "card",
+]
+
+
+def _bytes(path: str) -> bytes:
+    with open(path, "rb") as handle:
+        return handle.read()
+
+
+def _corpus(seed: int, n: int = 60) -> dict[str, str]:
+    rng = random.Random(seed)
+    footer = "Printed copies are not controlled documents; check the intranet before acting on them."
+    bases = [" ".join(rng.choice(WORDS) for _ in range(rng.randint(30, 90))) for _ in range(n // 3)]
+    files = {}
+    for k in range(n):
+        words = bases[k % len(bases)].split()
+        if k >= len(bases):  # an edited copy
+            words[rng.randrange(len(words))] = "edited"
+        body = "\n".join(" ".join(words[i : i + 12]) for i in range(0, len(words), 12))
+        files[f"kb/a{k:03d}.txt"] = body + ("\n" + footer if k % 2 else "")
+    files["kb/empty.txt"] = ""
+    files["kb/punct.txt"] = "-- ... !!"
+    files["kb/same.txt"] = files["kb/a001.txt"]
+    return files
+
+
+@pytest.mark.parametrize("candidates", ["lsh", "exhaustive"])
+def test_tiny_chunks_give_byte_identical_outputs(write_corpus, tmp_path, monkeypatch, candidates):
+    root = write_corpus(_corpus(3))
+    s = AuditSettings(candidates=candidates, threshold=0.7, boilerplate_min_texts=3)
+    whole = dedup.audit([str(root)], s).write(str(tmp_path / "whole"))
+    for name, value in [("BATCH_DOCUMENTS", 2), ("CHUNK_TEXTS", 3), ("CHUNK_BYTES", 50)]:
+        monkeypatch.setattr(streaming, name, value)
+    cut = dedup.audit([str(root)], s).write(str(tmp_path / "cut"))
+    for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
+        assert _bytes(whole[name]) == _bytes(cut[name]), name
+    data = json.loads(_bytes(whole["audit.json"]))
+    assert data["summary"]["clusters"] > 0 and data["boilerplate"]["lines"] >= 1
+
+
+def test_work_folder_is_removed_or_kept(write_corpus, tmp_path):
+    root = write_corpus(_corpus(4, 12))
+    work = tmp_path / "work"
+    dedup.audit([str(root)], AuditSettings(candidates="lsh"), work_dir=str(work))
+    assert not work.exists()
+    dedup.audit([str(root)], AuditSettings(candidates="lsh"), work_dir=str(work), keep_work=True)
+    assert {"originals.bin", "canonical.bin", "signatures.u32"} <= set(os.listdir(work))
+
+
+def test_cli_work_folder_is_under_the_output_and_removed(write_corpus, tmp_path):
+    from dedup.cli import main
+
+    root = write_corpus(_corpus(5, 12))
+    out = tmp_path / "out"
+    assert main(["audit", str(root), "--out", str(out), "--quiet"]) == 0
+    assert ".dedup-work" not in os.listdir(out)
+    assert main(["audit", str(root), "--out", str(out), "--quiet", "--keep-work"]) == 0
+    assert "originals.offsets.npy" in os.listdir(out / ".dedup-work")
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(st.lists(st.integers(0, 40), max_size=30), min_size=1, max_size=25),
+    st.integers(1, 7),
+    st.sampled_from([64, 2**30]),
+)
+def test_document_frequency_in_chunks_equals_fit_tfidf(docs, chunk, n_features):
+    """Reference: `fit_tfidf` over all documents at once (itself checked against scikit-learn)."""
+    hashes = np.asarray([t * 0x9E3779B97F4A7C15 % 2**64 for d in docs for t in d], dtype=np.uint64)
+    offsets = np.zeros(len(docs) + 1, np.int64)
+    np.cumsum([len(d) for d in docs], out=offsets[1:])
+    ref = fit_tfidf(hashes, offsets, n_features=n_features)
+    df = DocumentFrequency(n_features)
+    for start in range(0, len(docs), chunk):
+        stop = min(start + chunk, len(docs))
+        df.add(hashes[offsets[start] : offsets[stop]], offsets[start : stop + 1] - offsets[start])
+    model = df.model(hashes, offsets)
+    assert model.rows.shape == ref.rows.shape
+    assert abs(model.rows - ref.rows).max() < 1e-12 if ref.rows.nnz else model.rows.nnz == 0
+    assert model.columns.tolist() == ref.columns.tolist()
+    assert np.allclose(model.column_idf, ref.column_idf)
+
+
+def test_minhash_of_repeated_shingles_equals_minhash_of_the_set():
+    """A minimum does not change when values repeat (common practice, no source)."""
+    texts = ["a b c d e f a b c d e f a b c d e f", "x y z", "one two three four five six seven"]
+    buf, offsets = pack_texts(texts)
+    sets = features_from_buffer(buf, offsets)
+    raw = features_from_buffer(buf, offsets, distinct=False)
+    assert raw.shingles.shape[0] > sets.shingles.shape[0]
+    a = minhash_signatures(sets.shingles, sets.shingle_offsets).values
+    b = minhash_signatures(raw.shingles, raw.shingle_offsets).values
+    assert np.array_equal(a, b)
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(
+        st.lists(
+            st.sampled_from(["notice", "footer two", "x", "é ß"])
+            | st.text("abc ", min_size=1, max_size=6).map(lambda s: " ".join(s.split()) or "w"),
+            min_size=1,
+            max_size=6,
+        ),
+        min_size=1,
+        max_size=30,
+    ),
+    st.integers(1, 9),
+    st.floats(0.3, 0.7),
+)
+def test_compiled_boilerplate_equals_the_string_rules(texts, chunk, max_share):
+    """Reference: `find_boilerplate` and `without_boilerplate` over Python strings."""
+    ref, limit = find_boilerplate(texts, share=0.05, min_texts=2, known=["x", "never seen"])
+    counter = BoilerplateCounter()
+    for start in range(0, len(texts), chunk):
+        counter.add(*pack_bytes(["\n".join(t).encode() for t in texts[start : start + chunk]]))
+    found = counter.find(share=0.05, min_texts=2, known=["x", "never seen"])
+    out, out_offsets, discounted, _ = found.strip(
+        *pack_bytes(["\n".join(t).encode() for t in texts]), max_share
+    )
+    assert found.limit == limit
+    for k, lines in enumerate(texts):
+        text, was = without_boilerplate(lines, ref, max_share)
+        assert bytes(out[out_offsets[k] : out_offsets[k + 1]]).decode() == text
+        assert bool(discounted[k]) == was
+    assert sorted((r["text"], r["texts"]) for r in found.top(1000)) == sorted(ref.items())
+
+
+def test_worker_processes_give_byte_identical_outputs(write_corpus, tmp_path):
+    files = _corpus(6, 90)
+    files["kb/records.jsonl"] = "\n".join(
+        json.dumps({"id": f"r{k}", "text": files[f"kb/a{k:03d}.txt"]}) for k in range(5)
+    )
+    files["kb/bad.txt"] = b"\xff\xfe\x00\x00broken"
+    root = write_corpus(files)
+    s = AuditSettings(candidates="lsh", threshold=0.7)
+    one = dedup.audit([str(root)], s, workers=1).write(str(tmp_path / "one"))
+    two = dedup.audit([str(root)], s, workers=2).write(str(tmp_path / "two"))
+    for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
+        assert _bytes(one[name]) == _bytes(two[name]), name
+    summary = json.loads(_bytes(one["audit.json"]))["summary"]
+    assert summary["inputs"]["files"] == len(files) and summary["clusters"] > 0
+
+
+def test_cli_rejects_a_bad_worker_count(write_corpus, tmp_path, capsys):
+    from dedup.cli import main
+
+    root = write_corpus(_corpus(7, 6))
+    with pytest.raises(SystemExit) as stop:
+        main(["audit", str(root), "--out", str(tmp_path / "o"), "--workers", "0"])
+    assert stop.value.code == 2
+    assert "must be at least 1" in capsys.readouterr().err
