@@ -132,7 +132,8 @@ def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None
             except UnicodeDecodeError as err:
                 return None, name, f"not valid {name} text: byte {err.start + len(bom)} cannot be decoded"
             return _checked(text, name, len(bom))
-    wide = _unmarked_wide(data)
+    # Without a NUL byte in the sample the bytes cannot be unmarked UTF-16 or UTF-32.
+    wide = _unmarked_wide(data) if b"\x00" in data[:_SAMPLE] else None
     if wide is not None:
         text = _strict(data, wide)
         if text is not None:

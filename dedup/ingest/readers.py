@@ -213,6 +213,8 @@ def _read_archive(
 # -- every format -------------------------------------------------------------------------
 def _clean(value: str) -> str:
     # JSON escapes can produce lone surrogates, which no UTF-8 output can hold.
+    if value.isascii():
+        return value
     try:
         value.encode("utf-8")
     except UnicodeEncodeError:
@@ -239,7 +241,7 @@ def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> O
         entry.reason = (
             f"text cut to {opts.max_text_chars:,} of {length:,} characters (raise --max-text-chars)"
         )
-    elif not doc.text.strip() and entry.status == "read":
+    elif (not doc.text or doc.text.isspace()) and entry.status == "read":
         entry.status, entry.reason = "empty", "no text"
     return doc, entry
 

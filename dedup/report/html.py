@@ -86,15 +86,18 @@ def report_data(result) -> dict:
             documents.append([doc_id, d["title"], d["bytes"], d["content_hash"]])
         return doc_index[doc_id]
 
-    near_by_pair = {}
+    # Pairs by the cluster of their documents, found once (not per cluster).
+    cluster_of = {m["document_id"]: c["id"] for c in result.clusters for m in c["members"]}
+    pairs_of: dict[str, dict[tuple[str, str], dict]] = {}
     for p in result.pairs:
-        near_by_pair[(p["left"], p["right"])] = p
+        home = cluster_of.get(p["left"])
+        if home is not None and home == cluster_of.get(p["right"]):
+            pairs_of.setdefault(home, {})[(p["left"], p["right"])] = p
     clusters = []
     evidence_pairs: list[tuple[int, int]] = []
     for c in result.clusters:
         keeper = index_of(c["keeper"])
         members = []
-        member_ids = {m["document_id"] for m in c["members"]}
         for m in c["members"]:
             i = index_of(m["document_id"])
             sim = m["similarity_to_keeper"] or {}
@@ -115,11 +118,10 @@ def report_data(result) -> dict:
             if i != keeper:
                 evidence_pairs.append((i, keeper))
         edges = []
-        for (a, b), p in near_by_pair.items():
-            if a in member_ids and b in member_ids:
-                ia, ib = index_of(a), index_of(b)
-                edges.append([ia, ib, p["deciding_score"], p["kind"]])
-                evidence_pairs.append((ia, ib))
+        for (a, b), p in pairs_of.get(c["id"], {}).items():
+            ia, ib = index_of(a), index_of(b)
+            edges.append([ia, ib, p["deciding_score"], p["kind"]])
+            evidence_pairs.append((ia, ib))
         clusters.append(
             [
                 c["id"],
