@@ -28,7 +28,7 @@ from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
 from .progress import Progress
 from .settings import AuditSettings
-from .streaming import compared_sets, prepare_documents, read_pass, sketch_pass
+from .streaming import SlotRows, compared_sets, prepare_documents, read_pass, sketch_pass
 from .verify import PairScores, deciding_score, score_pairs
 from .workdir import WorkFolder
 
@@ -330,10 +330,12 @@ def _audit(
     exact_reps = np.asarray([doc_to_rep[g[0]] for g in groups], dtype=np.int64)
     progress.start("candidates")
     if method == "lsh":
-        signatures = (
+        # Signatures were spilled in store order; only members of oversize buckets are read back.
+        signatures = SlotRows(
             np.memmap(sketch.signature_file, dtype=np.uint32, mode="r", shape=(n_reps, settings.num_perm))
             if n_reps
-            else np.zeros((0, settings.num_perm), np.uint32)
+            else np.zeros((0, settings.num_perm), np.uint32),
+            rep_slots,
         )
         left, right, oversize = lsh_candidate_pairs(
             signatures, bands, rows, settings.bucket_limit, keys=sketch.keys

@@ -64,11 +64,14 @@ def prepare_documents(documents: list, parallel: bool = False) -> None:
     ``doc.text`` is emptied (the bytes carry it). Runs where the documents are read — in
     worker processes when there are workers — so the text crosses between processes once.
     """
-    stored_of, chars_of = canonical_line_bytes([doc.text for doc in documents], parallel=parallel)
-    for doc, stored, characters in zip(documents, stored_of, chars_of):
+    originals = [doc.text.encode("utf-8", "surrogatepass") for doc in documents]
+    stored_of, chars_of = canonical_line_bytes(
+        [doc.text for doc in documents], parallel=parallel, encoded=originals
+    )
+    for doc, original, stored, characters in zip(documents, originals, stored_of, chars_of):
         # The canonical text is the canonical lines joined by spaces.
         digest = content_hash(stored.replace(b"\n", b" "))
-        doc.prepared = (doc.text.encode("utf-8", "surrogatepass"), stored, characters, digest)
+        doc.prepared = (original, stored, characters, digest)
         doc.text = ""
 
 
@@ -122,13 +125,15 @@ def read_pass(
         if not pending:
             return
         buf, offsets = pack_bytes([stored for _, stored in pending])
-        words = tokenize.count_words(buf, offsets, table)
-        has_words = words > 0
+        has_words = tokenize.has_words(buf, offsets, table)
+        keep = []
         for (h, stored), ok in zip(pending, has_words.tolist()):
             if ok:
-                slots[h] = canonicals.append(stored)
+                slots[h] = len(canonicals) + len(keep)
+                keep.append(stored)
             else:
                 wordless.add(h)
+        canonicals.extend(keep)
         if counter is not None and has_words.any():
             picks = np.flatnonzero(has_words)
             counter.add(*tokenize.gather_segments(buf, offsets, picks))
@@ -144,6 +149,7 @@ def read_pass(
         todo = [doc for doc in batch if doc.prepared is None]
         if todo:
             prepare_documents(todo, parallel=True)
+        originals.extend([doc.prepared[0] for doc in batch])
         for doc in batch:
             original, stored, characters, digest = doc.prepared
             doc.prepared = None
@@ -160,7 +166,6 @@ def read_pass(
             if with_dates:
                 value = doc.metadata.get(settings.date_field) if settings.date_field else doc.mtime
                 record["date"] = _date_of(value)
-            originals.append(original)
             records.append(record)
             if stored and digest not in seen:
                 seen.add(digest)
@@ -231,6 +236,30 @@ def _feature_texts(buf, offsets, boilerplate: Boilerplate | None, settings):
     return boilerplate.strip(buf, offsets, settings.boilerplate_max_text_share)
 
 
+def _runs(n: int, store: ByteStore):
+    """Consecutive slot ranges ``(start, stop)`` of at most `CHUNK_TEXTS` texts and
+    `CHUNK_BYTES` bytes (or one text, when a single text is larger)."""
+    ends = np.cumsum(store.sizes(np.arange(n)))
+    start = 0
+    while start < n:
+        before = ends[start - 1] if start else 0
+        stop = int(np.searchsorted(ends, before + CHUNK_BYTES, side="right"))
+        stop = min(max(stop, start + 1), start + CHUNK_TEXTS, n)
+        yield start, stop
+        start = stop
+
+
+class SlotRows:
+    """Rows of an array stored in slot order, indexed by distinct-text number."""
+
+    def __init__(self, rows: np.ndarray, slot_of: np.ndarray) -> None:
+        self.rows, self.slot_of = rows, slot_of
+        self.shape = (slot_of.shape[0], *rows.shape[1:])
+
+    def __getitem__(self, texts):
+        return np.asarray(self.rows[self.slot_of[texts]])
+
+
 def sketch_pass(
     slots: np.ndarray,
     canonicals: ByteStore,
@@ -242,22 +271,31 @@ def sketch_pass(
     progress: Progress,
 ) -> SketchResult:
     """Document frequencies of every distinct text, and with ``lsh=(bands, rows)`` their
-    band keys (kept) and MinHash signatures (spilled to ``signature_path``)."""
+    band keys (kept) and MinHash signatures (spilled to ``signature_path`` in slot order).
+
+    ``slots[t]`` is the store slot of distinct text ``t``; every slot is one distinct
+    text, so the store is read front to back, one chunk at a time, without a copy.
+    """
+    n = int(slots.shape[0])
+    text_of_slot = np.empty(n, dtype=np.int64)
+    text_of_slot[slots] = np.arange(n)
     frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
-    keys = np.empty((slots.shape[0], lsh[0]), dtype=np.uint64) if lsh else None
+    keys = np.empty((n, lsh[0]), dtype=np.uint64) if lsh else None
     affected = whole = 0
     with open(signature_path, "wb") if lsh else _NoFile() as sig_out:
-        for start, stop, (buf, offsets) in _chunks(slots, canonicals):
+        for start, stop in _runs(n, canonicals):
+            buf, offsets = canonicals.view(start, stop)
             buf, offsets, discounted, protected = _feature_texts(buf, offsets, boilerplate, settings)
             if discounted is not None:
                 affected += int(discounted.sum())
                 whole += int(protected.sum())
             features = features_with(settings, buf, offsets, distinct=False)
             del buf
+            canonicals.release()
             frequencies.add(features.token_hashes, features.token_offsets)
             if lsh:
                 values = signatures_with(settings, features).values
-                keys[start:stop] = band_keys(values, lsh[0], lsh[1])
+                keys[text_of_slot[start:stop]] = band_keys(values, lsh[0], lsh[1])
                 sig_out.write(values.tobytes())
             progress.advance(stop - start)
     return SketchResult(frequencies, keys, signature_path if lsh else None, affected, whole)
@@ -300,24 +338,37 @@ def compared_sets(
     needed = np.asarray(needed, dtype=np.int64)
     local = np.full(n_texts, -1, dtype=np.int64)
     local[needed] = np.arange(needed.shape[0])
-    parts_sh, parts_counts, parts_rows = [], [], []
+    picked = slots[needed]
+    # A text of b bytes has at most b + 1 shingles and terms: room for all of them is
+    # reserved up front (pages never written are never resident) and filled chunk by
+    # chunk, so no list of parts is joined at the end (which would hold everything twice).
+    room = int(canonicals.sizes(picked).sum()) + needed.shape[0] + 1
+    shingles = np.empty(room, dtype=np.uint64)
+    indices = np.empty(room, dtype=np.int32 if frequencies.n_features <= 2**31 else np.int64)
+    data = np.empty(room, dtype=np.float64)
+    shingle_offsets = np.zeros(needed.shape[0] + 1, dtype=np.int64)
+    indptr = np.zeros(needed.shape[0] + 1, dtype=np.int64)
+    done = used_sh = used_nz = 0
     model = None
-    for _, _, (buf, offsets) in _chunks(slots[needed], canonicals):
+    for _, _, (buf, offsets) in _chunks(picked, canonicals):
         buf, offsets, _, _ = _feature_texts(buf, offsets, boilerplate, settings)
         features = features_with(settings, buf, offsets)
-        parts_sh.append(features.shingles)
-        parts_counts.append(np.diff(features.shingle_offsets))
+        n = int(offsets.shape[0] - 1)
+        k = int(features.shingles.shape[0])
+        shingles[used_sh : used_sh + k] = features.shingles
+        shingle_offsets[done + 1 : done + n + 1] = used_sh + features.shingle_offsets[1:]
         model = frequencies.model(features.token_hashes, features.token_offsets)
-        parts_rows.append(model.rows)
+        rows = model.rows
+        indices[used_nz : used_nz + rows.nnz] = rows.indices
+        data[used_nz : used_nz + rows.nnz] = rows.data
+        indptr[done + 1 : done + n + 1] = used_nz + rows.indptr[1:]
+        done, used_sh, used_nz = done + n, used_sh + k, used_nz + rows.nnz
         if progress:
-            progress(int(offsets.shape[0] - 1))
+            progress(n)
     if model is None:
         model = frequencies.model(np.zeros(0, np.uint64), np.zeros(1, np.int64))
-        parts_rows = [model.rows]
-    shingles = np.concatenate(parts_sh) if parts_sh else np.zeros(0, np.uint64)
-    counts = np.concatenate(parts_counts) if parts_counts else np.zeros(0, np.int64)
-    offsets = np.zeros(counts.shape[0] + 1, dtype=np.int64)
-    np.cumsum(counts, out=offsets[1:])
-    rows = sp.vstack(parts_rows, format="csr") if len(parts_rows) > 1 else parts_rows[0]
-    model = TfidfModel(rows.tocsr(), model.columns, model.column_idf, model.unseen_idf, model.sublinear_tf)
-    return ComparedSets(local, shingles, offsets, model)
+    matrix = sp.csr_matrix(
+        (data[:used_nz], indices[:used_nz], indptr), shape=(needed.shape[0], frequencies.n_features)
+    )
+    model = TfidfModel(matrix, model.columns, model.column_idf, model.unseen_idf, model.sublinear_tf)
+    return ComparedSets(local, shingles[:used_sh], shingle_offsets, model)

@@ -17,7 +17,7 @@ from numba import njit, prange
 
 from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
 
-__all__ = ["word_table", "count_words", "word_hashes", "gather_segments"]
+__all__ = ["word_table", "has_words", "count_words", "word_hashes", "gather_segments"]
 
 _MAX_CODE_POINT = 0x110000
 
@@ -46,6 +46,23 @@ def _decode(buf, i, stop):
     if b0 >= 0xC0 and i + 1 < stop:
         return ((b0 & 0x1F) << 6) | (np.int64(buf[i + 1]) & 0x3F), 2
     return -1, 1
+
+
+@njit(cache=True, parallel=True)
+def has_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """Whether each document has a word; stops at the first letter or digit."""
+    n_docs = doc_offsets.shape[0] - 1
+    found = np.zeros(n_docs, dtype=np.bool_)
+    for d in prange(n_docs):
+        i = doc_offsets[d]
+        stop = doc_offsets[d + 1]
+        while i < stop:
+            cp, length = _decode(buf, i, stop)
+            if cp >= 0 and cp < table.shape[0] and table[cp] == 1:
+                found[d] = True
+                break
+            i += length
+    return found
 
 
 @njit(cache=True, parallel=True)

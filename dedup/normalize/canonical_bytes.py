@@ -113,21 +113,25 @@ def _run(buf, offsets, parallel):
     return out, offsets, lengths, chars
 
 
-def canonical_line_bytes(texts: list[str], parallel: bool = True) -> tuple[list[bytes], list[int]]:
+def canonical_line_bytes(
+    texts: list[str], parallel: bool = True, encoded: list[bytes] | None = None
+) -> tuple[list[bytes], list[int]]:
     """Canonical lines joined by LF of each text, as UTF-8, and the characters of each
     (of the lines joined by spaces: the canonical text).
 
-    ``parallel=False`` runs in this thread only (for worker processes).
+    ``parallel=False`` runs in this thread only (for worker processes). ``encoded``, the
+    texts' UTF-8 bytes when the caller has them already, saves encoding ASCII texts again.
 
     >>> canonical_line_bytes(["  The ﬁle\\u2028IS  here ", "Straße"])
     ([b'the file\\nis here', b'strasse'], [16, 7])
     """
-    encoded = []
-    for text in texts:
-        if not text.isascii():
-            text = unicodedata.normalize("NFKC", text).casefold()
-        encoded.append(text.encode("utf-8", "surrogatepass"))
-    out, offsets, lengths, chars = _run(*pack_bytes(encoded), parallel)
+    prepared = []
+    for k, text in enumerate(texts):
+        if text.isascii():
+            prepared.append(encoded[k] if encoded is not None else text.encode("ascii"))
+        else:
+            prepared.append(unicodedata.normalize("NFKC", text).casefold().encode("utf-8", "surrogatepass"))
+    out, offsets, lengths, chars = _run(*pack_bytes(prepared), parallel)
     data = out.tobytes()
     starts = offsets[:-1].tolist()
     return [data[a : a + n] for a, n in zip(starts, lengths.tolist())], chars.tolist()

@@ -37,17 +37,24 @@ def exact_groups(hashes: Sequence[str]) -> tuple[np.ndarray, list[list[int]]]:
 
     Notes
     -----
-    O(n) with a dictionary.
+    O(n) with a dictionary, plus a sort of the copies.
 
     >>> exact_groups(["a", "b", "a"])[1]
     [[0, 2]]
     """
     first: dict[str, int] = {}
-    representative = np.empty(len(hashes), dtype=np.int64)
-    members: dict[int, list[int]] = {}
-    for i, h in enumerate(hashes):
-        rep = first.setdefault(h, i)
-        representative[i] = rep
-        members.setdefault(rep, []).append(i)
-    groups = [m for _, m in sorted(members.items()) if len(m) > 1]
+    setdefault = first.setdefault
+    representative = np.fromiter(
+        (setdefault(h, i) for i, h in enumerate(hashes)), dtype=np.int64, count=len(hashes)
+    )
+    copies = np.flatnonzero(representative != np.arange(len(hashes)))
+    if copies.shape[0] == 0:
+        return representative, []
+    # Group the copies by representative (stable: members stay in document order).
+    order = np.argsort(representative[copies], kind="stable")
+    copies, reps = copies[order], representative[copies][order]
+    starts = np.flatnonzero(np.concatenate(([True], reps[1:] != reps[:-1])))
+    bounds = np.append(starts, reps.shape[0]).tolist()
+    copy_list, rep_list = copies.tolist(), reps.tolist()
+    groups = [[rep_list[a], *copy_list[a:b]] for a, b in zip(bounds[:-1], bounds[1:])]
     return representative, groups

@@ -14,7 +14,7 @@ from .files import (
     write_csv,
     write_json,
 )
-from .html import render_html
+from .html import iter_html, render_html
 
 __all__ = ["write_outputs", "render_html", "RECORD_LISTS"]
 
@@ -45,5 +45,5 @@ def write_outputs(result, out_dir: str) -> dict[str, str]:
     write_csv(paths["ledger.csv"], (e.to_dict() for e in result.ledger), LEDGER_COLUMNS)
     write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
     with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
-        handle.write(render_html(result))
+        handle.writelines(iter_html(result))
     return paths

@@ -17,6 +17,7 @@ import base64
 import hashlib
 import json
 import os
+from collections.abc import Iterator
 from functools import lru_cache
 
 import jinja2
@@ -25,7 +26,7 @@ from .._version import __version__
 from . import charts
 from .evidence import pair_evidence
 
-__all__ = ["render_html", "report_data", "template_folder", "embed_json"]
+__all__ = ["render_html", "iter_html", "report_data", "template_folder", "embed_json", "iter_embed_json"]
 
 # Evidence is precomputed for at most this many pairs; beyond, the report says so.
 MAX_EVIDENCE_PAIRS = 50_000
@@ -61,7 +62,37 @@ def _environment() -> jinja2.Environment:
 
 def embed_json(data: object) -> str:
     """JSON that is safe inside a ``<script>`` element: it can never close the element."""
-    text = json.dumps(data, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    return _script_safe(json.dumps(data, ensure_ascii=False, separators=(",", ":"), allow_nan=False))
+
+
+def iter_embed_json(data: dict) -> Iterator[str]:
+    """`embed_json` of a dict in pieces: each member of a top-level list or dict is
+    encoded on its own (by the compiled encoder), so the whole text is never held.
+
+    >>> "".join(iter_embed_json({"a": [1, "</script>"], "b": {"k": None}, "c": 2})) == embed_json(
+    ...     {"a": [1, "</script>"], "b": {"k": None}, "c": 2})
+    True
+    """
+    encode = json.JSONEncoder(ensure_ascii=False, separators=(",", ":"), allow_nan=False).encode
+    yield "{"
+    for n, (key, value) in enumerate(data.items()):
+        yield ("," if n else "") + _script_safe(encode(key)) + ":"
+        if isinstance(value, list):
+            yield "["
+            for k, item in enumerate(value):
+                yield ("," if k else "") + _script_safe(encode(item))
+            yield "]"
+        elif isinstance(value, dict):
+            yield "{"
+            for k, (inner, item) in enumerate(value.items()):
+                yield ("," if k else "") + _script_safe(encode(str(inner))) + ":" + _script_safe(encode(item))
+            yield "}"
+        else:
+            yield _script_safe(encode(value))
+    yield "}"
+
+
+def _script_safe(text: str) -> str:
     return (
         text.replace("&", "\\u0026")
         .replace("<", "\\u003c")
@@ -172,6 +203,15 @@ def _csp_hash(script: str) -> str:
 
 def render_html(result) -> str:
     """The report for an `AuditResult` as an HTML string."""
+    return "".join(iter_html(result))
+
+
+# Stands for the data block while the page around it is rendered.
+_DATA_MARK = "\u0000audit-data\u0000"
+
+
+def iter_html(result) -> Iterator[str]:
+    """The report in pieces, for writing without holding the page (it can be large)."""
     env = _environment()
     folder = template_folder()
     with open(os.path.join(folder, "report.js"), encoding="utf-8") as handle:
@@ -185,15 +225,19 @@ def render_html(result) -> str:
         charts.s_curve(recall["bands"], recall["rows"], result.candidates["lsh_threshold"]),
         charts.cluster_sizes([c["size"] for c in result.clusters]),
     ]
-    return env.get_template("report.html.j2").render(
+    page = env.get_template("report.html.j2").render(
         result=result,
         settings=result.settings.to_dict(),
         version=__version__,
         generated=result.run.get("started", ""),
         charts=chart_svgs,
-        data_json=embed_json(report_data(result)),
+        data_json=_DATA_MARK,
         script=script,
         style=style,
         script_hash=_csp_hash(script),
         style_hash=_csp_hash(style),
     )
+    before, after = page.split(_DATA_MARK)
+    yield before
+    yield from iter_embed_json(report_data(result))
+    yield after

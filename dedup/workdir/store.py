@@ -68,6 +68,18 @@ class ByteStore:
         self._starts.append(self._starts[-1] + len(data))
         return len(self._starts) - 2
 
+    def extend(self, items: list[bytes]) -> int:
+        """Store several byte strings with one write; returns the slot of the first."""
+        if self._map is not None:
+            raise RuntimeError("the store has been read from; it takes no more writes")
+        first = len(self._starts) - 1
+        self._file.write(b"".join(items))
+        end = self._starts[-1]
+        for item in items:
+            end += len(item)
+            self._starts.append(end)
+        return first
+
     def _open_view(self) -> np.ndarray:
         if self._view is None:
             self._file.close()
@@ -86,6 +98,16 @@ class ByteStore:
         buf, offsets = gather_segments(view, starts, np.asarray(slots, dtype=np.int64))
         self.release()
         return buf, offsets
+
+    def view(self, start: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
+        """Slots ``start:stop`` as a read-only view of the file (no copy) with offsets from 0.
+
+        Call `release` when done with the view, so its pages leave the process.
+        """
+        view = self._open_view()
+        starts = np.frombuffer(self._starts, dtype=np.int64)
+        a, b = int(starts[start]), int(starts[stop])
+        return view[a:b], starts[start : stop + 1] - a
 
     def get(self, slot: int) -> bytes:
         """One stored byte string."""
