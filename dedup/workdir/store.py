@@ -41,6 +41,7 @@ class ByteStore:
         self._starts = array("q", [0])
         self._map: mmap.mmap | None = None
         self._view: np.ndarray | None = None
+        self._reader: int | None = None
 
     def __len__(self) -> int:
         return len(self._starts) - 1
@@ -110,10 +111,13 @@ class ByteStore:
         return view[a:b], starts[start : stop + 1] - a
 
     def get(self, slot: int) -> bytes:
-        """One stored byte string."""
-        view = self._open_view()
-        data = view[self._starts[slot] : self._starts[slot + 1]].tobytes()
-        return data
+        """One stored byte string (read from the file, not the map: scattered reads of a
+        large store would otherwise leave their pages resident)."""
+        self._open_view()
+        if self._reader is None:
+            self._reader = os.open(self.path, os.O_RDONLY)
+        start = self._starts[slot]
+        return os.pread(self._reader, self._starts[slot + 1] - start, start)
 
     def release(self) -> None:
         """Give the mapped pages back to the system (they stay in the page cache)."""
@@ -122,6 +126,9 @@ class ByteStore:
 
     def close(self) -> None:
         self._view = None
+        if self._reader is not None:
+            os.close(self._reader)
+            self._reader = None
         if self._map is not None:
             # A caller may still hold a view of the map; it is then freed with that view.
             with contextlib.suppress(BufferError):
