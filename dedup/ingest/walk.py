@@ -92,9 +92,12 @@ def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -
             )
             continue
         subfolders = []
+        # Ids of the children: the folder's id once, then one component per child.
+        folder_rel = _rel(folder, base)
+        prefix = "" if folder_rel == "." else folder_rel + "/"
         for child in children:
-            rel = _rel(child.path, base)
             name = clean_name(child.name)
+            rel = prefix + name
             try:
                 if child.is_symlink() and child.is_dir(follow_symlinks=True):
                     # Never followed: a link to a folder can make a loop or leave the tree.
