@@ -116,11 +116,11 @@ class AuditResult:
             **({"delta": self.delta} if self.delta is not None else {}),
         }
 
-    def write(self, out_dir: str) -> dict[str, str]:
+    def write(self, out_dir: str, progress: Progress | None = None) -> dict[str, str]:
         """Write every output file into ``out_dir``; returns name → path."""
         from .report import write_outputs
 
-        return write_outputs(self, out_dir)
+        return write_outputs(self, out_dir, progress=progress)
 
 
 NOTICE = (

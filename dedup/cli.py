@@ -435,7 +435,7 @@ def _run_audit(args: argparse.Namespace) -> int:
             return EXIT_USAGE
         result.delta = delta
     try:
-        paths = result.write(out)
+        paths = result.write(out, progress)
     except OSError as err:
         print(f"dedup: error: cannot write the outputs into {out}: {err}", file=sys.stderr)
         return EXIT_USAGE

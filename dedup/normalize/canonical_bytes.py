@@ -7,20 +7,43 @@ where ``str.splitlines`` splits (LF, CR, VT, FF, FS, GS, RS, NEL, LS, PS), runs 
 spaces) become one space, empty lines are dropped, A–Z are lower-cased. The result is
 the lines joined by LF; replacing LF by a space gives the canonical text.
 
-Unicode NFKC and case folding stay in Python (``unicodedata`` and ``str.casefold``),
-applied before: for a text of ASCII characters only both change nothing but the case
-of A–Z, so ASCII texts go straight from their bytes.
+Unicode NFKC stays in Python (``unicodedata``), applied first to texts that are not
+ASCII (for ASCII it changes nothing). Case folding is done in the kernel by a table of
+``str.casefold`` for every code point below U+20000 that folds to one code point; a text
+with a character outside the table, or one that folds to several (ß → ss), is folded by
+``str.casefold`` in Python instead — so the result is always Python's.
 """
 
 from __future__ import annotations
 
 import unicodedata
+from functools import lru_cache
 
 import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
 from ..features.tokenize import _decode
+
+# Code points below this have a place in the case-folding table.
+_FOLD_LIMIT = 0x20000
+
+
+@lru_cache(maxsize=1)
+def fold_table() -> np.ndarray:
+    """``ord(chr(c).casefold())`` for every code point below `_FOLD_LIMIT`; -1 where the
+    fold is several code points."""
+    table = np.arange(_FOLD_LIMIT, dtype=np.int32)
+    for c in range(0x80, _FOLD_LIMIT):
+        folded = chr(c).casefold()
+        if len(folded) != 1:
+            table[c] = -1
+        elif folded != chr(c):
+            table[c] = ord(folded)
+    return table
+
+
+_NO_FOLD = np.zeros(0, dtype=np.int32)
 
 __all__ = ["packed_canonical_lines", "canonical_line_bytes"]
 
@@ -42,10 +65,34 @@ def _kind(c):
 
 
 @njit(cache=True, inline="always")
-def _canonical_one(buf, a, b, out):
-    # Text buf[a:b] → its canonical lines written at out[a:]; returns (bytes, characters).
-    w = a
+def _put(out, w, f):
+    # UTF-8 of code point f at out[w]; returns the new end.
+    if f < 0x80:
+        out[w] = f
+        return w + 1
+    if f < 0x800:
+        out[w] = 0xC0 | (f >> 6)
+        out[w + 1] = 0x80 | (f & 0x3F)
+        return w + 2
+    if f < 0x10000:
+        out[w] = 0xE0 | (f >> 12)
+        out[w + 1] = 0x80 | ((f >> 6) & 0x3F)
+        out[w + 2] = 0x80 | (f & 0x3F)
+        return w + 3
+    out[w] = 0xF0 | (f >> 18)
+    out[w + 1] = 0x80 | ((f >> 12) & 0x3F)
+    out[w + 2] = 0x80 | ((f >> 6) & 0x3F)
+    out[w + 3] = 0x80 | (f & 0x3F)
+    return w + 4
+
+
+@njit(cache=True, inline="always")
+def _canonical_one(buf, a, b, out, start, fold):
+    # Text buf[a:b] → its canonical lines written at out[start:]; returns (bytes,
+    # characters, needs Python folding). An empty ``fold`` table folds nothing but A–Z.
+    w = start
     chars = 0
+    unfolded = False
     in_line = False  # the current output line has a word
     space = False  # whitespace seen since the last word of the line
     newline = False  # a finished line waits for its separator
@@ -53,8 +100,9 @@ def _canonical_one(buf, a, b, out):
     while i < b:
         c = buf[i]
         n = 1
+        cp = np.int64(c)
         if c < 0x80:
-            k = _kind(np.int64(c))
+            k = _kind(cp)
         else:
             cp, n = _decode(buf, i, b)
             k = _kind(cp)
@@ -71,14 +119,23 @@ def _canonical_one(buf, a, b, out):
                 w += 1
                 chars += 1
             space = False
-            if 65 <= c <= 90:
-                c += 32
-            out[w] = c
-            w += 1
             chars += 1
-            for j in range(1, n):
-                out[w] = buf[i + j]
+            if c < 0x80:
+                out[w] = c + 32 if 65 <= c <= 90 else c
                 w += 1
+            elif fold.shape[0] == 0 or cp < 0:
+                for j in range(n):
+                    out[w + j] = buf[i + j]
+                w += n
+            else:
+                f = fold[cp] if cp < fold.shape[0] else -1
+                if f < 0:
+                    unfolded = True
+                    for j in range(n):
+                        out[w + j] = buf[i + j]
+                    w += n
+                else:
+                    w = _put(out, w, np.int64(f))
         elif k == 1:
             if in_line:
                 space = True
@@ -88,29 +145,36 @@ def _canonical_one(buf, a, b, out):
             in_line = False
             space = False
         i += n
-    return w - a, chars
+    return w - start, chars, unfolded
 
 
 @njit(cache=True, parallel=True)
-def _canonical(buf, offsets, out, lengths, chars):
+def _canonical(buf, offsets, out, lengths, chars, unfolded, fold):
     for d in prange(offsets.shape[0] - 1):
-        lengths[d], chars[d] = _canonical_one(buf, offsets[d], offsets[d + 1], out)
+        lengths[d], chars[d], unfolded[d] = _canonical_one(
+            buf, offsets[d], offsets[d + 1], out, 2 * offsets[d], fold
+        )
 
 
 @njit(cache=True)
-def _canonical_serial(buf, offsets, out, lengths, chars):
+def _canonical_serial(buf, offsets, out, lengths, chars, unfolded, fold):
     # For worker processes, which must not start threads of their own after a fork.
     for d in range(offsets.shape[0] - 1):
-        lengths[d], chars[d] = _canonical_one(buf, offsets[d], offsets[d + 1], out)
+        lengths[d], chars[d], unfolded[d] = _canonical_one(
+            buf, offsets[d], offsets[d + 1], out, 2 * offsets[d], fold
+        )
 
 
-def _run(buf, offsets, parallel):
+def _run(buf, offsets, parallel, fold=_NO_FOLD):
+    # Text d is written at out[2 * offsets[d]:]: room for folds that lengthen the UTF-8.
     offsets = np.asarray(offsets, dtype=np.int64)
-    out = np.empty(buf.shape[0], dtype=np.uint8)
-    lengths = np.empty(offsets.shape[0] - 1, dtype=np.int64)
-    chars = np.empty(offsets.shape[0] - 1, dtype=np.int64)
-    (_canonical if parallel else _canonical_serial)(buf, offsets, out, lengths, chars)
-    return out, offsets, lengths, chars
+    out = np.empty(2 * buf.shape[0], dtype=np.uint8)
+    n = offsets.shape[0] - 1
+    lengths = np.empty(n, dtype=np.int64)
+    chars = np.empty(n, dtype=np.int64)
+    unfolded = np.zeros(n, dtype=np.bool_)
+    (_canonical if parallel else _canonical_serial)(buf, offsets, out, lengths, chars, unfolded, fold)
+    return out, 2 * offsets, lengths, chars, unfolded
 
 
 def canonical_line_bytes(
@@ -130,11 +194,23 @@ def canonical_line_bytes(
         if text.isascii():
             prepared.append(encoded[k] if encoded is not None else text.encode("ascii"))
         else:
-            prepared.append(unicodedata.normalize("NFKC", text).casefold().encode("utf-8", "surrogatepass"))
-    out, offsets, lengths, chars = _run(*pack_bytes(prepared), parallel)
-    data = out.tobytes()
-    starts = offsets[:-1].tolist()
-    return [data[a : a + n] for a, n in zip(starts, lengths.tolist())], chars.tolist()
+            prepared.append(unicodedata.normalize("NFKC", text).encode("utf-8", "surrogatepass"))
+    out, starts, lengths, chars, unfolded = _run(*pack_bytes(prepared), parallel, fold_table())
+    results = [out[a : a + n].tobytes() for a, n in zip(starts[:-1].tolist(), lengths.tolist())]
+    characters = chars.tolist()
+    redo = np.flatnonzero(unfolded).tolist()
+    if redo:
+        # Folds the table does not hold: str.casefold, then the kernel without a table.
+        folded = [
+            prepared[k].decode("utf-8", "surrogatepass").casefold().encode("utf-8", "surrogatepass")
+            for k in redo
+        ]
+        out, starts, lengths, chars, _ = _run(*pack_bytes(folded), parallel)
+        for j, k in enumerate(redo):
+            a = int(starts[j])
+            results[k] = out[a : a + int(lengths[j])].tobytes()
+            characters[k] = int(chars[j])
+    return results, characters
 
 
 def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -146,11 +222,11 @@ def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.nda
     >>> bytes(out), off.tolist()
     (b'the cat\\nsata', [0, 11, 12])
     """
-    out, offsets, lengths, _ = _run(buf, offsets, True)
+    out, starts, lengths, _, _ = _run(buf, offsets, True)
     new_offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
     np.cumsum(lengths, out=new_offsets[1:])
     result = np.empty(new_offsets[-1], dtype=np.uint8)
-    _compact(out, offsets, new_offsets, result)
+    _compact(out, starts, new_offsets, result)
     return result, new_offsets
 
 

@@ -22,8 +22,11 @@ __all__ = ["write_outputs", "render_html", "RECORD_LISTS"]
 RECORD_LISTS = ("ledger", "documents", "exact_groups", "pairs", "clusters", "actions")
 
 
-def write_outputs(result, out_dir: str) -> dict[str, str]:
+def write_outputs(result, out_dir: str, progress=None) -> dict[str, str]:
     """Write all outputs of an audit into ``out_dir`` (created if needed)."""
+    from ..progress import Progress
+
+    progress = progress or Progress.silent()
     ensure_folder(out_dir)
     paths = {
         name: os.path.join(out_dir, name)
@@ -37,6 +40,7 @@ def write_outputs(result, out_dir: str) -> dict[str, str]:
             "run.json",
         )
     }
+    progress.start("writing")
     data = result.to_dict(lazy=True)
     write_json(paths["audit.json"], data, RECORD_LISTS)
     write_csv(paths["pairs.csv"], result.pairs, PAIR_COLUMNS)
@@ -45,5 +49,6 @@ def write_outputs(result, out_dir: str) -> dict[str, str]:
     write_csv(paths["ledger.csv"], (e.to_dict() for e in result.ledger), LEDGER_COLUMNS)
     write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
     with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
-        handle.writelines(iter_html(result))
+        handle.writelines(iter_html(result, progress))
+    progress.done()
     return paths

@@ -102,8 +102,11 @@ def _script_safe(text: str) -> str:
     )
 
 
-def report_data(result) -> dict:
-    """Compact data for the page script: documents by index, clusters, evidence, ledger."""
+def report_data(result, progress=None) -> dict:
+    """Compact data for the page script: documents by index, clusters, evidence, ledger.
+
+    ``progress`` (a `dedup.progress.Progress`) is advanced once per evidence pair.
+    """
     settings = result.settings
     shingle_size = settings.char_ngrams or settings.shingle_size
     doc_index: dict[str, int] = {}
@@ -181,6 +184,8 @@ def report_data(result) -> dict:
         evidence[f"{key[0]}:{key[1]}"] = pair_evidence(
             texts[key[0]], texts[key[1]], shingle_size
         ).to_compact()
+        if progress is not None:
+            progress.advance()
     skipped = [[e.input, e.record, e.status, e.reason] for e in result.ledger if e.status != "read"]
     return {
         "audit_id": result.audit_id,
@@ -210,7 +215,7 @@ def render_html(result) -> str:
 _DATA_MARK = "\u0000audit-data\u0000"
 
 
-def iter_html(result) -> Iterator[str]:
+def iter_html(result, progress=None) -> Iterator[str]:
     """The report in pieces, for writing without holding the page (it can be large)."""
     env = _environment()
     folder = template_folder()
@@ -239,5 +244,5 @@ def iter_html(result) -> Iterator[str]:
     )
     before, after = page.split(_DATA_MARK)
     yield before
-    yield from iter_embed_json(report_data(result))
+    yield from iter_embed_json(report_data(result, progress))
     yield after

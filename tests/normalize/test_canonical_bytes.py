@@ -16,8 +16,11 @@ from dedup.normalize.boilerplate import canonical_lines
 from dedup.normalize.canonical_bytes import canonical_line_bytes
 
 # Every character Python treats as whitespace or as a line break, plus letters that fold
-# to longer or shorter UTF-8 (sharp s, Kelvin sign, ligature fi, full-width A, emoji).
-SPECIAL = [chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace()] + list("ßKﬁＡ😀éİ\u0301\x00\x7f")
+# to longer or shorter UTF-8 (sharp s, Kelvin sign, ligature fi, full-width A, emoji, A with stroke,
+# Deseret, sigma forms) or lie outside the folding table (U+20000).
+SPECIAL = [chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace()] + list(
+    "ßKﬁＡ😀éİ\u0301\x00\x7fȺ𐐀𠀀ΣςᾈẞÅ"
+)
 
 
 def _reference(text: str) -> tuple[bytes, int]:
