@@ -187,7 +187,7 @@ def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.nd
         a = offsets[d]
         b = offsets[d + 1]
         if b > a:
-            values[a:b] = np.sort(values[a:b])
+            values[a:b].sort()
             c = 1
             for i in range(a + 1, b):
                 if values[i] != values[i - 1]:

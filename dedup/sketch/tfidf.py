@@ -92,10 +92,22 @@ def _fill_counts(columns, offsets, indptr, indices, data):
                 data[w] += 1.0
 
 
+def hashed_columns(token_hashes: np.ndarray, n_features: int) -> np.ndarray:
+    """Column of every token: ``hash mod n_features`` as int64 (a mask and a view, no
+    copy beyond the result, when ``n_features`` is a power of two).
+
+    >>> hashed_columns(np.array([5, 2**64 - 1], np.uint64), 4).tolist()
+    [1, 3]
+    """
+    if n_features & (n_features - 1) == 0 and n_features <= 2**62:
+        return np.bitwise_and(token_hashes, np.uint64(n_features - 1)).view(np.int64)
+    return (token_hashes % np.uint64(n_features)).astype(np.int64)
+
+
 def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features: int) -> sp.csr_matrix:
     """Term counts per document as CSR with sorted columns, built in compiled code: O(tokens log)."""
     n_docs = token_offsets.shape[0] - 1
-    columns = (token_hashes % np.uint64(n_features)).astype(np.int64)
+    columns = hashed_columns(token_hashes, n_features)
     offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
     # Sorts each document's columns in place and counts the distinct ones.
     unique_counts = sort_segments_count_unique(columns, offsets)
@@ -315,7 +327,7 @@ class DocumentFrequency:
         """Count the documents of one chunk."""
         offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
         n = offsets.shape[0] - 1
-        columns = (token_hashes % np.uint64(self.n_features)).astype(np.int64)
+        columns = hashed_columns(token_hashes, self.n_features)
         if self._dense:
             _count_df(columns, offsets, self.n_docs, self._last, self._df)
         else:
