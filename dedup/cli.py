@@ -425,6 +425,11 @@ def _run_audit(args: argparse.Namespace) -> int:
     except InputError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE
+    except OSError as err:
+        # The work folder (texts spilled while auditing) could not be written: full disk, no permission.
+        where = args.work_dir or os.path.join(out, WORK_FOLDER)
+        print(f"dedup: error: cannot use the work folder {where}: {err.strerror or err}", file=sys.stderr)
+        return EXIT_USAGE
     code = EXIT_FOUND if settings.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK
     delta = None
     if args.index:

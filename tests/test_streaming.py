@@ -189,3 +189,15 @@ def test_cli_rejects_a_bad_worker_count(write_corpus, tmp_path, capsys):
         main(["audit", str(root), "--out", str(tmp_path / "o"), "--workers", "0"])
     assert stop.value.code == 2
     assert "must be at least 1" in capsys.readouterr().err
+
+
+def test_cli_unusable_work_folder_is_a_clear_error(write_corpus, tmp_path, capsys):
+    from dedup.cli import main
+
+    root = write_corpus(_corpus(8, 6))
+    blocker = tmp_path / "file-not-folder"
+    blocker.write_text("x")
+    code = main(["audit", str(root), "--out", str(tmp_path / "o"), "--quiet", "--work-dir", str(blocker / "w")])
+    assert code == 2
+    err = capsys.readouterr().err
+    assert err.startswith("dedup: error: cannot use the work folder") and "Traceback" not in err
