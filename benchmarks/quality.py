@@ -939,7 +939,7 @@ def sweep(bench: Bench, thresholds: Sequence[float], perms: Sequence[int], log: 
                     _f(c.f1),
                     c.below,
                     _f(q.ari_reference),
-                    f"{result.run.get('stages_seconds', {}).get('minhash', 0.0):.2f}",
+                    f"{result.run.get('stages_seconds', {}).get('features', 0.0):.2f}",
                     f"{seconds:.2f}",
                 ]
             )
@@ -956,7 +956,7 @@ def sweep(bench: Bench, thresholds: Sequence[float], perms: Sequence[int], log: 
             "F1",
             "below t",
             "ARI",
-            "MinHash seconds",
+            "sketch seconds",
             "audit seconds",
         ],
         rows,

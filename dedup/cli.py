@@ -267,7 +267,7 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
     g.add_argument(
         "--work-dir",
-        default=None,
+        default=argparse.SUPPRESS,
         metavar="DIR",
         help="folder for intermediate data spilled to disk while auditing (texts, signatures; about twice "
         "the size of the text read); default: .dedup-work in the output folder",
@@ -418,7 +418,7 @@ def _run_audit(args: argparse.Namespace) -> int:
             args.paths,
             settings,
             progress=progress,
-            work_dir=args.work_dir or os.path.join(out, WORK_FOLDER),
+            work_dir=getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER),
             keep_work=args.keep_work,
             workers=args.workers,
         )
@@ -427,7 +427,7 @@ def _run_audit(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     except OSError as err:
         # The work folder (texts spilled while auditing) could not be written: full disk, no permission.
-        where = args.work_dir or os.path.join(out, WORK_FOLDER)
+        where = getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER)
         print(f"dedup: error: cannot use the work folder {where}: {err.strerror or err}", file=sys.stderr)
         return EXIT_USAGE
     code = EXIT_FOUND if settings.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK

@@ -197,7 +197,9 @@ def test_cli_unusable_work_folder_is_a_clear_error(write_corpus, tmp_path, capsy
     root = write_corpus(_corpus(8, 6))
     blocker = tmp_path / "file-not-folder"
     blocker.write_text("x")
-    code = main(["audit", str(root), "--out", str(tmp_path / "o"), "--quiet", "--work-dir", str(blocker / "w")])
+    code = main(
+        ["audit", str(root), "--out", str(tmp_path / "o"), "--quiet", "--work-dir", str(blocker / "w")]
+    )
     assert code == 2
     err = capsys.readouterr().err
     assert err.startswith("dedup: error: cannot use the work folder") and "Traceback" not in err
