@@ -44,6 +44,12 @@ def fold_table() -> np.ndarray:
 
 
 _NO_FOLD = np.zeros(0, dtype=np.int32)
+# Per ASCII byte: its kind (see _kind) and its lower case.
+_ASCII_KIND = np.zeros(128, dtype=np.uint8)
+_ASCII_KIND[[9, 32, 31]] = 1
+_ASCII_KIND[[10, 11, 12, 13, 28, 29, 30]] = 2
+_ASCII_LOWER = np.arange(128, dtype=np.uint8)
+_ASCII_LOWER[65:91] += 32
 
 __all__ = ["packed_canonical_lines", "canonical_line_bytes"]
 
@@ -121,8 +127,19 @@ def _canonical_one(buf, a, b, out, start, fold):
             space = False
             chars += 1
             if c < 0x80:
-                out[w] = c + 32 if 65 <= c <= 90 else c
+                out[w] = _ASCII_LOWER[c]
                 w += 1
+                # The rest of a run of ASCII word bytes, without the general checks.
+                i += 1
+                while i < b:
+                    c = buf[i]
+                    if c >= 0x80 or _ASCII_KIND[c] != 0:
+                        break
+                    out[w] = _ASCII_LOWER[c]
+                    w += 1
+                    chars += 1
+                    i += 1
+                continue
             elif fold.shape[0] == 0 or cp < 0:
                 for j in range(n):
                     out[w + j] = buf[i + j]
