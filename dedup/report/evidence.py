@@ -17,6 +17,7 @@ from __future__ import annotations
 import re
 import unicodedata
 from dataclasses import dataclass
+from functools import lru_cache
 
 __all__ = ["Passage", "PairEvidence", "words_with_offsets", "pair_evidence"]
 
@@ -57,15 +58,25 @@ def words_with_offsets(text: str) -> tuple[list[str], list[tuple[int, int]]]:
     >>> words_with_offsets("Ünïcode ﬁle, OK?")
     (['ünïcode', 'file', 'ok'], [(0, 7), (8, 11), (13, 15)])
     """
+    if text.isascii():
+        # NFKC changes no ASCII text and case folding is lower-casing, which keeps every offset.
+        matches = list(_WORD.finditer(text.lower()))
+        return [m.group() for m in matches], [m.span() for m in matches]
     words: list[str] = []
     spans: list[tuple[int, int]] = []
     for match in _WORD.finditer(text):
-        normalized = unicodedata.normalize("NFKC", match.group()).casefold()
+        span = match.span()
         # NFKC can split one original word into several (e.g. "x²" → "x2" stays one, "½" → "1⁄2" two).
-        for part in _WORD.findall(normalized):
+        for part in _normalized_word(match.group()):
             words.append(part)
-            spans.append(match.span())
+            spans.append(span)
     return words, spans
+
+
+@lru_cache(maxsize=65536)
+def _normalized_word(word: str) -> tuple[str, ...]:
+    # Words repeat across a text and across the pairs of a report: normalize each once.
+    return tuple(_WORD.findall(unicodedata.normalize("NFKC", word).casefold()))
 
 
 def _shingles(words: list[str], k: int) -> list[str]:

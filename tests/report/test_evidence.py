@@ -2,6 +2,12 @@
 
 from __future__ import annotations
 
+import re
+import unicodedata
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
 from dedup.features import shingle_strings
 from dedup.normalize import canonical_text, token_text
 from dedup.report.evidence import pair_evidence, words_with_offsets
@@ -63,3 +69,16 @@ def test_embedded_json_cannot_close_its_script_block():
     import json
 
     assert json.loads(text) == hostile
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=st.sampled_from(list("abcXYZ019 _-.,\n\tİßﬁ½²Ωé")) | st.characters(), max_size=60))
+def test_word_offsets_equal_the_per_word_reference(text):
+    """Reference: each word of ``[^\\W_]+`` normalized on its own with Python's NFKC and casefold
+    (the ASCII fast path and the per-word cache must give the same)."""
+    words, spans = [], []
+    for m in re.finditer(r"[^\W_]+", text):
+        for part in re.findall(r"[^\W_]+", unicodedata.normalize("NFKC", m.group()).casefold()):
+            words.append(part)
+            spans.append(m.span())
+    assert words_with_offsets(text) == (words, spans)
