@@ -172,8 +172,7 @@ def features_from_buffer(
     MinHash needs, since a minimum does not change when a value repeats.
     """
     table = tokenize.word_table()
-    token_offsets = _exclusive_cumsum(tokenize.count_words(buf, doc_offsets, table))
-    tokens = tokenize.word_hashes(buf, doc_offsets, token_offsets, table)
+    tokens, token_offsets = tokenize.words_and_hashes(buf, doc_offsets, table)
 
     if hash_scheme == "datasketch-sha1" or char_ngrams:
         if texts is None:

@@ -17,7 +17,7 @@ from numba import njit, prange
 
 from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
 
-__all__ = ["word_table", "has_words", "count_words", "word_hashes", "gather_segments"]
+__all__ = ["word_table", "has_words", "count_words", "word_hashes", "words_and_hashes", "gather_segments"]
 
 _MAX_CODE_POINT = 0x110000
 
@@ -86,6 +86,31 @@ def count_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> 
     return counts
 
 
+@njit(cache=True, inline="always")
+def _hash_words(buf, i, stop, table, out, w):
+    # Hashes of the words of buf[i:stop] written from out[w]; returns the next free place.
+    in_word = False
+    h = FNV_OFFSET
+    while i < stop:
+        cp, length = _decode(buf, i, stop)
+        word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
+        if word:
+            if not in_word:
+                h = FNV_OFFSET
+            for j in range(i, i + length):
+                h ^= np.uint64(buf[j])
+                h *= FNV_PRIME
+        elif in_word:
+            out[w] = fmix64(h)
+            w += 1
+        in_word = word
+        i += length
+    if in_word:
+        out[w] = fmix64(h)
+        w += 1
+    return w
+
+
 @njit(cache=True, parallel=True)
 def word_hashes(
     buf: np.ndarray, doc_offsets: np.ndarray, word_offsets: np.ndarray, table: np.ndarray
@@ -94,28 +119,53 @@ def word_hashes(
     n_docs = doc_offsets.shape[0] - 1
     out = np.empty(word_offsets[n_docs], dtype=np.uint64)
     for d in prange(n_docs):
-        w = word_offsets[d]
-        i = doc_offsets[d]
-        stop = doc_offsets[d + 1]
-        in_word = False
-        h = FNV_OFFSET
-        while i < stop:
-            cp, length = _decode(buf, i, stop)
-            word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
-            if word:
-                if not in_word:
-                    h = FNV_OFFSET
-                for j in range(i, i + length):
-                    h ^= np.uint64(buf[j])
-                    h *= FNV_PRIME
-            elif in_word:
-                out[w] = fmix64(h)
-                w += 1
-            in_word = word
-            i += length
-        if in_word:
-            out[w] = fmix64(h)
+        _hash_words(buf, doc_offsets[d], doc_offsets[d + 1], table, out, word_offsets[d])
     return out
+
+
+@njit(cache=True, parallel=True)
+def _hash_words_bounded(buf, doc_offsets, room_offsets, table, out, counts):
+    for d in prange(doc_offsets.shape[0] - 1):
+        counts[d] = (
+            _hash_words(buf, doc_offsets[d], doc_offsets[d + 1], table, out, room_offsets[d])
+            - room_offsets[d]
+        )
+
+
+@njit(cache=True, parallel=True)
+def _compact(values, room_offsets, offsets, out):
+    for d in prange(offsets.shape[0] - 1):
+        a = room_offsets[d]
+        w = offsets[d]
+        for j in range(offsets[d + 1] - w):
+            out[w + j] = values[a + j]
+
+
+def words_and_hashes(
+    buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """`word_hashes` and the word offsets in one pass over the bytes: each document's
+    hashes go into room for the most words it can hold (a word and its separator take
+    at least two bytes), then move end to end.
+
+    >>> from dedup.features.shingles import pack_bytes
+    >>> buf, offsets = pack_bytes([b"a bc", b"", b"d"])
+    >>> hashes, words = words_and_hashes(buf, offsets, word_table())
+    >>> words.tolist(), bool((hashes == word_hashes(buf, offsets, words, word_table())).all())
+    ([0, 2, 2, 3], True)
+    """
+    doc_offsets = np.asarray(doc_offsets, dtype=np.int64)
+    room = (np.diff(doc_offsets) + 1) // 2
+    room_offsets = np.zeros(room.shape[0] + 1, dtype=np.int64)
+    np.cumsum(room, out=room_offsets[1:])
+    spread = np.empty(room_offsets[-1], dtype=np.uint64)
+    counts = np.empty(room.shape[0], dtype=np.int64)
+    _hash_words_bounded(buf, doc_offsets, room_offsets, table, spread, counts)
+    offsets = np.zeros(room.shape[0] + 1, dtype=np.int64)
+    np.cumsum(counts, out=offsets[1:])
+    out = np.empty(offsets[-1], dtype=np.uint64)
+    _compact(spread, room_offsets, offsets, out)
+    return out, offsets
 
 
 @njit(cache=True)
