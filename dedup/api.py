@@ -23,6 +23,7 @@ from . import __version__
 from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
+from .features import tokenize
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
 from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
@@ -225,8 +226,11 @@ def audit(
     settings = (settings or AuditSettings()).validate()
     progress = progress or Progress.silent()
     known_boilerplate = _read_ignore_text(settings.ignore_text_file)
-    with WorkFolder(work_dir, keep=keep_work) as work:
-        return _audit(paths, settings, progress, known_boilerplate, work, workers)
+    try:
+        with WorkFolder(work_dir, keep=keep_work) as work:
+            return _audit(paths, settings, progress, known_boilerplate, work, workers)
+    finally:
+        tokenize.release_scratch()
 
 
 def _audit(

@@ -10,6 +10,7 @@ kernel decodes UTF-8 itself and looks each code point up in a table made once fr
 
 from __future__ import annotations
 
+import threading
 from functools import lru_cache
 
 import numpy as np
@@ -141,6 +142,23 @@ def _compact(values, room_offsets, offsets, out):
             out[w + j] = values[a + j]
 
 
+_SCRATCH = threading.local()
+
+
+def _scratch(size: int) -> np.ndarray:
+    """A work array of at least ``size`` values reused by this thread: a fresh one per
+    chunk would fault in (and zero) its pages again every time."""
+    held = getattr(_SCRATCH, "array", None)
+    if held is None or held.shape[0] < size:
+        held = _SCRATCH.array = np.empty(max(size, 1), dtype=np.uint64)
+    return held
+
+
+def release_scratch() -> None:
+    """Free this thread's work array (an audit calls it when it ends)."""
+    _SCRATCH.array = None
+
+
 def words_and_hashes(
     buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -158,7 +176,7 @@ def words_and_hashes(
     room = (np.diff(doc_offsets) + 1) // 2
     room_offsets = np.zeros(room.shape[0] + 1, dtype=np.int64)
     np.cumsum(room, out=room_offsets[1:])
-    spread = np.empty(room_offsets[-1], dtype=np.uint64)
+    spread = _scratch(int(room_offsets[-1]))
     counts = np.empty(room.shape[0], dtype=np.int64)
     _hash_words_bounded(buf, doc_offsets, room_offsets, table, spread, counts)
     offsets = np.zeros(room.shape[0] + 1, dtype=np.int64)

@@ -39,3 +39,31 @@ def test_non_ascii_letters_digits_and_punctuation():
     fs = build_features([text], shingle_size=1)
     assert fs.token_hashes.tolist() == [fnv1a_fmix64(w.encode()) for w in token_text(text).split()]
     assert len(token_text(text).split()) == 11
+
+
+def test_one_pass_words_equal_the_two_pass_kernels_in_any_thread():
+    """Reference: `count_words` then `word_hashes` (two passes, no shared work array)."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    import numpy as np
+
+    from dedup.features import tokenize
+    from dedup.features.shingles import pack_bytes
+
+    table = tokenize.word_table()
+    corpora = [
+        pack_bytes([f"w{k} ünï {'x' * k} -- {k * 'ab '}".encode() * (k % 7) for k in range(seed, seed + 40)])
+        for seed in range(12)
+    ]
+
+    def check(packed):
+        buf, offsets = packed
+        counts = tokenize.count_words(buf, offsets, table)
+        words = np.zeros(counts.shape[0] + 1, np.int64)
+        np.cumsum(counts, out=words[1:])
+        expected = tokenize.word_hashes(buf, offsets, words, table)
+        got, got_words = tokenize.words_and_hashes(buf, offsets, table)
+        return np.array_equal(got, expected) and np.array_equal(got_words, words)
+
+    with ThreadPoolExecutor(4) as pool:
+        assert all(pool.map(check, corpora * 3))
