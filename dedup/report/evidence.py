@@ -79,11 +79,13 @@ def _normalized_word(word: str) -> tuple[str, ...]:
     return tuple(_WORD.findall(unicodedata.normalize("NFKC", word).casefold()))
 
 
-def _shingles(words: list[str], k: int) -> list[str]:
+def _shingles(words: list[str], k: int) -> list[tuple[str, ...]]:
+    # Tuples of words (a word holds no space, so equal tuples are equal joined shingles),
+    # built by zip in C rather than one join per position.
     if not words:
         return []
     width = min(k, len(words))
-    return [" ".join(words[i : i + width]) for i in range(max(1, len(words) - k + 1))]
+    return list(zip(*(words[j:] for j in range(width))))
 
 
 def pair_evidence(left_text: str, right_text: str, shingle_size: int = 5) -> PairEvidence:
@@ -102,7 +104,7 @@ def pair_evidence(left_text: str, right_text: str, shingle_size: int = 5) -> Pai
     width_right = min(shingle_size, len(right_words))
 
     # Alignment runs: consecutive left shingles matched to consecutive right shingles.
-    right_positions: dict[str, list[int]] = {}
+    right_positions: dict[tuple[str, ...], list[int]] = {}
     for j, sh in enumerate(right_shingles):
         if sh in shared:
             right_positions.setdefault(sh, []).append(j)
