@@ -18,7 +18,15 @@ from numba import njit, prange
 
 from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
 
-__all__ = ["word_table", "has_words", "count_words", "word_hashes", "words_and_hashes", "gather_segments"]
+__all__ = [
+    "word_table",
+    "has_words",
+    "count_words",
+    "word_hashes",
+    "words_and_hashes",
+    "gather_segments",
+    "compact_segments",
+]
 
 _MAX_CODE_POINT = 0x110000
 
@@ -134,9 +142,11 @@ def _hash_words_bounded(buf, doc_offsets, room_offsets, table, out, counts):
 
 
 @njit(cache=True, parallel=True)
-def _compact(values, room_offsets, offsets, out):
+def compact_segments(values, starts, offsets, out):
+    """Move segment d, written at ``values[starts[d]:]``, to ``out[offsets[d]:offsets[d + 1]]``
+    (segments written with room to spare, laid end to end)."""
     for d in prange(offsets.shape[0] - 1):
-        a = room_offsets[d]
+        a = starts[d]
         w = offsets[d]
         for j in range(offsets[d + 1] - w):
             out[w + j] = values[a + j]
@@ -182,7 +192,7 @@ def words_and_hashes(
     offsets = np.zeros(room.shape[0] + 1, dtype=np.int64)
     np.cumsum(counts, out=offsets[1:])
     out = np.empty(offsets[-1], dtype=np.uint64)
-    _compact(spread, room_offsets, offsets, out)
+    compact_segments(spread, room_offsets, offsets, out)
     return out, offsets
 
 

@@ -23,7 +23,7 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
-from ..features.tokenize import _decode
+from ..features.tokenize import _decode, compact_segments
 
 # Code points below this have a place in the case-folding table.
 _FOLD_LIMIT = 0x20000
@@ -243,15 +243,5 @@ def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.nda
     new_offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
     np.cumsum(lengths, out=new_offsets[1:])
     result = np.empty(new_offsets[-1], dtype=np.uint8)
-    _compact(out, starts, new_offsets, result)
+    compact_segments(out, starts, new_offsets, result)
     return result, new_offsets
-
-
-@njit(cache=True, parallel=True)
-def _compact(out, offsets, new_offsets, result):
-    # Text d's lines were written at out[offsets[d]:...]; move them end to end.
-    for d in prange(offsets.shape[0] - 1):
-        a = offsets[d]
-        w = new_offsets[d]
-        for j in range(new_offsets[d + 1] - w):
-            result[w + j] = out[a + j]
