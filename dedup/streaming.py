@@ -15,9 +15,10 @@ time, never the corpus.
 
 from __future__ import annotations
 
+import contextlib
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -134,9 +135,10 @@ def read_pass(
             else:
                 wordless.add(h)
         canonicals.extend(keep)
-        if counter is not None and has_words.any():
-            picks = np.flatnonzero(has_words)
-            counter.add(*tokenize.gather_segments(buf, offsets, picks))
+        if counter is not None and has_words.all():
+            counter.add(buf, offsets)
+        elif counter is not None and has_words.any():
+            counter.add(*tokenize.gather_segments(buf, offsets, np.flatnonzero(has_words)))
         pending.clear()
         pending_bytes = 0
 
@@ -213,7 +215,6 @@ class SketchResult:
     signature_file: str | None
     texts_affected: int = 0
     texts_compared_whole: int = 0
-    seconds: dict = field(default_factory=dict)
 
 
 def _chunks(slots: np.ndarray, store: ByteStore):
@@ -282,7 +283,7 @@ def sketch_pass(
     frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
     keys = np.empty((n, lsh[0]), dtype=np.uint64) if lsh else None
     affected = whole = 0
-    with open(signature_path, "wb") if lsh else _NoFile() as sig_out:
+    with open(signature_path, "wb") if lsh else contextlib.nullcontext() as sig_out:
         for start, stop in _runs(n, canonicals):
             buf, offsets = canonicals.view(start, stop)
             buf, offsets, discounted, protected = _feature_texts(buf, offsets, boilerplate, settings)
@@ -299,14 +300,6 @@ def sketch_pass(
                 sig_out.write(values.tobytes())
             progress.advance(stop - start)
     return SketchResult(frequencies, keys, signature_path if lsh else None, affected, whole)
-
-
-class _NoFile:
-    def __enter__(self):
-        return None
-
-    def __exit__(self, *exc):
-        return None
 
 
 @dataclass

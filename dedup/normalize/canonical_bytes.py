@@ -23,7 +23,7 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
-from ..features.tokenize import _decode, compact_segments
+from ..features.tokenize import _decode
 
 # Code points below this have a place in the case-folding table.
 _FOLD_LIMIT = 0x20000
@@ -51,7 +51,7 @@ _ASCII_KIND[[10, 11, 12, 13, 28, 29, 30]] = 2
 _ASCII_LOWER = np.arange(128, dtype=np.uint8)
 _ASCII_LOWER[65:91] += 32
 
-__all__ = ["packed_canonical_lines", "canonical_line_bytes"]
+__all__ = ["canonical_line_bytes"]
 
 
 @njit(cache=True, inline="always")
@@ -228,20 +228,3 @@ def canonical_line_bytes(
             results[k] = out[a : a + int(lengths[j])].tobytes()
             characters[k] = int(chars[j])
     return results, characters
-
-
-def packed_canonical_lines(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Canonical lines joined by LF of each packed text (ASCII, or already NFKC-normalized
-    and case-folded): ``(buf, offsets)``.
-
-    >>> from dedup.features.shingles import pack_bytes
-    >>> out, off = packed_canonical_lines(*pack_bytes([b"  The  Cat\\r\\n\\n sat\\t ", b"A"]))
-    >>> bytes(out), off.tolist()
-    (b'the cat\\nsata', [0, 11, 12])
-    """
-    out, starts, lengths, _, _ = _run(buf, offsets, True)
-    new_offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
-    np.cumsum(lengths, out=new_offsets[1:])
-    result = np.empty(new_offsets[-1], dtype=np.uint8)
-    compact_segments(out, starts, new_offsets, result)
-    return result, new_offsets
