@@ -17,7 +17,7 @@ import os
 import sys
 
 from . import __version__
-from .settings import CANDIDATE_METHODS, KEEPER_POLICIES, MEASURES, AuditSettings, SettingsError
+from .settings import CANDIDATE_METHODS, HASH_SCHEMES, KEEPER_POLICIES, MEASURES, AuditSettings, SettingsError
 
 __all__ = ["main", "build_parser"]
 
@@ -114,9 +114,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     g.add_argument(
         "--hash-scheme",
-        choices=("stable64", "datasketch-sha1"),
+        choices=HASH_SCHEMES,
         default=d.hash_scheme,
-        help="shingle hashing; datasketch-sha1 reproduces datasketch's MinHash (slow)",
+        help="MinHash hashing: stable64 (one hash function per permutation), binned "
+        "(one hash split into bins, several times faster), datasketch-sha1 (reproduces datasketch's MinHash, slow)",
     )
     g = p.add_argument_group("TF-IDF cosine")
     g.add_argument(

@@ -28,7 +28,7 @@ import argparse
 import json
 import sys
 
-from .settings import AuditSettings, SettingsError
+from .settings import HASH_SCHEMES, AuditSettings, SettingsError
 
 __all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines"]
 
@@ -84,7 +84,7 @@ def _add_settings_options(p: argparse.ArgumentParser, stored: bool) -> None:
     )
     g.add_argument(
         "--hash-scheme",
-        choices=("stable64", "datasketch-sha1"),
+        choices=HASH_SCHEMES,
         default=default(d.hash_scheme),
         help="shingle hashing" + suffix,
     )

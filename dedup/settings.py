@@ -17,7 +17,7 @@ __all__ = ["AuditSettings", "SettingsError", "MEASURES", "KEEPER_POLICIES", "CAN
 MEASURES = ("jaccard", "containment", "cosine")
 KEEPER_POLICIES = ("longest", "newest", "oldest", "shortest-path")
 CANDIDATE_METHODS = ("auto", "lsh", "exhaustive")
-HASH_SCHEMES = ("stable64", "datasketch-sha1")
+HASH_SCHEMES = ("stable64", "binned", "datasketch-sha1")
 
 
 class SettingsError(ValueError):
@@ -50,9 +50,12 @@ class AuditSettings:
     seed : int
         Seed of the MinHash permutations; signatures made with different seeds
         cannot be compared.
-    hash_scheme : {"stable64", "datasketch-sha1"}
+    hash_scheme : {"stable64", "binned", "datasketch-sha1"}
         ``stable64``: our 64-bit hash of the UTF-8 bytes, identical on every
-        machine. ``datasketch-sha1``: a compatibility mode that hashes shingles as
+        machine, and ``num_perm`` hash functions per shingle. ``binned`` (the
+        default): the same shingle hashes, one hash function whose values fall
+        into ``num_perm`` bins, with extra rounds for documents too short to fill
+        every bin; the same accuracy, several times faster. ``datasketch-sha1``: a compatibility mode that hashes shingles as
         datasketch does by default (SHA-1, 32 bits, affine permutations), so our
         signatures equal ``datasketch.MinHash(num_perm, seed)``; slower.
     bands, rows : int or None
@@ -130,7 +133,7 @@ class AuditSettings:
     char_ngrams: int | None = None
     num_perm: int = 128
     seed: int = 1
-    hash_scheme: str = "stable64"
+    hash_scheme: str = "binned"
     bands: int | None = None
     rows: int | None = None
     false_positive_weight: float = 0.05

@@ -129,7 +129,7 @@ def build_features(
     char_ngrams : int or None
         Use character n-grams of this length (over the words separated by one space)
         instead of word shingles.
-    hash_scheme : {"stable64", "datasketch-sha1"}
+    hash_scheme : {"stable64", "binned", "datasketch-sha1"}
         ``datasketch-sha1`` hashes each shingle string with SHA-1 (32 bits) as
         datasketch does, in Python: slow, for compatibility checks only.
 

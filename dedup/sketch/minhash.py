@@ -9,6 +9,18 @@ Hash functions (``stable64`` scheme): multiply-add-shift universal hashing
 with ``a`` odd. The parameters come from a SplitMix64 stream seeded by ``seed``, our
 own generator, so they never depend on a numpy version.
 
+Binned scheme (``binned``, the default): one hash per shingle instead of one per shingle
+and permutation, as in one-permutation hashing (Li, Owen, Zhang 2012). A seeded 64-bit
+mix of the shingle hash puts it in one of ``num_perm`` bins by its high bits, and each
+bin keeps the least of the low 32 bits. While some bin of a document is empty, its
+shingles are hashed again with the next round's offset, and a value of round r only
+fills bins still empty or holding a round-r value: a value of an earlier round always
+wins (the rounds of fast similarity sketching, Dahlgaard, Knudsen, Thorup 2017). Each
+bin thus holds the least (round, value) point of the document in it; every shingle of
+A ∪ B is equally likely to own that point of A ∪ B, so a position of two signatures
+agrees with probability J, as with independent permutations. A document of n shingles
+costs about max(1, (k ln k) / n) passes over its shingles instead of k.
+
 Compatibility scheme (``datasketch-sha1``): the permutations datasketch draws by
 default (numpy ``RandomState(seed)``, ``a`` odd 32-bit, ``b`` 32-bit), applied after
 the MurmurHash3 32-bit finalizer, ``a*h + b mod 2^32``. With SHA-1 shingle hashes
@@ -47,13 +59,20 @@ def _splitmix64(seed: int, count: int) -> list[int]:
 def minhash_parameters(
     num_perm: int, seed: int, hash_scheme: str = "stable64"
 ) -> tuple[np.ndarray, np.ndarray]:
-    """The ``(a, b)`` of every hash function, as uint64 arrays of length ``num_perm``."""
+    """The ``(a, b)`` of every hash function, as uint64 arrays of length ``num_perm``.
+
+    For ``binned`` there is one function: ``(mix, step)`` are the multiplier and offset
+    of the shingle mix and the change of the offset from one round to the next.
+    """
     if hash_scheme == "datasketch-sha1":
         # datasketch 2.x, scheme "affine32": a = 2*randint(0, 2^31) + 1, then b, from one RandomState.
         gen = np.random.RandomState(seed)
         a = gen.randint(0, 1 << 31, num_perm, dtype=np.uint32) * np.uint32(2) + np.uint32(1)
         b = gen.randint(0, 1 << 32, num_perm, dtype=np.uint32)
         return a.astype(np.uint64), b.astype(np.uint64)
+    if hash_scheme == "binned":
+        a, b, c = _splitmix64(seed, 3)
+        return np.array([a | 1, b], dtype=np.uint64), np.array([c | 1], dtype=np.uint64)
     stream = _splitmix64(seed, 2 * num_perm)
     a = np.array([x | 1 for x in stream[0::2]], dtype=np.uint64)
     b = np.array(stream[1::2], dtype=np.uint64)
@@ -72,6 +91,50 @@ def _minhash_multiply_shift(shingles, offsets, a, b, out):
                 v = np.uint32((a[p] * x + b[p]) >> _S32)
                 if v < row[p]:
                     row[p] = v
+        out[d, :] = row
+
+
+@njit(cache=True, inline="always")
+def _fmix64(h):
+    # MurmurHash3 64-bit finalizer: every input bit reaches every output bit.
+    h ^= h >> np.uint64(33)
+    h *= np.uint64(0xFF51AFD7ED558CCD)
+    h ^= h >> np.uint64(33)
+    h *= np.uint64(0xC4CEB9FE1A85EC53)
+    h ^= h >> np.uint64(33)
+    return h
+
+
+@njit(cache=True, inline="always")
+def _bin_of(h, k):
+    # High 32 bits scaled to [0, k): an even split for any k below 2^32.
+    return (h >> _S32) * np.uint64(k) >> _S32
+
+
+@njit(cache=True, parallel=True)
+def _minhash_binned(shingles, offsets, mix, step, out):
+    n_docs = offsets.shape[0] - 1
+    k = out.shape[1]
+    a, b, c = mix[0], mix[1], step[0]
+    for d in prange(n_docs):
+        row = np.full(k, _EMPTY, dtype=np.uint32)
+        # Round in which each bin got its value; 2^62 marks a bin still empty.
+        got = np.full(k, np.int64(2**62), dtype=np.int64)
+        empty = k if offsets[d + 1] > offsets[d] else 0
+        r = 0
+        while empty > 0:
+            offset = b + np.uint64(r) * c
+            for s in range(offsets[d], offsets[d + 1]):
+                h = _fmix64(a * shingles[s] + offset)
+                j = _bin_of(h, k)
+                v = np.uint32(h & _MASK32)
+                if got[j] > r:
+                    empty -= 1
+                    got[j] = r
+                    row[j] = v
+                elif got[j] == r and v < row[j]:
+                    row[j] = v
+            r += 1
         out[d, :] = row
 
 
@@ -134,7 +197,7 @@ def minhash_signatures(
     *,
     num_perm: int = 128,
     seed: int = 1,
-    hash_scheme: str = "stable64",
+    hash_scheme: str = "binned",
     shingle_spec: dict | None = None,
 ) -> Signatures:
     """MinHash signature of every shingle set.
@@ -148,7 +211,8 @@ def minhash_signatures(
 
     Notes
     -----
-    Cost O(total shingles * num_perm), in parallel over documents. A document with
+    Cost O(total shingles * num_perm), in parallel over documents; about O(total shingles +
+    documents * num_perm log num_perm) with the ``binned`` scheme. A document with
     no shingle gets the all-0xFFFFFFFF signature.
 
     Examples
@@ -160,7 +224,8 @@ def minhash_signatures(
     a, b = minhash_parameters(num_perm, seed, hash_scheme)
     n_docs = shingle_offsets.shape[0] - 1
     out = np.empty((n_docs, num_perm), dtype=np.uint32)
-    kernel = _minhash_affine32 if hash_scheme == "datasketch-sha1" else _minhash_multiply_shift
+    kernels = {"datasketch-sha1": _minhash_affine32, "binned": _minhash_binned}
+    kernel = kernels.get(hash_scheme, _minhash_multiply_shift)
     kernel(np.ascontiguousarray(shingles, dtype=np.uint64), shingle_offsets.astype(np.int64), a, b, out)
     return Signatures(out, seed, hash_scheme, dict(shingle_spec or {}))
 

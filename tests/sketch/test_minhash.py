@@ -33,10 +33,12 @@ def test_compatibility_scheme_reproduces_datasketch_hashvalues(num_perm, seed):
         ), d
 
 
-def test_estimates_stay_within_four_standard_errors_of_exact_jaccard():
+@pytest.mark.parametrize("scheme", ["stable64", "binned"])
+def test_estimates_stay_within_four_standard_errors_of_exact_jaccard(scheme):
     """The MinHash estimator is unbiased with standard error sqrt(J(1-J)/k) (Broder 1997); over many
     random set pairs each estimate must lie within 4 standard errors (plus one position of slack for
-    J near 0 or 1), and the mean error must be near zero."""
+    J near 0 or 1), and the mean error must be near zero. The binned scheme on sets larger than k
+    samples bins without replacement, so its error is no larger (Li, Owen, Zhang 2012)."""
     rng = np.random.default_rng(2024)
     k = 128
     sets, pairs, exact = [], [], []
@@ -51,7 +53,7 @@ def test_estimates_stay_within_four_standard_errors_of_exact_jaccard():
         exact.append(shared / (size_a + size_b - shared))
     offsets = np.zeros(len(sets) + 1, dtype=np.int64)
     np.cumsum([s.shape[0] for s in sets], out=offsets[1:])
-    sig = minhash_signatures(np.concatenate(sets), offsets, num_perm=k, seed=3).values
+    sig = minhash_signatures(np.concatenate(sets), offsets, num_perm=k, seed=3, hash_scheme=scheme).values
     errors = []
     for (i, j), jac in zip(pairs, exact):
         estimate = float(np.mean(sig[i] == sig[j]))
@@ -69,3 +71,45 @@ def test_different_seeds_give_different_signatures_and_refuse_to_mix():
     with pytest.raises(ValueError, match="different settings"):
         a.check_compatible(b)
     a.check_compatible(minhash_signatures(fs.shingles, fs.shingle_offsets, num_perm=32, seed=1))
+
+
+def _set_pair(rng, size: int, shared: int) -> tuple[np.ndarray, np.ndarray]:
+    universe = rng.choice(2**62, size=2 * size - shared, replace=False).astype(np.uint64)
+    return universe[:size], np.concatenate([universe[:shared], universe[size:]])
+
+
+@pytest.mark.parametrize("size,shared", [(3, 2), (10, 7), (40, 33)])
+def test_binned_positions_collide_with_probability_jaccard_on_short_sets(size, shared):
+    """Sets smaller than the number of bins leave bins empty after one round; further rounds fill them
+    so that every position still collides with probability exactly J (the argument of Dahlgaard,
+    Knudsen, Thorup 2017, fast similarity sketching: every element of A ∪ B is equally likely to own
+    the least point of a bin). Over 400 seeds the collision rate of each set pair must be within 4
+    binomial standard errors of the exact Jaccard |A∩B| / |A∪B| computed with Python sets."""
+    rng = np.random.default_rng(size)
+    a, b = _set_pair(rng, size, shared)
+    jac = len(set(a.tolist()) & set(b.tolist())) / len(set(a.tolist()) | set(b.tolist()))
+    offsets = np.array([0, size, 2 * size], dtype=np.int64)
+    k, seeds = 64, 400
+    hits = 0
+    for seed in range(seeds):
+        sig = minhash_signatures(np.concatenate([a, b]), offsets, num_perm=k, seed=seed).values
+        hits += int(np.sum(sig[0] == sig[1]))
+    rate = hits / (k * seeds)
+    # Positions of one signature are dependent, so the binomial error is taken over seeds only.
+    assert abs(rate - jac) <= 4 * np.sqrt(jac * (1 - jac) / seeds), (rate, jac)
+
+
+def test_binned_fills_every_bin_and_keeps_the_empty_signature():
+    """Every bin of a non-empty set gets a value, even for a set of one shingle (the rounds go on
+    until none is empty); an empty set stays all 0xFFFFFFFF, the empty signature of the other
+    schemes; the same input gives the same signature (common practice, no source)."""
+    shingles = np.array([12345, 999, 998], dtype=np.uint64)
+    offsets = np.array([0, 1, 1, 3], dtype=np.int64)
+    sig = minhash_signatures(shingles, offsets, num_perm=128, seed=5).values
+    assert not np.any(sig[0] == 0xFFFFFFFF) and not np.any(sig[2] == 0xFFFFFFFF)
+    assert np.all(sig[1] == 0xFFFFFFFF)
+    # Two one-shingle sets agree nowhere, as their Jaccard of 0 says; a set and itself everywhere.
+    single = minhash_signatures(np.array([999, 12345], dtype=np.uint64), np.array([0, 1, 2]), num_perm=128, seed=5).values
+    assert not np.any(single[0] == single[1]) and np.array_equal(single[1], sig[0])
+    again = minhash_signatures(shingles, offsets, num_perm=128, seed=5).values
+    assert np.array_equal(sig, again)
