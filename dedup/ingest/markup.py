@@ -25,12 +25,18 @@ _INLINE_MAX = 20_000
 
 
 def first_line_title(text: str) -> str:
-    """The first non-blank line (without ``#`` markers), as a fallback title."""
-    for line in text[:_TITLE_SCAN].splitlines():
-        stripped = line.strip()
-        if stripped:
-            return stripped.lstrip("#").strip()[:_TITLE_CHARS]
-    return ""
+    """The first non-blank line (without ``#`` markers), as a fallback title.
+
+    Lines end where `str.splitlines` ends them; every such line end is also white space,
+    so the first non-blank line starts where the leading white space ends, and only that
+    line needs splitting off.
+    """
+    rest = text[:_TITLE_SCAN].lstrip()
+    if not rest:
+        return ""
+    # "\n" is by far the most common line end: cut there first, then split the short rest.
+    line = rest.partition("\n")[0].splitlines()[0]
+    return line.strip().lstrip("#").strip()[:_TITLE_CHARS]
 
 
 def _lines(text: str) -> Iterator[str]:

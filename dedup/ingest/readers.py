@@ -104,14 +104,20 @@ _LABELS = {
 def format_of(path: str) -> str | None:
     """Format name from the file name, or None when we have no reader for it.
 
+    The extension is looked up, not searched for: the name's last two suffixes first
+    (``.tar.gz``), then its last one. A name that is only an extension (``.txt``) has none.
+
     >>> format_of("notes/Report.PDF"), format_of("corpus.tar.gz"), format_of("image.png")
     ('pdf', 'tar.gz', None)
     """
-    lower = path.lower().rsplit("/", 1)[-1]
-    for extension, fmt in FORMATS.items():
-        if lower.endswith(extension) and len(lower) > len(extension):
-            return fmt
-    return None
+    name = path[path.rfind("/") + 1 :].lower()
+    last = name.rfind(".")
+    if last <= 0:
+        return None
+    before = name.rfind(".", 0, last)
+    if before > 0 and name[before:] in FORMATS:
+        return FORMATS[name[before:]]
+    return FORMATS.get(name[last:])
 
 
 def _one_line(err: BaseException) -> str:
@@ -222,9 +228,15 @@ def _clean(value: str) -> str:
     return value
 
 
+def _clean_entry(entry: LedgerEntry) -> None:
+    """Repair the names and reason of an entry in place (one test when they are all ASCII)."""
+    fields = (entry.input, entry.reason, entry.record, entry.document_id)
+    if not "".join(fields).isascii():
+        entry.input, entry.reason, entry.record, entry.document_id = map(_clean, fields)
+
+
 def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> Outcome:
-    for name in ("input", "reason", "record", "document_id"):
-        setattr(entry, name, _clean(getattr(entry, name)))
+    _clean_entry(entry)
     if doc is None:
         return None, entry
     doc.id, doc.source, doc.text, doc.title = (
@@ -233,7 +245,11 @@ def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> O
         _clean(doc.text),
         _clean(doc.title),
     )
-    doc.metadata = {_clean(k): _clean(v) if isinstance(v, str) else v for k, v in doc.metadata.items()}
+    # Always a dict of its own, even where a reader shared one between documents.
+    metadata = doc.metadata
+    doc.metadata = (
+        {_clean(k): _clean(v) if isinstance(v, str) else v for k, v in metadata.items()} if metadata else {}
+    )
     if len(doc.text) > opts.max_text_chars:
         length = len(doc.text)
         doc.text = doc.text[: opts.max_text_chars]

@@ -14,8 +14,7 @@ import os
 import stat
 import sys
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass
-from typing import IO
+from typing import IO, NamedTuple
 
 from .document import Item, Outcome, RawDocument
 from .filters import clean_name, file_reason, folder_reason
@@ -38,8 +37,9 @@ class InputError(Exception):
     """A path given by the user cannot be used (it does not exist, for example)."""
 
 
-@dataclass(frozen=True)
-class _Found:
+class _Found(NamedTuple):
+    """A file found to read (a named tuple: one is made for every file found)."""
+
     path: str  # as the filesystem knows it
     rel: str  # id base, posix separators, printable
     walked: bool = True  # found inside a folder (not named by the user)
@@ -125,14 +125,15 @@ def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -
         stack.extend(reversed(subfolders))
 
 
-def _identity(path: str) -> tuple[object, int]:
+def _identity(path: str) -> tuple[object, os.stat_result | None]:
     """What makes two paths the same file — device and inode (one stat call), else the real
-    path — and the file's size (0 when unknown)."""
+    path — and the stat result, handed on to the reader so that each file is examined
+    once (None when the stat fails: the reader then reports why)."""
     try:
         info = os.stat(path)
     except OSError:
-        return os.path.realpath(path), 0
-    return (info.st_dev, info.st_ino), info.st_size
+        return os.path.realpath(path), None
+    return (info.st_dev, info.st_ino), info
 
 
 # A window of files is handed to the readers at once: at most this many files and bytes.
@@ -156,14 +157,15 @@ def _windows(
     for item in found:
         window.extend(walk_entries)
         walk_entries.clear()
-        real, item_size = _identity(item.path)
+        real, info = _identity(item.path)
         if real in seen_files:
             window.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
             continue
         seen_files[real] = item.rel
-        window.append(_Sized(item, item_size))
+        sized = _Sized(item, info.st_size if info is not None else 0, info)
+        window.append(sized)
         files += 1
-        size += item_size
+        size += sized.size
         if files >= max_files or size >= WINDOW_BYTES:
             yield window
             window, files, size = [], 0, 0
@@ -173,18 +175,20 @@ def _windows(
         yield window
 
 
-@dataclass(frozen=True)
-class _Sized:
+class _Sized(NamedTuple):
+    """A file to read, with its size (0 when unknown) and the stat result taken when it was found."""
+
     item: _Found
     size: int
+    info: os.stat_result | None = None
 
 
 # Files up to this size are read whole by a worker (archives never: they are streamed here).
 WORKER_FILE_BYTES = 16 * 2**20
 
 
-def _read_all(item: _Found, opts: ReadOptions, unchanged, prepare) -> list[Outcome]:
-    outcomes = list(_read_found(item, opts, unchanged))
+def _read_all(sized: _Sized, opts: ReadOptions, unchanged, prepare) -> list[Outcome]:
+    outcomes = list(_read_found(sized.item, opts, unchanged, sized.info))
     if prepare is not None:
         docs = [doc for doc, _ in outcomes if doc is not None]
         if docs:
@@ -199,8 +203,8 @@ def _worker_start(opts: ReadOptions, prepare) -> None:
     _WORKER["opts"], _WORKER["prepare"] = opts, prepare
 
 
-def _worker_read(item: _Found) -> list[Outcome]:
-    return _read_all(item, _WORKER["opts"], None, _WORKER["prepare"])
+def _worker_read(sized: _Sized) -> list[Outcome]:
+    return _read_all(sized, _WORKER["opts"], None, _WORKER["prepare"])
 
 
 class _Readers:
@@ -223,21 +227,21 @@ class _Readers:
         """
         results = iter(())
         if self.workers > 1:
-            pooled = [e.item for e in window if isinstance(e, _Sized) and self._to_workers(e)]
+            pooled = [e for e in window if isinstance(e, _Sized) and self._to_workers(e)]
             if len(pooled) > 1 and self._pool is None:
                 self._pool = _start_pool(self.workers, self.opts, self.prepare)
             if len(pooled) > 1 and self._pool is not None:
                 chunk = max(1, min(16, len(pooled) // (4 * self.workers)))
                 results = self._pool.imap(_worker_read, pooled, chunksize=chunk)
             else:
-                results = (_read_all(item, self.opts, None, self.prepare) for item in pooled)
+                results = (_read_all(sized, self.opts, None, self.prepare) for sized in pooled)
         for event in window:
             if not isinstance(event, _Sized):
                 yield event
             elif self.workers > 1 and self._to_workers(event):
                 yield next(results)
             else:
-                yield _read_found(event.item, self.opts, self.unchanged)
+                yield _read_found(event.item, self.opts, self.unchanged, event.info)
 
     def close(self) -> None:
         if self._pool is not None:
@@ -269,10 +273,40 @@ _SINGLE_DOCUMENT_FORMATS = frozenset(
 UNCHANGED_REASON = "unchanged since the last index run (same modification time): not read again"
 
 
+# Reading on past the examined size (a file that grew) goes in steps of this many bytes.
+_GROWTH_STEP = 65536
+
+
+def _read_limited(path: str, size: int, limit: int) -> bytes:
+    """The bytes of a file examined at ``size`` bytes: all of them, or ``limit + 1`` when it
+    has grown beyond the limit since.
+
+    The file is read unbuffered by its known size plus one byte, then on to its end in
+    modest steps: asking for ``limit + 1`` bytes at once would allocate a buffer of the
+    limit's size for every file, however small.
+    """
+    with open(path, "rb", buffering=0) as handle:
+        parts = [handle.read(min(size, limit) + 1)]
+        total = len(parts[0])
+        while total <= limit:  # on to the end: it may have grown, or a read may have come back short
+            more = handle.read(min(limit + 1 - total, _GROWTH_STEP))
+            if not more:
+                break
+            parts.append(more)
+            total += len(more)
+    return parts[0] if len(parts) == 1 else b"".join(parts)
+
+
 def _read_found(
-    item: _Found, opts: ReadOptions, unchanged: Callable[[str, float], bool] | None = None
+    item: _Found,
+    opts: ReadOptions,
+    unchanged: Callable[[str, float], bool] | None = None,
+    info: os.stat_result | None = None,
 ) -> Iterator[Outcome]:
-    """Outcomes of one found file; problems before its reader runs are entries too."""
+    """Outcomes of one found file; problems before its reader runs are entries too.
+
+    ``info`` is the file's stat result when it was found (it is examined again without it).
+    """
     fmt = format_of(item.rel)
     name = item.rel.rsplit("/", 1)[-1]
     reason = file_reason(item.rel, name, opts, found=item.walked, container=fmt in ARCHIVE_FORMATS)
@@ -284,7 +318,8 @@ def _read_found(
         yield None, LedgerEntry(item.rel, "skipped", f"unsupported file type {clean_name(ext)}")
         return
     try:
-        info = os.stat(item.path)
+        if info is None:
+            info = os.stat(item.path)
         if not stat.S_ISREG(info.st_mode):
             yield None, LedgerEntry(item.rel, "skipped", "not a regular file", fmt)
             return
@@ -294,17 +329,16 @@ def _read_found(
                 LedgerEntry(item.rel, "read", UNCHANGED_REASON, fmt, info.st_size, document_id=item.rel),
             )
             return
-        found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
         if fmt in STREAMED_FORMATS:
             # Streamed: bounded by the archive limits, not by the size of the file.
+            found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
             with open(item.path, "rb") as handle:
                 yield from read_stream(handle, found, opts)
             return
         if info.st_size > opts.max_file_bytes:
             yield None, LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
             return
-        with open(item.path, "rb") as handle:
-            data = handle.read(opts.max_file_bytes + 1)
+        data = _read_limited(item.path, info.st_size, opts.max_file_bytes)
     except OSError as err:
         yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt)
         return
