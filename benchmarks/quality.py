@@ -419,7 +419,8 @@ def lsh_recall(
     """Candidate recall of LSH against exhaustive exact Jaccard, per bucket, pooled over seeds."""
     bands, rows = choose_bands(threshold, num_perm)
     reps = _distinct_documents(bench)
-    features = build_features([bench.words[variant][i] for i in reps.tolist()])
+    scheme = dedup.AuditSettings().hash_scheme  # the audit's shingle hashes and MinHash
+    features = build_features([bench.words[variant][i] for i in reps.tolist()], hash_scheme=scheme)
     truth, n = bench.truths[variant], bench.n_docs
     left, right = truth.keys // n, truth.keys % n
     usable = np.isin(left, reps) & np.isin(right, reps) & (truth.jaccard >= edges[0])
@@ -427,7 +428,9 @@ def lsh_recall(
     caught = np.zeros((len(seeds), keys.shape[0]), bool)
     first_count, oversize = 0, 0
     for s, seed in enumerate(seeds):
-        sig = minhash_signatures(features.shingles, features.shingle_offsets, num_perm=num_perm, seed=seed)
+        sig = minhash_signatures(
+            features.shingles, features.shingle_offsets, num_perm=num_perm, seed=seed, hash_scheme=scheme
+        )
         cand_left, cand_right, warnings = lsh_candidate_pairs(sig.values, bands, rows, bucket_limit)
         found = reps[cand_left] * n + reps[cand_right]
         caught[s] = np.isin(keys, found)

@@ -24,6 +24,8 @@ __all__ = [
     "token_hashes",
     "shingle_counts",
     "word_shingles",
+    "rolling_word_shingles",
+    "ROLL_MULTIPLIER",
     "char_ngram_counts",
     "char_ngrams",
     "sort_unique_segments",
@@ -136,6 +138,46 @@ def word_shingles(
             for j in range(width):
                 h = fmix64((h ^ tokens[t0 + s + j]) * FNV_PRIME)
             out[s0 + s] = h
+    return out
+
+
+# Odd multiplier of the polynomial shingle hash (the 64-bit golden ratio, made 3 mod 4 so
+# that P - 1 holds a single factor of two: two shingles of the same words in another
+# order collide only when the word hashes differ by a multiple of 2^63).
+ROLL_MULTIPLIER = np.uint64(0x9E3779B97F4A7C17)
+
+
+@njit(cache=True, parallel=True)
+def rolling_word_shingles(
+    tokens: np.ndarray, token_offsets: np.ndarray, shingle_offsets: np.ndarray, k: int
+) -> np.ndarray:
+    """Shingle hashes of the ``binned`` scheme: fmix64 of the polynomial
+    t0*P^(k-1) + t1*P^(k-2) + ... + t(k-1) mod 2^64 of ``k`` consecutive token hashes.
+
+    The polynomial rolls from one shingle to the next (subtract the first word, shift,
+    add the next), so a shingle costs O(1) instead of the O(k) of `word_shingles`. A
+    document shorter than ``k`` tokens gets a single shingle of all its tokens.
+    """
+    n_docs = token_offsets.shape[0] - 1
+    out = np.empty(shingle_offsets[n_docs], dtype=np.uint64)
+    for d in prange(n_docs):
+        t0 = token_offsets[d]
+        n = token_offsets[d + 1] - t0
+        s0 = shingle_offsets[d]
+        m = shingle_offsets[d + 1] - s0
+        if m == 0:
+            continue
+        width = min(k, n)
+        lead = np.uint64(1)  # P^(width-1): the weight of the word that leaves
+        h = np.uint64(0)
+        for j in range(width):
+            h = h * ROLL_MULTIPLIER + tokens[t0 + j]
+            if j > 0:
+                lead *= ROLL_MULTIPLIER
+        out[s0] = fmix64(h)
+        for s in range(1, m):
+            h = (h - tokens[t0 + s - 1] * lead) * ROLL_MULTIPLIER + tokens[t0 + s + width - 1]
+            out[s0 + s] = fmix64(h)
     return out
 
 

@@ -131,7 +131,9 @@ def build_features(
         instead of word shingles.
     hash_scheme : {"stable64", "binned", "datasketch-sha1"}
         ``datasketch-sha1`` hashes each shingle string with SHA-1 (32 bits) as
-        datasketch does, in Python: slow, for compatibility checks only.
+        datasketch does, in Python: slow, for compatibility checks only. ``binned``
+        hashes word shingles with a rolling polynomial (O(1) a shingle), ``stable64``
+        by chaining the k word hashes (O(k) a shingle).
 
     Notes
     -----
@@ -196,7 +198,8 @@ def features_from_buffer(
         raw = hashing.char_ngrams(word_buf, word_offsets, raw_offsets, char_ngrams)
     else:
         raw_offsets = _exclusive_cumsum(hashing.shingle_counts(token_offsets, shingle_size))
-        raw = hashing.word_shingles(tokens, token_offsets, raw_offsets, shingle_size)
+        shingles_of = hashing.rolling_word_shingles if hash_scheme == "binned" else hashing.word_shingles
+        raw = shingles_of(tokens, token_offsets, raw_offsets, shingle_size)
 
     if distinct:
         shingles, shingle_offsets = hashing.sort_unique_segments(raw, raw_offsets)
