@@ -162,7 +162,7 @@ def _windows(
             window.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
             continue
         seen_files[real] = item.rel
-        sized = _Sized(item, info.st_size if info is not None else 0, info)
+        sized = _Sized(item, info)
         window.append(sized)
         files += 1
         size += sized.size
@@ -176,11 +176,15 @@ def _windows(
 
 
 class _Sized(NamedTuple):
-    """A file to read, with its size (0 when unknown) and the stat result taken when it was found."""
+    """A file to read, with the stat result taken when it was found (None when that failed)."""
 
     item: _Found
-    size: int
     info: os.stat_result | None = None
+
+    @property
+    def size(self) -> int:
+        """Bytes when the file was found; 0 when unknown."""
+        return self.info.st_size if self.info is not None else 0
 
 
 # Files up to this size are read whole by a worker (archives never: they are streamed here).

@@ -34,6 +34,8 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
+from ..features.hashing import fmix64
+
 __all__ = ["Signatures", "minhash_parameters", "minhash_signatures", "signatures_with", "estimate_jaccard"]
 
 _MASK64 = (1 << 64) - 1
@@ -95,17 +97,6 @@ def _minhash_multiply_shift(shingles, offsets, a, b, out):
 
 
 @njit(cache=True, inline="always")
-def _fmix64(h):
-    # MurmurHash3 64-bit finalizer: every input bit reaches every output bit.
-    h ^= h >> np.uint64(33)
-    h *= np.uint64(0xFF51AFD7ED558CCD)
-    h ^= h >> np.uint64(33)
-    h *= np.uint64(0xC4CEB9FE1A85EC53)
-    h ^= h >> np.uint64(33)
-    return h
-
-
-@njit(cache=True, inline="always")
 def _bin_of(h, k):
     # High 32 bits scaled to [0, k): an even split for any k below 2^32.
     return (h >> _S32) * np.uint64(k) >> _S32
@@ -125,7 +116,7 @@ def _minhash_binned(shingles, offsets, mix, step, out):
         while empty > 0:
             offset = b + np.uint64(r) * c
             for s in range(offsets[d], offsets[d + 1]):
-                h = _fmix64(a * shingles[s] + offset)
+                h = fmix64(a * shingles[s] + offset)
                 j = _bin_of(h, k)
                 v = np.uint32(h & _MASK32)
                 if got[j] > r:
