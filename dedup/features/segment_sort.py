@@ -1,0 +1,116 @@
+"""Sorting many short segments of one array: a radix pass on the high bits, then
+insertion sort of the small buckets.
+
+Shingle hashes are uniform 64-bit values and a document has hundreds to thousands of
+them, so one pass that spreads a segment into about n / 4 buckets by its top bits leaves
+buckets of a few values each, which insertion sort finishes in a few steps (most
+significant digit first radix sort with a small-bucket cutoff: Knuth, TAOCP vol. 3,
+5.2.5; the cutoff is McIlroy, Bostic and McIlroy 1993, "Engineering radix sort"). That
+is several times faster than a comparison sort of the whole segment. Values that are not
+spread out (term columns with many repeats) land in large buckets, which fall back to the
+comparison sort, so the worst case stays O(m log m).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit, prange
+
+__all__ = ["sort_segments", "sort_segments_count_unique"]
+
+# Buckets up to this size are insertion-sorted; larger ones go to the comparison sort.
+SMALL_BUCKET = 24
+# Digits of at most this many bits (65,536 buckets) in the one radix pass.
+MAX_DIGIT_BITS = 16
+
+
+@njit(cache=True, inline="always")
+def _insertion_sort(values, a, b):
+    for i in range(a + 1, b):
+        v = values[i]
+        j = i - 1
+        while j >= a and values[j] > v:
+            values[j + 1] = values[j]
+            j -= 1
+        values[j + 1] = v
+
+
+@njit(cache=True, inline="always")
+def _all_equal(values, a, b):
+    for i in range(a + 1, b):
+        if values[i] != values[a]:
+            return False
+    return True
+
+
+@njit(cache=True)
+def _sort_one(values, a, b):
+    """Sort ``values[a:b]`` in place."""
+    n = b - a
+    if n <= SMALL_BUCKET:
+        _insertion_sort(values, a, b)
+        return
+    lo = values[a]
+    hi = values[a]
+    for i in range(a + 1, b):
+        v = values[i]
+        if v < lo:
+            lo = v
+        if v > hi:
+            hi = v
+    if lo < 0:  # a signed segment with negative values: no radix digit of it is monotone
+        values[a:b].sort()
+        return
+    top = 0  # bit length of the largest value
+    x = hi
+    while x > 0:
+        x >>= 1
+        top += 1
+    bits = 1
+    while bits < MAX_DIGIT_BITS and (1 << (bits + 2)) < n:
+        bits += 1
+    shift = max(top - bits, 0)
+    size = 1 << bits
+    starts = np.zeros(size + 1, dtype=np.int64)
+    for i in range(a, b):
+        starts[(values[i] >> shift) + 1] += 1
+    for k in range(size):
+        starts[k + 1] += starts[k]
+    fill = starts[:size].copy()
+    spread = np.empty(n, dtype=values.dtype)
+    for i in range(a, b):
+        k = values[i] >> shift
+        spread[fill[k]] = values[i]
+        fill[k] += 1
+    for k in range(size):
+        s, e = starts[k], starts[k + 1]
+        if e - s <= SMALL_BUCKET:
+            _insertion_sort(spread, s, e)
+        elif not _all_equal(spread, s, e):
+            spread[s:e].sort()
+    values[a:b] = spread
+
+
+@njit(cache=True, parallel=True)
+def sort_segments(values: np.ndarray, offsets: np.ndarray) -> None:
+    """Sort each segment ``values[offsets[d]:offsets[d + 1]]`` in place, in parallel."""
+    for d in prange(offsets.shape[0] - 1):
+        _sort_one(values, offsets[d], offsets[d + 1])
+
+
+@njit(cache=True, parallel=True)
+def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
+    """Sort each segment of ``values`` in place and return its number of distinct values."""
+    n_seg = offsets.shape[0] - 1
+    uniques = np.zeros(n_seg, dtype=np.int64)
+    for d in prange(n_seg):
+        a = offsets[d]
+        b = offsets[d + 1]
+        if b > a:
+            _sort_one(values, a, b)
+            c = 1
+            for i in range(a + 1, b):
+                if values[i] != values[i - 1]:
+                    c += 1
+            uniques[d] = c
+    return uniques
