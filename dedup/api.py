@@ -24,6 +24,7 @@ from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
+from .features.shingles import from_word_hashes
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
 from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
@@ -314,6 +315,9 @@ def _audit(
     if method == "auto":
         method = "exhaustive" if n_reps <= settings.exhaustive_max_docs else "lsh"
     progress.start("shingling", n_reps)
+    # Word hashes kept on disk for the texts compared later (8 bytes a word): cheaper to
+    # read back than to tokenize the texts again.
+    words = work.store("words") if from_word_hashes(settings) else None
     sketch = sketch_pass(
         rep_slots,
         canonicals,
@@ -322,6 +326,7 @@ def _audit(
         lsh=(bands, rows) if method == "lsh" else None,
         signature_path=work.file("signatures.u32"),
         progress=progress,
+        word_store=words,
     )
     progress.done()
     watch.lap("features")
@@ -347,11 +352,18 @@ def _audit(
         del signatures
         needed = np.unique(np.concatenate([left, right, exact_reps]))
         compared = compared_sets(
-            needed, n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings
+            needed, n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings, word_store=words
         )
     else:
         compared = compared_sets(
-            np.arange(n_reps), n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings
+            np.arange(n_reps),
+            n_reps,
+            rep_slots,
+            canonicals,
+            boilerplate,
+            sketch.frequencies,
+            settings,
+            word_store=words,
         )
         cosine_extra = settings.threshold if settings.measure == "cosine" else None
         left, right = exhaustive_candidate_pairs(

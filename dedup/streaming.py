@@ -24,7 +24,7 @@ import numpy as np
 
 from .candidates.lsh import band_keys
 from .features import tokenize
-from .features.shingles import features_with, pack_bytes
+from .features.shingles import features_from_tokens, features_with, pack_bytes
 from .normalize import content_hash
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
 from .normalize.canonical_bytes import canonical_line_bytes
@@ -270,12 +270,15 @@ def sketch_pass(
     lsh: tuple[int, int] | None,
     signature_path: str,
     progress: Progress,
+    word_store: ByteStore | None = None,
 ) -> SketchResult:
     """Document frequencies of every distinct text, and with ``lsh=(bands, rows)`` their
     band keys (kept) and MinHash signatures (spilled to ``signature_path`` in slot order).
 
     ``slots[t]`` is the store slot of distinct text ``t``; every slot is one distinct
     text, so the store is read front to back, one chunk at a time, without a copy.
+    With ``word_store``, each text's word hashes (after boilerplate is stripped) are
+    appended to it in slot order, so `compared_sets` need not read the texts again.
     """
     n = int(slots.shape[0])
     text_of_slot = np.empty(n, dtype=np.int64)
@@ -294,12 +297,31 @@ def sketch_pass(
             del buf
             canonicals.release()
             frequencies.add(features.token_hashes, features.token_offsets)
+            if word_store is not None:
+                word_store.extend_packed(features.token_hashes, features.token_offsets)
             if lsh:
                 values = signatures_with(settings, features).values
                 keys[text_of_slot[start:stop]] = band_keys(values, lsh[0], lsh[1])
                 sig_out.write(values.tobytes())
             progress.advance(stop - start)
     return SketchResult(frequencies, keys, signature_path if lsh else None, affected, whole)
+
+
+def _compared_features(picked, canonicals, boilerplate, settings, word_store):
+    """Features of the texts in slots ``picked``, chunk by chunk: from kept word hashes
+    when there are some, else from the texts."""
+    if word_store is not None:
+        for _, _, (buf, offsets) in _chunks(picked, word_store):
+            yield features_from_tokens(
+                buf.view(np.uint64),
+                offsets // 8,
+                shingle_size=settings.shingle_size,
+                hash_scheme=settings.hash_scheme,
+            )
+        return
+    for _, _, (buf, offsets) in _chunks(picked, canonicals):
+        buf, offsets, _, _ = _feature_texts(buf, offsets, boilerplate, settings)
+        yield features_with(settings, buf, offsets)
 
 
 @dataclass
@@ -324,8 +346,13 @@ def compared_sets(
     frequencies: DocumentFrequency,
     settings,
     progress: Callable[[int], None] | None = None,
+    word_store: ByteStore | None = None,
 ) -> ComparedSets:
-    """Sorted unique shingles and unit TF-IDF rows of the distinct texts ``needed`` (sorted)."""
+    """Sorted unique shingles and unit TF-IDF rows of the distinct texts ``needed`` (sorted).
+
+    With ``word_store`` (the word hashes `sketch_pass` kept, slot for slot), the shingles
+    are made from those hashes; otherwise the texts are read and tokenized again.
+    """
     import scipy.sparse as sp
 
     needed = np.asarray(needed, dtype=np.int64)
@@ -343,10 +370,8 @@ def compared_sets(
     indptr = np.zeros(needed.shape[0] + 1, dtype=np.int64)
     done = used_sh = used_nz = 0
     model = None
-    for _, _, (buf, offsets) in _chunks(picked, canonicals):
-        buf, offsets, _, _ = _feature_texts(buf, offsets, boilerplate, settings)
-        features = features_with(settings, buf, offsets)
-        n = int(offsets.shape[0] - 1)
+    for features in _compared_features(picked, canonicals, boilerplate, settings, word_store):
+        n = int(features.token_offsets.shape[0] - 1)
         k = int(features.shingles.shape[0])
         shingles[used_sh : used_sh + k] = features.shingles
         shingle_offsets[done + 1 : done + n + 1] = used_sh + features.shingle_offsets[1:]

@@ -203,3 +203,36 @@ def test_cli_unusable_work_folder_is_a_clear_error(write_corpus, tmp_path, capsy
     assert code == 2
     err = capsys.readouterr().err
     assert err.startswith("dedup: error: cannot use the work folder") and "Traceback" not in err
+
+
+def test_workers_with_many_small_windows_keep_walk_order(write_corpus, tmp_path, monkeypatch):
+    # Windows of three files: the pool holds several bundles at once and this process
+    # takes them in walk order, with the ledger entries of the walk in their place.
+    from dedup.ingest import walk
+
+    files = _corpus(8, 40)
+    files["kb/.hidden.txt"] = "not read: hidden"
+    files["kb/notes.bin"] = b"\x00\x01"
+    root = write_corpus(files)
+    s = AuditSettings(candidates="lsh", threshold=0.7)
+    one = dedup.audit([str(root)], s, workers=1).write(str(tmp_path / "one"))
+    monkeypatch.setattr(walk, "WINDOW_FILES", 3)
+    two = dedup.audit([str(root)], s, workers=2).write(str(tmp_path / "two"))
+    for name in ("audit.json", "pairs.csv", "ledger.csv"):
+        assert _bytes(one[name]) == _bytes(two[name]), name
+
+
+def test_kept_word_hashes_give_the_same_audit_as_reading_the_texts_again(write_corpus, tmp_path, monkeypatch):
+    # The reference is the audit that tokenizes the compared texts a second time.
+    import dedup.api
+
+    root = write_corpus(_corpus(9, 60))
+    for candidates in ("lsh", "exhaustive"):
+        s = AuditSettings(candidates=candidates, threshold=0.6)
+        kept = dedup.audit([str(root)], s).write(str(tmp_path / f"kept-{candidates}"))
+        with monkeypatch.context() as m:
+            m.setattr(dedup.api, "from_word_hashes", lambda settings: False)
+            again = dedup.audit([str(root)], s).write(str(tmp_path / f"again-{candidates}"))
+        for name in ("audit.json", "pairs.csv", "clusters.csv"):
+            assert _bytes(kept[name]) == _bytes(again[name]), (candidates, name)
+        assert json.loads(_bytes(kept["audit.json"]))["summary"]["clusters"] > 0

@@ -37,7 +37,7 @@ def _insertion_sort(values, a, b):
 
 @njit(cache=True, inline="always")
 def _all_equal(values, a, b):
-    for i in range(a + 1, b):
+    for i in range(a + 1, b):  # noqa: SIM110 - compiled code: no generator expressions
         if values[i] != values[a]:
             return False
     return True

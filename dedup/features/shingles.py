@@ -23,6 +23,8 @@ __all__ = [
     "build_features",
     "features_from_buffer",
     "features_with",
+    "features_from_tokens",
+    "from_word_hashes",
     "tokens_of",
     "shingle_strings",
 ]
@@ -197,20 +199,57 @@ def features_from_buffer(
         raw_offsets = _exclusive_cumsum(hashing.char_ngram_counts(word_buf, word_offsets, char_ngrams))
         raw = hashing.char_ngrams(word_buf, word_offsets, raw_offsets, char_ngrams)
     else:
-        raw_offsets = _exclusive_cumsum(hashing.shingle_counts(token_offsets, shingle_size))
-        shingles_of = hashing.rolling_word_shingles if hash_scheme == "binned" else hashing.word_shingles
-        raw = shingles_of(tokens, token_offsets, raw_offsets, shingle_size)
+        return features_from_tokens(
+            tokens, token_offsets, shingle_size=shingle_size, hash_scheme=hash_scheme, distinct=distinct
+        )
+    return _feature_set(
+        tokens,
+        token_offsets,
+        raw,
+        raw_offsets,
+        distinct,
+        char_ngrams or shingle_size,
+        hash_scheme,
+        bool(char_ngrams),
+    )
 
+
+def _feature_set(tokens, token_offsets, raw, raw_offsets, distinct, size, hash_scheme, chars) -> FeatureSet:
     if distinct:
         shingles, shingle_offsets = hashing.sort_unique_segments(raw, raw_offsets)
     else:
         shingles, shingle_offsets = raw, raw_offsets
-    spec = {
-        "kind": "char" if char_ngrams else "word",
-        "size": int(char_ngrams or shingle_size),
-        "hash_scheme": hash_scheme,
-    }
+    spec = {"kind": "char" if chars else "word", "size": int(size), "hash_scheme": hash_scheme}
     return FeatureSet(tokens, token_offsets, shingles, shingle_offsets, spec)
+
+
+def features_from_tokens(
+    tokens: np.ndarray,
+    token_offsets: np.ndarray,
+    *,
+    shingle_size: int = 5,
+    hash_scheme: str = "stable64",
+    distinct: bool = True,
+) -> FeatureSet:
+    """Word shingles of texts given by their word hashes (``stable64`` or ``binned``).
+
+    The same features `features_from_buffer` makes from the texts, without reading the
+    texts again: an audit keeps the word hashes of its sketch pass for the texts it
+    compares later.
+    """
+    if hash_scheme not in ("stable64", "binned"):
+        raise ValueError(f"word hashes alone cannot give {hash_scheme!r} shingles")
+    token_offsets = np.asarray(token_offsets, dtype=np.int64)
+    raw_offsets = _exclusive_cumsum(hashing.shingle_counts(token_offsets, shingle_size))
+    shingles_of = hashing.rolling_word_shingles if hash_scheme == "binned" else hashing.word_shingles
+    raw = shingles_of(tokens, token_offsets, raw_offsets, shingle_size)
+    return _feature_set(tokens, token_offsets, raw, raw_offsets, distinct, shingle_size, hash_scheme, False)
+
+
+def from_word_hashes(settings) -> bool:
+    """Whether the shingles of these settings are made from word hashes alone (so kept
+    word hashes can stand in for the texts)."""
+    return not settings.char_ngrams and settings.hash_scheme in ("stable64", "binned")
 
 
 def features_with(settings, buf: np.ndarray, doc_offsets: np.ndarray, *, distinct: bool = True) -> FeatureSet:

@@ -137,8 +137,8 @@ def _identity(path: str) -> tuple[object, os.stat_result | None]:
 
 
 # A window of files is handed to the readers at once: at most this many files and bytes.
-WINDOW_FILES = 256
-WINDOW_BYTES = 64 * 2**20
+WINDOW_FILES = 128
+WINDOW_BYTES = 16 * 2**20
 
 
 def _windows(
@@ -189,12 +189,27 @@ class _Sized(NamedTuple):
 
 # Files up to this size are read whole by a worker (archives never: they are streamed here).
 WORKER_FILE_BYTES = 16 * 2**20
+# Windows a pool of n workers has in hand at once (beyond the one being handed out here):
+# enough that no worker waits while this process takes in a window, few enough that the
+# texts read ahead stay a few windows' worth.
+WINDOWS_AHEAD_PER_WORKER = 2
 
 
 def _read_all(sized: _Sized, opts: ReadOptions, unchanged, prepare) -> list[Outcome]:
     outcomes = list(_read_found(sized.item, opts, unchanged, sized.info))
     if prepare is not None:
         docs = [doc for doc, _ in outcomes if doc is not None]
+        if docs:
+            prepare(docs)
+    return outcomes
+
+
+def _read_bundle(bundle: list[_Sized], opts: ReadOptions, prepare) -> list[list[Outcome]]:
+    """The outcomes of each file of a bundle; ``prepare`` runs once on all their documents
+    (one call of the compiled kernels for the bundle, not one per file)."""
+    outcomes = [list(_read_found(sized.item, opts, None, sized.info)) for sized in bundle]
+    if prepare is not None:
+        docs = [doc for per_file in outcomes for doc, _ in per_file if doc is not None]
         if docs:
             prepare(docs)
     return outcomes
@@ -207,12 +222,12 @@ def _worker_start(opts: ReadOptions, prepare) -> None:
     _WORKER["opts"], _WORKER["prepare"] = opts, prepare
 
 
-def _worker_read(sized: _Sized) -> list[Outcome]:
-    return _read_all(sized, _WORKER["opts"], None, _WORKER["prepare"])
+def _worker_read(bundle: list[_Sized]) -> list[list[Outcome]]:
+    return _read_bundle(bundle, _WORKER["opts"], _WORKER["prepare"])
 
 
 class _Readers:
-    """Reads the files of a window, in this process or in a pool of worker processes."""
+    """Reads the files of each window, in this process or in a pool of worker processes."""
 
     def __init__(self, opts: ReadOptions, unchanged, workers: int, prepare) -> None:
         self.opts, self.unchanged, self.workers, self.prepare = opts, unchanged, max(1, workers), prepare
@@ -222,27 +237,41 @@ class _Readers:
         fmt = format_of(sized.item.rel)
         return fmt is not None and fmt not in ARCHIVE_FORMATS and sized.size <= WORKER_FILE_BYTES
 
-    def outcomes(self, window: list):
-        """Each event of the window in order: an entry as is, a file as its outcomes.
+    def events(self, windows):
+        """Each event of the windows in order: an entry as is, a file as its outcomes.
 
-        With workers, files (not archives, not larger than `WORKER_FILE_BYTES`) are read
-        by the pool, which runs ahead within the window; the rest are read here, lazily
-        (an archive member by member).
+        With workers, the files of a window (not archives, not larger than
+        `WORKER_FILE_BYTES`) go to the pool as one bundle, and the pool works on the next
+        windows while this process takes in the outcomes of the first; the rest are read
+        here, lazily (an archive member by member), in their place.
         """
-        results = iter(())
-        if self.workers > 1:
+        if self.workers == 1:
+            for window in windows:
+                yield from self._take(window, None)
+            return
+        ahead = []  # (window, pending result of its bundle) in walk order
+        for window in windows:
             pooled = [e for e in window if isinstance(e, _Sized) and self._to_workers(e)]
-            if len(pooled) > 1 and self._pool is None:
+            if pooled and self._pool is None:
                 self._pool = _start_pool(self.workers, self.opts, self.prepare)
-            if len(pooled) > 1 and self._pool is not None:
-                chunk = max(1, min(16, len(pooled) // (4 * self.workers)))
-                results = self._pool.imap(_worker_read, pooled, chunksize=chunk)
-            else:
-                results = (_read_all(sized, self.opts, None, self.prepare) for sized in pooled)
+            pending = None
+            if pooled:
+                if self._pool is not None:
+                    pending = self._pool.apply_async(_worker_read, (pooled,))
+                else:
+                    pending = _Ready(_read_bundle(pooled, self.opts, self.prepare))
+            ahead.append((window, pending))
+            while len(ahead) > WINDOWS_AHEAD_PER_WORKER * self.workers:
+                yield from self._take(*ahead.pop(0))
+        while ahead:
+            yield from self._take(*ahead.pop(0))
+
+    def _take(self, window: list, pending):
+        results = iter(pending.get()) if pending is not None else iter(())
         for event in window:
             if not isinstance(event, _Sized):
                 yield event
-            elif self.workers > 1 and self._to_workers(event):
+            elif pending is not None and self._to_workers(event):
                 yield next(results)
             else:
                 yield _read_found(event.item, self.opts, self.unchanged, event.info)
@@ -252,6 +281,15 @@ class _Readers:
             self._pool.terminate()
             self._pool.join()
             self._pool = None
+
+
+class _Ready(NamedTuple):
+    """A result already at hand, with the ``get`` of a pending one."""
+
+    value: list
+
+    def get(self) -> list:
+        return self.value
 
 
 def _start_pool(workers: int, opts: ReadOptions, prepare):
@@ -451,25 +489,24 @@ def iter_documents(
             else:
                 found = iter([_Found(path, _rel(path, base), walked=False)])
             window_files = WINDOW_FILES if readers.workers > 1 else 1
-            for window in _windows(found, walk_entries, seen_files, window_files):
-                for event in readers.outcomes(window):
-                    if isinstance(event, LedgerEntry):
-                        ledger.append(event)
-                        continue
-                    for doc, entry in event:
-                        if doc is not None and doc.id in seen_ids:
-                            # Only a file named like an archive member or a record ("a.zip!", "b.csv#1").
-                            entry.status, entry.reason = (
-                                "skipped",
-                                f"id {doc.id!r} repeats an earlier document",
-                            )
-                            entry.document_id = ""
-                            doc = None
-                        ledger.append(entry)
-                        if doc is not None:
-                            seen_ids.add(doc.id)
-                            yield doc
-                        elif entry.reason == UNCHANGED_REASON:
-                            seen_ids.add(entry.document_id)
+            for event in readers.events(_windows(found, walk_entries, seen_files, window_files)):
+                if isinstance(event, LedgerEntry):
+                    ledger.append(event)
+                    continue
+                for doc, entry in event:
+                    if doc is not None and doc.id in seen_ids:
+                        # Only a file named like an archive member or a record ("a.zip!", "b.csv#1").
+                        entry.status, entry.reason = (
+                            "skipped",
+                            f"id {doc.id!r} repeats an earlier document",
+                        )
+                        entry.document_id = ""
+                        doc = None
+                    ledger.append(entry)
+                    if doc is not None:
+                        seen_ids.add(doc.id)
+                        yield doc
+                    elif entry.reason == UNCHANGED_REASON:
+                        seen_ids.add(entry.document_id)
     finally:
         readers.close()

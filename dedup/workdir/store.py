@@ -81,6 +81,19 @@ class ByteStore:
             self._starts.append(end)
         return first
 
+    def extend_packed(self, buf: np.ndarray, offsets: np.ndarray) -> int:
+        """Store the segments ``buf[offsets[k]:offsets[k + 1]]`` (any dtype: their bytes)
+        with one write; returns the slot of the first."""
+        if self._map is not None:
+            raise RuntimeError("the store has been read from; it takes no more writes")
+        first = len(self._starts) - 1
+        a, b = int(offsets[0]), int(offsets[-1])
+        self._file.write(memoryview(np.ascontiguousarray(buf[a:b])).cast("B"))
+        width = buf.dtype.itemsize
+        ends = self._starts[-1] + (np.asarray(offsets[1:], dtype=np.int64) - a) * width
+        self._starts.frombytes(ends.astype(np.int64).tobytes())
+        return first
+
     def _open_view(self) -> np.ndarray:
         if self._view is None:
             self._file.close()

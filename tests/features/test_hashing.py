@@ -6,6 +6,7 @@ import subprocess
 import sys
 
 import numpy as np
+import pytest
 
 from dedup.features import build_features, shingle_strings
 
@@ -118,7 +119,7 @@ def test_binned_shingles_give_the_jaccard_of_shingle_strings():
     """Reference: Jaccard of Python sets of shingle strings (`shingle_strings`, the word k-shingles
     themselves, no hashing); the 64-bit shingle hashes must give the same value on real text with
     repeats, reordered and dropped words."""
-    base = (
+    base = (  # noqa: SIM905 - one readable sentence
         "water meters are read every quarter by the field team and estimates follow when a meter "
         "cannot be reached the team leaves a card and the customer may send a reading online"
     ).split()
@@ -137,3 +138,17 @@ def test_binned_shingles_give_the_jaccard_of_shingle_strings():
             np.union1d(fs.shingles_of(0), fs.shingles_of(d))
         )
         assert ours == len(sets[0] & sets[d]) / len(sets[0] | sets[d])
+
+
+@pytest.mark.parametrize("scheme", ["stable64", "binned"])
+def test_shingles_from_kept_word_hashes_match_those_from_the_texts(scheme):
+    # Reference: features_from_buffer over the same texts (itself checked against Python sets above).
+    from dedup.features.shingles import features_from_buffer, features_from_tokens, pack_bytes
+
+    buf, offsets = pack_bytes([b"a b c d e f g", b"", b"one two", b"x y z x y z x y z"])
+    ref = features_from_buffer(buf, offsets, shingle_size=3, hash_scheme=scheme)
+    got = features_from_tokens(ref.token_hashes, ref.token_offsets, shingle_size=3, hash_scheme=scheme)
+    assert np.array_equal(got.shingles, ref.shingles)
+    assert np.array_equal(got.shingle_offsets, ref.shingle_offsets)
+    with pytest.raises(ValueError, match="cannot give"):
+        features_from_tokens(ref.token_hashes, ref.token_offsets, hash_scheme="datasketch-sha1")

@@ -47,3 +47,21 @@ def test_existing_folder_keeps_other_files(tmp_path):
     with WorkFolder(str(tmp_path)) as work:
         work.store("texts").append(b"abc")
     assert sorted(os.listdir(tmp_path)) == ["mine.txt"]
+
+
+def test_packed_segments_read_back_as_the_bytes_appended_one_by_one(tmp_path):
+    # Reference: the same segments stored with append, one at a time.
+    values = np.arange(10, dtype=np.uint64) * np.uint64(2**40 + 3)
+    offsets = np.array([2, 5, 5, 9], dtype=np.int64)
+    packed, single = ByteStore(str(tmp_path / "p.bin")), ByteStore(str(tmp_path / "s.bin"))
+    packed.append(b"head")
+    single.append(b"head")
+    assert packed.extend_packed(values, offsets) == 1
+    for a, b in zip(offsets[:-1], offsets[1:]):
+        single.append(values[a:b].tobytes())
+    assert np.array_equal(packed.offsets(), single.offsets())
+    buf, offs = packed.gather([3, 1])
+    assert np.array_equal(buf.view(np.uint64), np.concatenate([values[5:9], values[2:5]]))
+    assert offs.tolist() == [0, 32, 56]
+    packed.close()
+    single.close()
