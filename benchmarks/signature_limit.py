@@ -34,6 +34,7 @@ def bare_pass(files: list[Path]) -> int:
 
 
 def signature_stage(files: list[Path]) -> np.ndarray:
+    import dedup
     from dedup.features.shingles import features_from_buffer, pack_bytes
     from dedup.normalize.canonical_bytes import canonical_line_bytes
     from dedup.sketch import minhash_signatures
@@ -42,8 +43,11 @@ def signature_stage(files: list[Path]) -> np.ndarray:
     buf, offsets = pack_bytes(lines)
     buf = np.where(buf == 0x0A, np.uint8(0x20), buf)  # lines joined by spaces: the canonical text
     # MinHash needs no shingle set: repeats do not change a minimum.
-    features = features_from_buffer(buf, offsets, shingle_size=5, distinct=False)
-    return minhash_signatures(features.shingles, features.shingle_offsets, num_perm=128).values
+    scheme = dedup.AuditSettings().hash_scheme  # the audit's own shingle and MinHash scheme
+    features = features_from_buffer(buf, offsets, shingle_size=5, hash_scheme=scheme, distinct=False)
+    return minhash_signatures(
+        features.shingles, features.shingle_offsets, num_perm=128, hash_scheme=scheme
+    ).values
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -234,6 +234,10 @@ def audit(
         tokenize.release_scratch()
 
 
+# Up to this many bytes of distinct text, the sketch pass keeps the word hashes of every text.
+KEEP_WORDS_TEXT_BYTES = 64 * 2**20
+
+
 def _audit(
     paths: Sequence[str],
     settings: AuditSettings,
@@ -315,9 +319,12 @@ def _audit(
     if method == "auto":
         method = "exhaustive" if n_reps <= settings.exhaustive_max_docs else "lsh"
     progress.start("shingling", n_reps)
-    # Word hashes kept on disk for the texts compared later (8 bytes a word): cheaper to
-    # read back than to tokenize the texts again.
-    words = work.store("words") if from_word_hashes(settings) else None
+    # Word hashes kept on disk for the texts compared later (8 bytes a word, about 1.3 times
+    # the text): cheaper to read back than to tokenize the texts again. Beyond a modest
+    # corpus they are not kept: the work folder would more than double, and there the
+    # compared texts are a small share, cheaper to tokenize again than to write all words for.
+    keep_words = from_word_hashes(settings) and canonicals.size <= KEEP_WORDS_TEXT_BYTES
+    words = work.store("words") if keep_words else None
     sketch = sketch_pass(
         rep_slots,
         canonicals,
