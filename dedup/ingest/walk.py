@@ -195,15 +195,6 @@ WORKER_FILE_BYTES = 16 * 2**20
 WINDOWS_AHEAD_PER_WORKER = 2
 
 
-def _read_all(sized: _Sized, opts: ReadOptions, unchanged, prepare) -> list[Outcome]:
-    outcomes = list(_read_found(sized.item, opts, unchanged, sized.info))
-    if prepare is not None:
-        docs = [doc for doc, _ in outcomes if doc is not None]
-        if docs:
-            prepare(docs)
-    return outcomes
-
-
 def _read_bundle(bundle: list[_Sized], opts: ReadOptions, prepare) -> list[list[Outcome]]:
     """The outcomes of each file of a bundle; ``prepare`` runs once on all their documents
     (one call of the compiled kernels for the bundle, not one per file)."""
