@@ -271,7 +271,8 @@ def build_parser() -> argparse.ArgumentParser:
         default=argparse.SUPPRESS,
         metavar="DIR",
         help="folder for intermediate data spilled to disk while auditing (texts, signatures; about twice "
-        "the size of the text read); default: .dedup-work in the output folder",
+        "the size of the text read, plus the word hashes of up to 64 MB of text); default: .dedup-work in "
+        "the output folder",
     )
     g.add_argument(
         "--keep-work", action="store_true", help="leave the work folder in place at the end (to inspect it)"
