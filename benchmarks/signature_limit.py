@@ -35,13 +35,14 @@ def bare_pass(files: list[Path]) -> int:
 
 def signature_stage(files: list[Path]) -> np.ndarray:
     import dedup
-    from dedup.features.shingles import features_from_buffer, pack_bytes
-    from dedup.normalize.canonical_bytes import canonical_line_bytes
+    from dedup.features.shingles import features_from_buffer
+    from dedup.normalize.canonical_bytes import canonical_packed
     from dedup.sketch import minhash_signatures
 
-    lines, _ = canonical_line_bytes([f.read_bytes().decode("utf-8") for f in files])
-    buf, offsets = pack_bytes(lines)
-    buf = np.where(buf == 0x0A, np.uint8(0x20), buf)  # lines joined by spaces: the canonical text
+    data = [f.read_bytes() for f in files]
+    # The audit keeps each text's UTF-8 bytes beside its string, so the kernel reads those;
+    # lines joined by spaces are the canonical text.
+    buf, offsets, _ = canonical_packed([d.decode("utf-8") for d in data], encoded=data, separator=b" ")
     # MinHash needs no shingle set: repeats do not change a minimum.
     scheme = dedup.AuditSettings().hash_scheme  # the audit's own shingle and MinHash scheme
     features = features_from_buffer(buf, offsets, shingle_size=5, hash_scheme=scheme, distinct=False)

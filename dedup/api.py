@@ -10,6 +10,7 @@ actions.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import hashlib
 import json
 import resource
@@ -267,7 +268,7 @@ def _audit(
         exclude=settings.exclude,
         include_vcs=settings.include_vcs,
         workers=workers,
-        prepare=prepare_documents,
+        prepare=functools.partial(prepare_documents, lines=settings.boilerplate),
     )
     read = read_pass(documents_in, settings, originals, canonicals, progress)
     documents = read.documents

@@ -27,7 +27,7 @@ from .features import tokenize
 from .features.shingles import features_from_tokens, features_with, pack_bytes
 from .normalize import content_hash
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
-from .normalize.canonical_bytes import canonical_line_bytes
+from .normalize.canonical_bytes import canonical_packed
 from .progress import Progress
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
@@ -59,20 +59,26 @@ def _date_of(value: object) -> float | None:
     return None
 
 
-def prepare_documents(documents: list, parallel: bool = False) -> None:
+def prepare_documents(documents: list, parallel: bool = False, lines: bool = True) -> None:
     """Normalize documents in place: ``doc.prepared`` becomes (original UTF-8 bytes,
-    canonical lines joined by LF, characters of the canonical text, content hash) and
-    ``doc.text`` is emptied (the bytes carry it). Runs where the documents are read — in
-    worker processes when there are workers — so the text crosses between processes once.
+    canonical form, characters of the canonical text, content hash) and ``doc.text`` is
+    emptied (the bytes carry it). The canonical form is the canonical lines joined by LF
+    with ``lines`` (boilerplate is found by line), else the canonical text (joined by
+    spaces). Runs where the documents are read — in worker processes when there are
+    workers — so the text crosses between processes once.
     """
     originals = [doc.text.encode("utf-8", "surrogatepass") for doc in documents]
-    stored_of, chars_of = canonical_line_bytes(
-        [doc.text for doc in documents], parallel=parallel, encoded=originals
+    buf, offsets, chars_of = canonical_packed(
+        [doc.text for doc in documents], parallel=parallel, encoded=originals, separator=b"\n" if lines else b" "
     )
-    for doc, original, stored, characters in zip(documents, originals, stored_of, chars_of):
-        # The canonical text is the canonical lines joined by spaces.
-        digest = content_hash(stored.replace(b"\n", b" "))
-        doc.prepared = (original, stored, characters, digest)
+    spaced = buf
+    if lines:
+        spaced = buf.copy()
+        spaced[spaced == 0x0A] = 0x20
+    bounds = offsets.tolist()
+    for doc, original, a, b, characters in zip(documents, originals, bounds[:-1], bounds[1:], chars_of):
+        # The content hash is taken over the canonical text: the lines joined by spaces.
+        doc.prepared = (original, buf[a:b].tobytes(), characters, content_hash(spaced[a:b]))
         doc.text = ""
 
 
@@ -150,7 +156,7 @@ def read_pass(
         nonlocal pending_bytes, batch_bytes
         todo = [doc for doc in batch if doc.prepared is None]
         if todo:
-            prepare_documents(todo, parallel=True)
+            prepare_documents(todo, parallel=True, lines=use_lines)
         originals.extend([doc.prepared[0] for doc in batch])
         for doc in batch:
             original, stored, characters, digest = doc.prepared
@@ -171,9 +177,8 @@ def read_pass(
             records.append(record)
             if stored and digest not in seen:
                 seen.add(digest)
-                kept_form = stored if use_lines else stored.replace(b"\n", b" ")
-                pending.append((digest, kept_form))
-                pending_bytes += len(kept_form)
+                pending.append((digest, stored))
+                pending_bytes += len(stored)
                 if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
                     flush()
         progress.advance(len(batch))

@@ -14,8 +14,9 @@ import numpy as np
 __all__ = ["content_hash", "exact_groups"]
 
 
-def content_hash(canonical: str | bytes) -> str:
-    """BLAKE2b (128-bit digest) of the canonical text (or its UTF-8 bytes), as hex; identical on every machine."""
+def content_hash(canonical: str | bytes | memoryview | np.ndarray) -> str:
+    """BLAKE2b (128-bit digest) of the canonical text (or its UTF-8 bytes, in any contiguous
+    buffer), as hex; identical on every machine."""
     data = canonical.encode("utf-8") if isinstance(canonical, str) else canonical
     return hashlib.blake2b(data, digest_size=16).hexdigest()
 
