@@ -95,29 +95,52 @@ def count_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> 
     return counts
 
 
+_ONE = np.uint64(1)
+
+
 @njit(cache=True, inline="always")
 def _hash_words(buf, i, stop, table, out, w):
     # Hashes of the words of buf[i:stop] written from out[w]; returns the next free place.
+    # ASCII bytes (most of any text) are taken one by one on unsigned indices, which spares
+    # the compiled code a test for negative indices on every byte; others are decoded.
     in_word = False
     h = FNV_OFFSET
-    while i < stop:
-        cp, length = _decode(buf, i, stop)
+    at = np.uint64(i)
+    end = np.uint64(stop)
+    to = np.uint64(w)
+    while at < end:
+        c = buf[at]
+        if c < 0x80:
+            if table[c] == 1:
+                if not in_word:
+                    h = FNV_OFFSET
+                    in_word = True
+                h ^= np.uint64(c)
+                h *= FNV_PRIME
+            elif in_word:
+                out[to] = fmix64(h)
+                to += _ONE
+                in_word = False
+            at += _ONE
+            continue
+        a = np.int64(at)
+        cp, length = _decode(buf, a, stop)
         word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
         if word:
             if not in_word:
                 h = FNV_OFFSET
-            for j in range(i, i + length):
+            for j in range(a, a + length):
                 h ^= np.uint64(buf[j])
                 h *= FNV_PRIME
         elif in_word:
-            out[w] = fmix64(h)
-            w += 1
+            out[to] = fmix64(h)
+            to += _ONE
         in_word = word
-        i += length
+        at += np.uint64(length)
     if in_word:
-        out[w] = fmix64(h)
-        w += 1
-    return w
+        out[to] = fmix64(h)
+        to += _ONE
+    return np.int64(to)
 
 
 @njit(cache=True, parallel=True)
