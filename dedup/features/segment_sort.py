@@ -24,42 +24,55 @@ SMALL_BUCKET = 24
 MAX_DIGIT_BITS = 16
 
 
+# Indices are unsigned throughout: the compiled code then needs no test for negative
+# indices on every access (about a fifth of the time of these loops).
+_ONE = np.uint64(1)
+_SMALL = np.uint64(SMALL_BUCKET)
+
+
 @njit(cache=True, inline="always")
 def _insertion_sort(values, a, b):
-    for i in range(a + 1, b):
+    i = a + _ONE
+    while i < b:
         v = values[i]
-        j = i - 1
-        while j >= a and values[j] > v:
-            values[j + 1] = values[j]
-            j -= 1
-        values[j + 1] = v
+        j = i
+        while j > a and values[j - _ONE] > v:
+            values[j] = values[j - _ONE]
+            j -= _ONE
+        values[j] = v
+        i += _ONE
 
 
 @njit(cache=True, inline="always")
 def _all_equal(values, a, b):
-    for i in range(a + 1, b):  # noqa: SIM110 - compiled code: no generator expressions
+    i = a + _ONE
+    while i < b:
         if values[i] != values[a]:
             return False
+        i += _ONE
     return True
 
 
 @njit(cache=True)
-def _sort_one(values, a, b):
-    """Sort ``values[a:b]`` in place."""
-    n = b - a
+def _sort_one(values, start, stop):
+    """Sort ``values[start:stop]`` in place."""
+    a, b = np.uint64(start), np.uint64(stop)
+    n = stop - start
     if n <= SMALL_BUCKET:
         _insertion_sort(values, a, b)
         return
     lo = values[a]
     hi = values[a]
-    for i in range(a + 1, b):
+    i = a + _ONE
+    while i < b:
         v = values[i]
         if v < lo:
             lo = v
         if v > hi:
             hi = v
+        i += _ONE
     if lo < 0:  # a signed segment with negative values: no radix digit of it is monotone
-        values[a:b].sort()
+        values[start:stop].sort()
         return
     top = 0  # bit length of the largest value
     x = hi
@@ -69,26 +82,30 @@ def _sort_one(values, a, b):
     bits = 1
     while bits < MAX_DIGIT_BITS and (1 << (bits + 2)) < n:
         bits += 1
-    shift = max(top - bits, 0)
+    shift = np.uint64(max(top - bits, 0))
     size = 1 << bits
-    starts = np.zeros(size + 1, dtype=np.int64)
-    for i in range(a, b):
-        starts[(values[i] >> shift) + 1] += 1
+    starts = np.zeros(size + 1, dtype=np.uint64)
+    i = a
+    while i < b:
+        starts[(np.uint64(values[i]) >> shift) + _ONE] += _ONE
+        i += _ONE
     for k in range(size):
         starts[k + 1] += starts[k]
     fill = starts[:size].copy()
     spread = np.empty(n, dtype=values.dtype)
-    for i in range(a, b):
-        k = values[i] >> shift
+    i = a
+    while i < b:
+        k = np.uint64(values[i]) >> shift
         spread[fill[k]] = values[i]
-        fill[k] += 1
+        fill[k] += _ONE
+        i += _ONE
     for k in range(size):
         s, e = starts[k], starts[k + 1]
-        if e - s <= SMALL_BUCKET:
+        if e - s <= _SMALL:
             _insertion_sort(spread, s, e)
         elif not _all_equal(spread, s, e):
             spread[s:e].sort()
-    values[a:b] = spread
+    values[start:stop] = spread
 
 
 @njit(cache=True, parallel=True)
@@ -109,8 +126,9 @@ def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.nd
         if b > a:
             _sort_one(values, a, b)
             c = 1
-            for i in range(a + 1, b):
-                if values[i] != values[i - 1]:
-                    c += 1
+            i, end = np.uint64(a) + _ONE, np.uint64(b)
+            while i < end:
+                c += np.int64(values[i] != values[i - _ONE])
+                i += _ONE
             uniques[d] = c
     return uniques

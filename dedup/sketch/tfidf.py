@@ -278,13 +278,16 @@ def _collision_record(v: int, n_features: int, method: str, measured: float | No
 def _count_df(columns, offsets, first_doc, last_seen, df):
     # One pass over the tokens: a column counts once per document (the last document that
     # touched it is remembered), so no per-document sort is needed.
+    # Unsigned indices: no test for negative indices on every access.
     for d in range(offsets.shape[0] - 1):
         doc = first_doc + d
-        for i in range(offsets[d], offsets[d + 1]):
-            c = columns[i]
+        i, end = np.uint64(offsets[d]), np.uint64(offsets[d + 1])
+        while i < end:
+            c = np.uint64(columns[i])
             if last_seen[c] != doc:
                 last_seen[c] = doc
                 df[c] += 1
+            i += np.uint64(1)
 
 
 class DocumentFrequency:
