@@ -169,10 +169,8 @@ def compact_segments(values, starts, offsets, out):
     """Move segment d, written at ``values[starts[d]:]``, to ``out[offsets[d]:offsets[d + 1]]``
     (segments written with room to spare, laid end to end)."""
     for d in prange(offsets.shape[0] - 1):
-        a = starts[d]
-        w = offsets[d]
-        for j in range(offsets[d + 1] - w):
-            out[w + j] = values[a + j]
+        a, w, n = starts[d], offsets[d], offsets[d + 1] - offsets[d]
+        out[w : w + n] = values[a : a + n]
 
 
 _SCRATCH = threading.local()
