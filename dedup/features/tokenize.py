@@ -221,11 +221,8 @@ def words_and_hashes(
 def _gather(buf, offsets, picks, out_offsets, out):
     for k in range(picks.shape[0]):
         d = picks[k]
-        a = offsets[d]
-        n = offsets[d + 1] - a
-        w = out_offsets[k]
-        for j in range(n):
-            out[w + j] = buf[a + j]
+        a, w, n = offsets[d], out_offsets[k], offsets[d + 1] - offsets[d]
+        out[w : w + n] = buf[a : a + n]
 
 
 def gather_segments(buf: np.ndarray, offsets: np.ndarray, picks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
