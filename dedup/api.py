@@ -26,6 +26,7 @@ from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
 from .features.shingles import from_word_hashes
+from .heap import lean_allocation
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
 from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
@@ -123,7 +124,8 @@ class AuditResult:
         """Write every output file into ``out_dir``; returns name → path."""
         from .report import write_outputs
 
-        return write_outputs(self, out_dir, progress=progress)
+        with lean_allocation():
+            return write_outputs(self, out_dir, progress=progress)
 
 
 NOTICE = (
@@ -229,7 +231,7 @@ def audit(
     progress = progress or Progress.silent()
     known_boilerplate = _read_ignore_text(settings.ignore_text_file)
     try:
-        with WorkFolder(work_dir, keep=keep_work) as work:
+        with lean_allocation(), WorkFolder(work_dir, keep=keep_work) as work:
             return _audit(paths, settings, progress, known_boilerplate, work, workers)
     finally:
         tokenize.release_scratch()

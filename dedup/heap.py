@@ -1,0 +1,89 @@
+"""How the audit asks the system for memory: reuse what it freed, no huge pages.
+
+The audit works chunk by chunk: each chunk allocates arrays of tens to hundreds of
+megabytes (word hashes, shingles, room reserved for the most a text can hold), frees
+them, and the next chunk allocates them again. Two defaults made that costly:
+
+- glibc serves an allocation above its mapping threshold with fresh zeroed pages and
+  unmaps it on free, so every chunk page-faulted its arrays in again;
+- numpy asks for transparent huge pages on large arrays, so the first touch of each
+  2 MB of an array, however little of it is used, zeroes all of it.
+
+On the speed benchmark's corpus that was 0.3 to 1.5 s of system time in an audit of
+1.5 to 3 s, most of it zeroing pages, and varying widely from run to run.
+
+`lean_allocation` raises glibc's mapping and trim thresholds (``M_MMAP_THRESHOLD``,
+``M_TRIM_THRESHOLD``) so freed arrays stay in the heap for the next chunk, and turns
+numpy's huge-page advice off; on exit it puts back glibc's defaults and numpy's advice
+and returns the free memory to the system (``malloc_trim``). Where the C library is not
+glibc only the numpy part applies.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import ctypes
+import ctypes.util
+import threading
+from collections.abc import Iterator
+
+__all__ = ["lean_allocation"]
+
+# mallopt parameters of glibc's <malloc.h>, and glibc's defaults for them.
+_M_TRIM_THRESHOLD = -1
+_M_MMAP_THRESHOLD = -3
+_DEFAULT_THRESHOLD = 128 * 1024
+
+_LOCK = threading.Lock()
+_state = {"depth": 0, "numpy_advice": None}
+
+
+def _glibc():
+    try:
+        name = ctypes.util.find_library("c")
+        lib = ctypes.CDLL(name) if name else None
+        # Only glibc has gnu_get_libc_version; the thresholds are glibc's.
+        if lib is None or not all(
+            hasattr(lib, f) for f in ("mallopt", "malloc_trim", "gnu_get_libc_version")
+        ):
+            return None
+    except OSError:
+        return None
+    return lib
+
+
+def _numpy_advice_setter():
+    try:
+        from numpy._core import multiarray
+    except ImportError:  # numpy < 2
+        from numpy.core import multiarray
+    return getattr(multiarray, "_set_madvise_hugepage", None)
+
+
+@contextlib.contextmanager
+def lean_allocation(largest_reused: int = 1 << 30) -> Iterator[None]:
+    """Keep freed blocks of up to ``largest_reused`` bytes for reuse, and no huge pages
+    for numpy arrays, while inside. Nested and concurrent uses share one setting; the
+    outermost exit restores the defaults and returns free memory to the system."""
+    lib = _glibc()
+    advise = _numpy_advice_setter()
+    with _LOCK:
+        _state["depth"] += 1
+        if _state["depth"] == 1:
+            if lib is not None:
+                lib.mallopt(_M_MMAP_THRESHOLD, ctypes.c_int(largest_reused))
+                lib.mallopt(_M_TRIM_THRESHOLD, ctypes.c_int(2 * largest_reused - 1))
+            if advise is not None:
+                _state["numpy_advice"] = advise(False)
+    try:
+        yield
+    finally:
+        with _LOCK:
+            _state["depth"] -= 1
+            if _state["depth"] == 0:
+                if advise is not None and _state["numpy_advice"] is not None:
+                    advise(_state["numpy_advice"])
+                if lib is not None:
+                    lib.mallopt(_M_MMAP_THRESHOLD, ctypes.c_int(_DEFAULT_THRESHOLD))
+                    lib.mallopt(_M_TRIM_THRESHOLD, ctypes.c_int(_DEFAULT_THRESHOLD))
+                    lib.malloc_trim(ctypes.c_size_t(0))

@@ -1,0 +1,64 @@
+"""The audit's allocation settings apply inside and are undone after, and change no result."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+import dedup
+from dedup import heap
+
+
+def _numpy_advice() -> bool:
+    setter = heap._numpy_advice_setter()
+    if setter is None:
+        pytest.skip("this numpy has no huge-page switch")
+    previous = setter(True)
+    setter(previous)
+    return previous
+
+
+def test_numpy_huge_page_advice_is_off_inside_and_restored_after():
+    before = _numpy_advice()
+    with heap.lean_allocation():
+        assert _numpy_advice() is False
+        with heap.lean_allocation():  # nested: still off
+            assert _numpy_advice() is False
+        assert _numpy_advice() is False  # the inner exit does not restore
+    assert _numpy_advice() is before
+
+
+def test_restored_when_the_body_raises():
+    before = _numpy_advice()
+    with pytest.raises(RuntimeError), heap.lean_allocation():
+        raise RuntimeError("stop")
+    assert _numpy_advice() is before
+    assert heap._state["depth"] == 0
+
+
+def test_arrays_allocated_inside_are_usable_after():
+    with heap.lean_allocation():
+        kept = np.arange(4_000_000, dtype=np.int64)  # 32 MB: above glibc's default threshold
+    assert int(kept.sum()) == 4_000_000 * 3_999_999 // 2
+
+
+def test_audit_outputs_do_not_depend_on_it(tmp_path, monkeypatch):
+    import contextlib
+
+    import dedup.api as api
+
+    folder = tmp_path / "docs"
+    folder.mkdir()
+    base = " ".join(f"word{i}" for i in range(300))
+    for i in range(12):
+        (folder / f"d{i}.txt").write_text(base + f" tail{i % 4} end{i}")
+
+    def run() -> str:
+        result = dedup.audit([str(folder)], dedup.AuditSettings(candidates="lsh"))
+        return json.dumps([result.pairs, result.clusters], sort_keys=True)
+
+    with_lean = run()
+    monkeypatch.setattr(api, "lean_allocation", contextlib.nullcontext)
+    assert run() == with_lean
