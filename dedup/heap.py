@@ -14,9 +14,11 @@ On the speed benchmark's corpus that was 0.3 to 1.5 s of system time in an audit
 
 `lean_allocation` raises glibc's mapping and trim thresholds (``M_MMAP_THRESHOLD``,
 ``M_TRIM_THRESHOLD``) so freed arrays stay in the heap for the next chunk, and turns
-numpy's huge-page advice off; on exit it puts back glibc's defaults and numpy's advice
-and returns the free memory to the system (``malloc_trim``). Where the C library is not
-glibc only the numpy part applies.
+numpy's huge-page advice off; on exit it puts back glibc's default values and numpy's
+advice and returns the free memory to the system (``malloc_trim``). (Once set, glibc's
+mapping threshold stays at its value instead of adapting upwards as it does in a new
+process: a later large array is mapped afresh, as before the first adaptation.) Where
+the C library is not glibc only the numpy part applies.
 """
 
 from __future__ import annotations
