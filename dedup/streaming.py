@@ -69,7 +69,10 @@ def prepare_documents(documents: list, parallel: bool = False, lines: bool = Tru
     """
     originals = [doc.text.encode("utf-8", "surrogatepass") for doc in documents]
     buf, offsets, chars_of = canonical_packed(
-        [doc.text for doc in documents], parallel=parallel, encoded=originals, separator=b"\n" if lines else b" "
+        [doc.text for doc in documents],
+        parallel=parallel,
+        encoded=originals,
+        separator=b"\n" if lines else b" ",
     )
     spaced = buf
     if lines:

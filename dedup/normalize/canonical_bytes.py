@@ -298,7 +298,9 @@ def canonical_packed(
         folded = [
             unicodedata.normalize("NFKC", texts[k]).casefold().encode("utf-8", "surrogatepass") for k in redo
         ]
-        again_out, again_starts, again_lengths, again_chars, _ = _run(*pack_bytes(folded), parallel, separator)
+        again_out, again_starts, again_lengths, again_chars, _ = _run(
+            *pack_bytes(folded), parallel, separator
+        )
         for j, k in enumerate(redo):
             a = int(again_starts[j])
             fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()

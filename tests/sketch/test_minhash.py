@@ -109,7 +109,9 @@ def test_binned_fills_every_bin_and_keeps_the_empty_signature():
     assert not np.any(sig[0] == 0xFFFFFFFF) and not np.any(sig[2] == 0xFFFFFFFF)
     assert np.all(sig[1] == 0xFFFFFFFF)
     # Two one-shingle sets agree nowhere, as their Jaccard of 0 says; a set and itself everywhere.
-    single = minhash_signatures(np.array([999, 12345], dtype=np.uint64), np.array([0, 1, 2]), num_perm=128, seed=5).values
+    single = minhash_signatures(
+        np.array([999, 12345], dtype=np.uint64), np.array([0, 1, 2]), num_perm=128, seed=5
+    ).values
     assert not np.any(single[0] == single[1]) and np.array_equal(single[1], sig[0])
     again = minhash_signatures(shingles, offsets, num_perm=128, seed=5).values
     assert np.array_equal(sig, again)
