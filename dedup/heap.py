@@ -26,6 +26,7 @@ from __future__ import annotations
 import contextlib
 import ctypes
 import ctypes.util
+import functools
 import threading
 from collections.abc import Iterator
 
@@ -40,7 +41,9 @@ _LOCK = threading.Lock()
 _state = {"depth": 0, "numpy_advice": None}
 
 
+@functools.cache
 def _glibc():
+    # Looked up once: find_library may run ldconfig or a compiler to find the library.
     try:
         name = ctypes.util.find_library("c")
         lib = ctypes.CDLL(name) if name else None
