@@ -62,3 +62,23 @@ def test_audit_outputs_do_not_depend_on_it(tmp_path, monkeypatch):
     with_lean = run()
     monkeypatch.setattr(api, "lean_allocation", contextlib.nullcontext)
     assert run() == with_lean
+
+
+@pytest.mark.parametrize("enabled_before", [True, False])
+def test_cycle_collection_rests_inside_and_comes_back_as_it_was(enabled_before):
+    import gc
+
+    was = gc.isenabled()
+    try:
+        (gc.enable if enabled_before else gc.disable)()
+        with heap.lean_allocation():
+            assert not gc.isenabled()
+            with heap.lean_allocation():
+                assert not gc.isenabled()
+            assert not gc.isenabled()  # the inner exit does not restore
+        assert gc.isenabled() is enabled_before
+        with pytest.raises(RuntimeError), heap.lean_allocation():
+            raise RuntimeError("stop")
+        assert gc.isenabled() is enabled_before
+    finally:
+        (gc.enable if was else gc.disable)()
