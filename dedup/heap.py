@@ -77,10 +77,10 @@ def _numpy_advice_setter():
 
 @contextlib.contextmanager
 def lean_allocation(largest_reused: int = 1 << 30) -> Iterator[None]:
-    """Keep freed blocks of up to ``largest_reused`` bytes for reuse, and no huge pages
-    for numpy arrays, and no cyclic garbage collection, while inside. Nested and
-    concurrent uses share one setting; the
-    outermost exit restores the defaults and returns free memory to the system."""
+    """Keep freed blocks of up to ``largest_reused`` bytes for reuse, no huge pages for
+    numpy arrays and no cyclic garbage collection while inside. Nested and concurrent
+    uses share one setting; the outermost exit restores the defaults and returns free
+    memory to the system."""
     lib = _glibc()
     advise = _numpy_advice_setter()
     with _LOCK:
