@@ -32,7 +32,16 @@ from .normalize import exact_groups
 from .normalize.boilerplate import Boilerplate, canonical_lines
 from .progress import Progress
 from .settings import AuditSettings
-from .streaming import SlotRows, compared_sets, prepare_documents, read_pass, sketch_pass
+from .streaming import (
+    ChunkSketcher,
+    SlotRows,
+    compared_sets,
+    kernels_thread_safe,
+    prepare_documents,
+    read_pass,
+    sketch_pass,
+    text_order,
+)
 from .verify import PairScores, deciding_score, score_pairs
 from .workdir import WorkFolder
 
@@ -239,6 +248,21 @@ def audit(
 
 # Up to this many bytes of distinct text, the sketch pass keeps the word hashes of every text.
 KEEP_WORDS_TEXT_BYTES = 64 * 2**20
+# Sketch the texts while they are read, when there is no boilerplate to strip first.
+OVERLAP_SKETCH = True
+# Up to this many bytes of distinct text, sketching while reading also makes the shingle
+# sets and term counts of every text (about 3 bytes per byte of text), so the compared
+# texts are only picked out of them; beyond, the compared texts are tokenized again.
+KEEP_SETS_TEXT_BYTES = 64 * 2**20
+
+
+def _bands(settings: AuditSettings) -> tuple[int, int]:
+    """The LSH bands and rows: as set, else chosen for the candidate threshold."""
+    if settings.bands is not None:
+        return settings.bands, settings.rows
+    return choose_bands(
+        settings.effective_candidate_threshold, settings.num_perm, settings.false_positive_weight
+    )
 
 
 def _audit(
@@ -272,7 +296,23 @@ def _audit(
         workers=workers,
         prepare=functools.partial(prepare_documents, lines=settings.boilerplate),
     )
-    read = read_pass(documents_in, settings, originals, canonicals, progress)
+    # Without boilerplate to strip, the stored texts are the texts to shingle: they are
+    # sketched while the reading goes on (LSH signatures too unless comparison is
+    # exhaustive by choice; for "auto" they go unused when the corpus turns out small).
+    bands, rows = _bands(settings)
+    early: ChunkSketcher | None = None
+    if not settings.boilerplate and OVERLAP_SKETCH and kernels_thread_safe():
+        early = ChunkSketcher(
+            settings,
+            lsh=(bands, rows) if settings.candidates != "exhaustive" else None,
+            signature_path=work.file("signatures.u32"),
+            sets_text_limit=KEEP_SETS_TEXT_BYTES,
+        )
+    try:
+        read = read_pass(documents_in, settings, originals, canonicals, progress, sketcher=early)
+    finally:
+        if early is not None:
+            early.close()
     documents = read.documents
     progress.done(f"{len(documents):,} documents")
     watch.split("ingest", read.read_seconds, "normalize")
@@ -314,10 +354,6 @@ def _audit(
 
     # -- features + sketches (second streaming pass over the distinct texts) ------------
     lsh_threshold = settings.effective_candidate_threshold
-    if settings.bands is not None:
-        bands, rows = settings.bands, settings.rows
-    else:
-        bands, rows = choose_bands(lsh_threshold, settings.num_perm, settings.false_positive_weight)
     method = settings.candidates
     if method == "auto":
         method = "exhaustive" if n_reps <= settings.exhaustive_max_docs else "lsh"
@@ -326,18 +362,24 @@ def _audit(
     # the text): cheaper to read back than to tokenize the texts again. Beyond a modest
     # corpus they are not kept: the work folder would more than double, and there the
     # compared texts are a small share, cheaper to tokenize again than to write all words for.
-    keep_words = from_word_hashes(settings) and canonicals.size <= KEEP_WORDS_TEXT_BYTES
-    words = work.store("words") if keep_words else None
-    sketch = sketch_pass(
-        rep_slots,
-        canonicals,
-        boilerplate,
-        settings,
-        lsh=(bands, rows) if method == "lsh" else None,
-        signature_path=work.file("signatures.u32"),
-        progress=progress,
-        word_store=words,
-    )
+    if early is not None:
+        # Sketched during the read pass, in store order; the slots are the texts' own.
+        sketch = early.finish(text_order(rep_slots))
+        words = early.word_store
+        progress.advance(n_reps)
+    else:
+        keep_words = from_word_hashes(settings) and canonicals.size <= KEEP_WORDS_TEXT_BYTES
+        words = work.store("words") if keep_words else None
+        sketch = sketch_pass(
+            rep_slots,
+            canonicals,
+            boilerplate,
+            settings,
+            lsh=(bands, rows) if method == "lsh" else None,
+            signature_path=work.file("signatures.u32"),
+            progress=progress,
+            word_store=words,
+        )
     progress.done()
     watch.lap("features")
     tfidf_info = sketch.frequencies.collision_stats()
@@ -348,6 +390,17 @@ def _audit(
     oversize: list[dict] = []
     exact_reps = np.asarray([doc_to_rep[g[0]] for g in groups], dtype=np.int64)
     progress.start("candidates")
+    compared_of = functools.partial(
+        compared_sets,
+        n_texts=n_reps,
+        slots=rep_slots,
+        canonicals=canonicals,
+        boilerplate=boilerplate,
+        frequencies=sketch.frequencies,
+        settings=settings,
+        word_store=words,
+        kept=sketch.sets,
+    )
     if method == "lsh":
         # Signatures were spilled in store order; only members of oversize buckets are read back.
         signatures = SlotRows(
@@ -361,20 +414,9 @@ def _audit(
         )
         del signatures
         needed = np.unique(np.concatenate([left, right, exact_reps]))
-        compared = compared_sets(
-            needed, n_reps, rep_slots, canonicals, boilerplate, sketch.frequencies, settings, word_store=words
-        )
+        compared = compared_of(needed)
     else:
-        compared = compared_sets(
-            np.arange(n_reps),
-            n_reps,
-            rep_slots,
-            canonicals,
-            boilerplate,
-            sketch.frequencies,
-            settings,
-            word_store=words,
-        )
+        compared = compared_of(np.arange(n_reps))
         cosine_extra = settings.threshold if settings.measure == "cosine" else None
         left, right = exhaustive_candidate_pairs(
             compared.shingles, compared.shingle_offsets, compared.model.rows, cosine_extra

@@ -9,13 +9,18 @@
 3. `compared_sets` rebuilds shingle sets and TF-IDF rows only for the texts that have a
    candidate pair (or are otherwise compared): exact scores need nothing else.
 
+Without boilerplate to strip, the texts stored are already the texts to shingle, so pass
+2 runs inside pass 1: a `ChunkSketcher` in a thread of its own sketches each chunk as it
+is stored, while this thread reads on (the compiled kernels release the interpreter
+lock). For a modest corpus it also keeps every text's shingle set and term counts, and
+pass 3 only picks the compared ones out.
+
 So memory holds the per-document records, 8 bytes per band per text and one chunk at a
 time, never the corpus.
 """
 
 from __future__ import annotations
 
-import contextlib
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -24,6 +29,7 @@ import numpy as np
 
 from .candidates.lsh import band_keys
 from .features import tokenize
+from .features.hashing import sort_unique_segments
 from .features.shingles import features_from_tokens, features_with, pack_bytes
 from .normalize import content_hash
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
@@ -33,7 +39,16 @@ from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
 from .workdir import ByteStore
 
-__all__ = ["ReadResult", "read_pass", "sketch_pass", "SketchResult", "compared_sets", "ComparedSets"]
+__all__ = [
+    "ReadResult",
+    "read_pass",
+    "ChunkSketcher",
+    "sketch_pass",
+    "SketchResult",
+    "compared_sets",
+    "ComparedSets",
+    "kernels_thread_safe",
+]
 
 # Documents (or characters of text) normalized together.
 BATCH_DOCUMENTS = 1024
@@ -41,6 +56,56 @@ BATCH_CHARACTERS = 8 * 2**20
 # Texts (or bytes of text) gathered before a chunk is processed.
 CHUNK_TEXTS = 8192
 CHUNK_BYTES = 32 * 2**20
+# Smaller chunks when the read pass hands them to a sketching thread as it goes.
+OVERLAP_CHUNK_TEXTS = 1024
+OVERLAP_CHUNK_BYTES = 4 * 2**20
+
+
+def kernels_thread_safe() -> bool:
+    """Whether compiled parallel kernels may run in two threads at once.
+
+    numba's ``omp`` and ``tbb`` threading layers allow it; its fallback ``workqueue`` (used
+    where neither OpenMP nor TBB is installed) ends the process when two threads launch
+    kernels together. The layer is chosen at the first launch, so one empty kernel runs.
+    """
+    import numba
+
+    tokenize.has_words(np.zeros(0, np.uint8), np.zeros(1, np.int64), tokenize.word_table())
+    return numba.threading_layer() != "workqueue"
+
+
+class _Background:
+    """Runs ``work(*args)`` for each submitted chunk, in order, in one thread of its own;
+    at most `AHEAD` chunks wait, so memory stays bounded. `close` waits for the rest and
+    raises what the work raised."""
+
+    AHEAD = 2
+
+    def __init__(self, work: Callable) -> None:
+        from concurrent.futures import ThreadPoolExecutor
+
+        self.work = work
+        self._pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="dedup-sketch")
+        self._pending: list = []
+
+    def submit(self, *args) -> None:
+        while len(self._pending) >= self.AHEAD:
+            self._pending.pop(0).result()
+        self._pending.append(self._pool.submit(self.work, *args))
+
+    def close(self) -> None:
+        """Wait for every chunk; raise what the work raised."""
+        try:
+            for future in self._pending:
+                future.result()
+        finally:
+            self.abandon()
+
+    def abandon(self) -> None:
+        """Drop the chunks not begun, wait for the one at work, raise nothing (the caller
+        is already failing)."""
+        self._pending.clear()
+        self._pool.shutdown(wait=True, cancel_futures=True)
 
 
 def _date_of(value: object) -> float | None:
@@ -118,9 +183,20 @@ def read_pass(
     originals: ByteStore,
     canonicals: ByteStore,
     progress: Progress,
+    sketcher: ChunkSketcher | None = None,
 ) -> ReadResult:
-    """Stream the documents once (see the module notes)."""
+    """Stream the documents once (see the module notes).
+
+    With a ``sketcher``, each chunk of distinct texts is sketched as soon as it is stored,
+    in a thread of its own (the compiled kernels release the interpreter lock, so they
+    run while this thread reads and normalizes the next documents); chunks are then
+    smaller, so that the first is handed over early.
+    """
     use_lines = settings.boilerplate
+    chunk_texts, chunk_bytes = (
+        (OVERLAP_CHUNK_TEXTS, OVERLAP_CHUNK_BYTES) if sketcher else (CHUNK_TEXTS, CHUNK_BYTES)
+    )
+    background = _Background(sketcher.add) if sketcher is not None else None
     with_dates = settings.keeper_policy in ("newest", "oldest")
     counter = BoilerplateCounter() if use_lines else None
     table = tokenize.word_table()
@@ -144,6 +220,14 @@ def read_pass(
             else:
                 wordless.add(h)
         canonicals.extend(keep)
+        if background is not None and keep:
+            background.submit(
+                *(
+                    (buf, offsets)
+                    if len(keep) == len(pending)
+                    else tokenize.gather_segments(buf, offsets, np.flatnonzero(has_words))
+                )
+            )
         if counter is not None and has_words.all():
             counter.add(buf, offsets)
         elif counter is not None and has_words.any():
@@ -182,7 +266,7 @@ def read_pass(
                 seen.add(digest)
                 pending.append((digest, stored))
                 pending_bytes += len(stored)
-                if len(pending) >= CHUNK_TEXTS or pending_bytes >= CHUNK_BYTES:
+                if len(pending) >= chunk_texts or pending_bytes >= chunk_bytes:
                     flush()
         progress.advance(len(batch))
         batch.clear()
@@ -190,19 +274,26 @@ def read_pass(
 
     read_seconds = 0.0
     iterator = iter(documents_in)
-    while True:
-        start = time.perf_counter()
-        doc = next(iterator, None)
-        read_seconds += time.perf_counter() - start
-        if doc is None:
-            break
-        batch.append(doc)
-        batch_bytes += len(doc.text) if doc.prepared is None else len(doc.prepared[0])
-        if len(batch) >= BATCH_DOCUMENTS or batch_bytes >= BATCH_CHARACTERS:
+    try:
+        while True:
+            start = time.perf_counter()
+            doc = next(iterator, None)
+            read_seconds += time.perf_counter() - start
+            if doc is None:
+                break
+            batch.append(doc)
+            batch_bytes += len(doc.text) if doc.prepared is None else len(doc.prepared[0])
+            if len(batch) >= BATCH_DOCUMENTS or batch_bytes >= BATCH_CHARACTERS:
+                normalize_batch()
+        if batch:
             normalize_batch()
-    if batch:
-        normalize_batch()
-    flush()
+        flush()
+    except BaseException:
+        if background is not None:
+            background.abandon()
+        raise
+    if background is not None:
+        background.close()
     order = sorted(range(len(records)), key=lambda i: records[i]["id"])
     return ReadResult(
         documents=[records[i] for i in order],
@@ -223,6 +314,16 @@ class SketchResult:
     signature_file: str | None
     texts_affected: int = 0
     texts_compared_whole: int = 0
+    sets: KeptSets | None = None
+
+
+@dataclass
+class KeptSets:
+    """Sorted unique shingles and term counts of every distinct text, in slot order."""
+
+    shingles: np.ndarray
+    shingle_offsets: np.ndarray
+    counts: object  # scipy.sparse CSR, one row per slot
 
 
 def _chunks(slots: np.ndarray, store: ByteStore):
@@ -269,6 +370,113 @@ class SlotRows:
         return np.asarray(self.rows[self.slot_of[texts]])
 
 
+class ChunkSketcher:
+    """Sketches distinct texts handed over chunk after chunk in store (slot) order: their
+    document frequencies, with ``lsh=(bands, rows)`` their MinHash signatures (spilled to
+    ``signature_path`` in slot order) and band keys, with ``word_store`` their word hashes.
+
+    `sketch_pass` feeds it after the read pass; `read_pass` feeds it each chunk as it is
+    stored when the stored texts are already the texts to shingle (no boilerplate to
+    strip), from a thread of its own, so the compiled work overlaps the reading. Word
+    hashes stop being kept (the store is removed) once the texts exceed
+    ``word_text_limit`` bytes.
+    """
+
+    def __init__(
+        self,
+        settings,
+        *,
+        lsh: tuple[int, int] | None,
+        signature_path: str,
+        word_store: ByteStore | None = None,
+        word_text_limit: int | None = None,
+        sets_text_limit: int | None = None,
+    ) -> None:
+        self.settings, self.lsh = settings, lsh
+        self.frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
+        self.signature_path = signature_path if lsh else None
+        self.word_store, self.word_text_limit = word_store, word_text_limit
+        self.sets_text_limit = sets_text_limit
+        self._sets: list | None = [] if sets_text_limit is not None else None
+        self.texts = self.text_bytes = 0
+        self._out = open(signature_path, "wb") if lsh else None  # noqa: SIM115 - closed by `finish`
+        self._keys: list[np.ndarray] = []
+
+    def add(self, buf: np.ndarray, offsets: np.ndarray, release: Callable[[], None] | None = None) -> None:
+        """Sketch the next texts, ``buf[offsets[k]:offsets[k + 1]]``; ``release`` is called
+        once the bytes have been read (a mapped view's pages can go)."""
+        self.text_bytes += int(offsets[-1] - offsets[0])
+        limit = self.word_text_limit
+        if self.word_store is not None and limit is not None and self.text_bytes > limit:
+            self.word_store.remove()
+            self.word_store = None
+        features = features_with(self.settings, buf, offsets, distinct=False)
+        if release is not None:
+            release()
+        self.frequencies.add(features.token_hashes, features.token_offsets)
+        if self.word_store is not None:
+            self.word_store.extend_packed(features.token_hashes, features.token_offsets)
+        if self.lsh:
+            values = signatures_with(self.settings, features).values
+            self._keys.append(band_keys(values, self.lsh[0], self.lsh[1]))
+            self._out.write(values.tobytes())
+        if self._sets is not None and self.text_bytes > self.sets_text_limit:
+            self._sets = None
+        if self._sets is not None:
+            # The shingles are sorted in place: MinHash has had them.
+            shingles, shingle_offsets = sort_unique_segments(features.shingles, features.shingle_offsets)
+            counts = self.frequencies.counts(features.token_hashes, features.token_offsets)
+            self._sets.append((shingles, shingle_offsets, counts))
+        self.texts += int(offsets.shape[0] - 1)
+
+    def finish(self, text_of_slot: np.ndarray, affected: int = 0, whole: int = 0) -> SketchResult:
+        """The result, band keys in text order (``text_of_slot[s]`` is the text of slot s)."""
+        keys = None
+        if self.lsh:
+            self._out.close()
+            keys = np.empty((self.texts, self.lsh[0]), dtype=np.uint64)
+            start = 0
+            for part in self._keys:
+                keys[text_of_slot[start : start + part.shape[0]]] = part
+                start += part.shape[0]
+            self._keys.clear()
+        sets = None
+        if self._sets is not None:
+            sets = _joined_sets(self._sets, self.frequencies.n_features)
+            self._sets = None
+        return SketchResult(self.frequencies, keys, self.signature_path, affected, whole, sets)
+
+    def close(self) -> None:
+        """Close the signature file (after an error; `finish` closes it otherwise)."""
+        if self._out is not None and not self._out.closed:
+            self._out.close()
+
+
+def _joined_sets(parts: list, n_features: int) -> KeptSets:
+    import scipy.sparse as sp
+
+    if not parts:
+        return KeptSets(
+            np.zeros(0, np.uint64), np.zeros(1, np.int64), sp.csr_matrix((0, n_features), dtype=np.float64)
+        )
+    shingles = np.concatenate([sh for sh, _, _ in parts])
+    offsets = np.zeros(sum(off.shape[0] - 1 for _, off, _ in parts) + 1, dtype=np.int64)
+    done = used = 0
+    for sh, off, _ in parts:
+        n = off.shape[0] - 1
+        offsets[done + 1 : done + n + 1] = used + off[1:]
+        done, used = done + n, used + sh.shape[0]
+    counts = sp.vstack([c for _, _, c in parts], format="csr")
+    return KeptSets(shingles, offsets, counts)
+
+
+def text_order(slots: np.ndarray) -> np.ndarray:
+    """``text_of_slot``: the inverse of ``slots`` (the slot of each distinct text)."""
+    text_of_slot = np.empty(slots.shape[0], dtype=np.int64)
+    text_of_slot[slots] = np.arange(slots.shape[0])
+    return text_of_slot
+
+
 def sketch_pass(
     slots: np.ndarray,
     canonicals: ByteStore,
@@ -289,30 +497,21 @@ def sketch_pass(
     appended to it in slot order, so `compared_sets` need not read the texts again.
     """
     n = int(slots.shape[0])
-    text_of_slot = np.empty(n, dtype=np.int64)
-    text_of_slot[slots] = np.arange(n)
-    frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
-    keys = np.empty((n, lsh[0]), dtype=np.uint64) if lsh else None
+    sketcher = ChunkSketcher(settings, lsh=lsh, signature_path=signature_path, word_store=word_store)
     affected = whole = 0
-    with open(signature_path, "wb") if lsh else contextlib.nullcontext() as sig_out:
+    try:
         for start, stop in _runs(n, canonicals):
             buf, offsets = canonicals.view(start, stop)
             buf, offsets, discounted, protected = _feature_texts(buf, offsets, boilerplate, settings)
             if discounted is not None:
                 affected += int(discounted.sum())
                 whole += int(protected.sum())
-            features = features_with(settings, buf, offsets, distinct=False)
+            sketcher.add(buf, offsets, release=canonicals.release)
             del buf
-            canonicals.release()
-            frequencies.add(features.token_hashes, features.token_offsets)
-            if word_store is not None:
-                word_store.extend_packed(features.token_hashes, features.token_offsets)
-            if lsh:
-                values = signatures_with(settings, features).values
-                keys[text_of_slot[start:stop]] = band_keys(values, lsh[0], lsh[1])
-                sig_out.write(values.tobytes())
             progress.advance(stop - start)
-    return SketchResult(frequencies, keys, signature_path if lsh else None, affected, whole)
+    finally:
+        sketcher.close()
+    return sketcher.finish(text_order(slots), affected, whole)
 
 
 def _compared_features(picked, canonicals, boilerplate, settings, word_store):
@@ -355,11 +554,13 @@ def compared_sets(
     settings,
     progress: Callable[[int], None] | None = None,
     word_store: ByteStore | None = None,
+    kept: KeptSets | None = None,
 ) -> ComparedSets:
     """Sorted unique shingles and unit TF-IDF rows of the distinct texts ``needed`` (sorted).
 
-    With ``word_store`` (the word hashes `sketch_pass` kept, slot for slot), the shingles
-    are made from those hashes; otherwise the texts are read and tokenized again.
+    With ``kept`` (the sets the sketch pass made of every text) they are picked out of
+    those; with ``word_store`` (the word hashes `sketch_pass` kept, slot for slot), the
+    shingles are made from those hashes; otherwise the texts are read and tokenized again.
     """
     import scipy.sparse as sp
 
@@ -367,6 +568,13 @@ def compared_sets(
     local = np.full(n_texts, -1, dtype=np.int64)
     local[needed] = np.arange(needed.shape[0])
     picked = slots[needed]
+    if kept is not None:
+        # Made for every text while it was sketched: only picked out here.
+        shingles, shingle_offsets = tokenize.gather_segments(kept.shingles, kept.shingle_offsets, picked)
+        model = frequencies.weigh(kept.counts[picked])
+        if progress:
+            progress(needed.shape[0])
+        return ComparedSets(local, shingles, shingle_offsets, model)
     # A text of b bytes has at most b + 1 shingles and terms: room for all of them is
     # reserved up front (pages never written are never resident) and filled chunk by
     # chunk, so no list of parts is joined at the end (which would hold everything twice).

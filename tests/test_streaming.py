@@ -236,3 +236,93 @@ def test_kept_word_hashes_give_the_same_audit_as_reading_the_texts_again(write_c
         for name in ("audit.json", "pairs.csv", "clusters.csv"):
             assert _bytes(kept[name]) == _bytes(again[name]), (candidates, name)
         assert json.loads(_bytes(kept["audit.json"]))["summary"]["clusters"] > 0
+
+
+@pytest.mark.parametrize("candidates", ["lsh", "exhaustive", "auto"])
+@pytest.mark.parametrize("sets_limit", [2**30, 0, 3000])
+def test_sketching_while_reading_gives_byte_identical_outputs(
+    write_corpus, tmp_path, monkeypatch, candidates, sets_limit
+):
+    """Reference: the same audit with the sketch pass after the read pass (no thread).
+
+    Tiny chunks make many hand-overs to the sketching thread (and make it wait); the
+    sets limit keeps every text's sets, none, or gives them up halfway.
+    """
+    import dedup.api
+
+    root = write_corpus(_corpus(5, 90))
+    s = AuditSettings(candidates=candidates, threshold=0.6, boilerplate=False)
+    with monkeypatch.context() as m:
+        m.setattr(dedup.api, "OVERLAP_SKETCH", False)
+        after = dedup.audit([str(root)], s).write(str(tmp_path / "after"))
+    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_TEXTS", 4)
+    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_BYTES", 500)
+    monkeypatch.setattr(dedup.api, "KEEP_SETS_TEXT_BYTES", sets_limit)
+    made = []
+    real = streaming.ChunkSketcher.add
+
+    def counted(self, buf, offsets, release=None):
+        made.append(offsets.shape[0] - 1)
+        return real(self, buf, offsets, release)
+
+    monkeypatch.setattr(streaming.ChunkSketcher, "add", counted)
+    during = dedup.audit([str(root)], s).write(str(tmp_path / "during"))
+    assert len(made) > 10 and max(made) <= 4  # the texts went over in many small chunks
+    for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
+        assert _bytes(after[name]) == _bytes(during[name]), name
+    assert json.loads(_bytes(after["audit.json"]))["summary"]["clusters"] > 0
+
+
+def test_an_error_while_sketching_reaches_the_caller(write_corpus, monkeypatch):
+    import threading
+
+    root = write_corpus(_corpus(6, 60))
+    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_TEXTS", 4)
+    calls = []
+
+    def failing(self, buf, offsets, release=None):
+        calls.append(1)
+        if len(calls) == 3:
+            raise RuntimeError("sketch failed")
+
+    monkeypatch.setattr(streaming.ChunkSketcher, "add", failing)
+    with pytest.raises(RuntimeError, match="sketch failed"):
+        dedup.audit([str(root)], AuditSettings(boilerplate=False))
+    assert not [t for t in threading.enumerate() if t.name.startswith("dedup-sketch")]
+
+
+def test_term_counts_weighed_later_equal_the_model():
+    """`DocumentFrequency.weigh` of rows counted early equals `model` of the same texts."""
+    rng = np.random.default_rng(4)
+    hashes = rng.integers(0, 50, 400).astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15)
+    offsets = np.array([0, 90, 90, 200, 400])
+    df = DocumentFrequency(2**10, sublinear_tf=True)
+    df.add(hashes, offsets)
+    counts = df.counts(hashes, offsets)
+    assert counts.data.sum() == 400  # raw counts until weighed
+    picked = np.array([3, 0])
+    early = df.weigh(counts[picked]).rows
+    direct = df.model(np.concatenate([hashes[200:400], hashes[0:90]]), np.array([0, 200, 290])).rows
+    assert abs(early - direct).max() < 1e-15
+
+
+def test_without_a_thread_safe_kernel_layer_the_sketch_waits_for_the_reading(write_corpus, tmp_path):
+    """numba's `workqueue` layer ends a process whose threads launch kernels together
+    (numba documentation, "The Threading Layers"): there the audit must not overlap them."""
+    import subprocess
+    import sys
+
+    root = write_corpus(_corpus(7, 60))
+    code = (
+        "import sys, dedup, dedup.streaming as s\n"
+        "assert not s.kernels_thread_safe()\n"
+        "s.OVERLAP_CHUNK_TEXTS = 4\n"
+        "r = dedup.audit([sys.argv[1]], dedup.AuditSettings(boilerplate=False, threshold=0.6))\n"
+        "print(len(r.pairs))\n"
+    )
+    env = {**os.environ, "NUMBA_THREADING_LAYER": "workqueue"}
+    done = subprocess.run(
+        [sys.executable, "-c", code, str(root)], env=env, capture_output=True, text=True, timeout=600
+    )
+    assert done.returncode == 0, done.stderr
+    assert int(done.stdout) > 0

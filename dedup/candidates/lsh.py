@@ -21,7 +21,7 @@ __all__ = ["band_keys", "lsh_candidate_pairs", "OVERSIZE_NEIGHBOURS"]
 OVERSIZE_NEIGHBOURS = 10
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def band_keys(signatures: np.ndarray, bands: int, rows: int) -> np.ndarray:
     """Bucket key of every (document, band): uint64 array of shape (n_docs, bands)."""
     n_docs = signatures.shape[0]
@@ -35,7 +35,7 @@ def band_keys(signatures: np.ndarray, bands: int, rows: int) -> np.ndarray:
     return out
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _emit_run_pairs(order, run_starts, run_lengths, total, left, right):
     w = 0
     for k in range(run_starts.shape[0]):

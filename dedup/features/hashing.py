@@ -64,7 +64,7 @@ def _hash_bytes(buf: np.ndarray, start: int, stop: int) -> np.uint64:
     return fmix64(h)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def count_tokens(buf: np.ndarray, doc_offsets: np.ndarray) -> np.ndarray:
     """Number of space-separated tokens in each document; O(bytes)."""
     n_docs = doc_offsets.shape[0] - 1
@@ -81,7 +81,7 @@ def count_tokens(buf: np.ndarray, doc_offsets: np.ndarray) -> np.ndarray:
     return counts
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def token_hashes(buf: np.ndarray, doc_offsets: np.ndarray, token_offsets: np.ndarray) -> np.ndarray:
     """Stable hash of every token, documents laid end to end as in ``token_offsets``.
 
@@ -107,7 +107,7 @@ def token_hashes(buf: np.ndarray, doc_offsets: np.ndarray, token_offsets: np.nda
     return out
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def shingle_counts(token_offsets: np.ndarray, k: int) -> np.ndarray:
     """Shingles per document: ``n - k + 1``, at least one when a document has any token."""
     n_docs = token_offsets.shape[0] - 1
@@ -119,7 +119,7 @@ def shingle_counts(token_offsets: np.ndarray, k: int) -> np.ndarray:
     return counts
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def word_shingles(
     tokens: np.ndarray, token_offsets: np.ndarray, shingle_offsets: np.ndarray, k: int
 ) -> np.ndarray:
@@ -149,7 +149,7 @@ def word_shingles(
 ROLL_MULTIPLIER = np.uint64(0x9E3779B97F4A7C17)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def rolling_word_shingles(
     tokens: np.ndarray, token_offsets: np.ndarray, shingle_offsets: np.ndarray, k: int
 ) -> np.ndarray:
@@ -183,7 +183,7 @@ def rolling_word_shingles(
     return out
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def char_ngram_counts(buf: np.ndarray, doc_offsets: np.ndarray, n: int) -> np.ndarray:
     """Character n-grams per document (UTF-8 aware), at least one for non-empty text."""
     n_docs = doc_offsets.shape[0] - 1
@@ -198,7 +198,7 @@ def char_ngram_counts(buf: np.ndarray, doc_offsets: np.ndarray, n: int) -> np.nd
     return counts
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def char_ngrams(buf: np.ndarray, doc_offsets: np.ndarray, gram_offsets: np.ndarray, n: int) -> np.ndarray:
     """Stable hash of every run of ``n`` characters (not bytes); O(bytes * n)."""
     n_docs = doc_offsets.shape[0] - 1
@@ -222,7 +222,7 @@ def char_ngrams(buf: np.ndarray, doc_offsets: np.ndarray, gram_offsets: np.ndarr
     return out
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _compact_segments(values: np.ndarray, offsets: np.ndarray, new_offsets: np.ndarray) -> np.ndarray:
     n_seg = offsets.shape[0] - 1
     out = np.empty(new_offsets[n_seg], dtype=values.dtype)

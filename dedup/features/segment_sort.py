@@ -53,7 +53,7 @@ def _all_equal(values, a, b):
     return True
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _sort_one(values, start, stop):
     """Sort ``values[start:stop]`` in place."""
     a, b = np.uint64(start), np.uint64(stop)
@@ -108,14 +108,14 @@ def _sort_one(values, start, stop):
     values[start:stop] = spread
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def sort_segments(values: np.ndarray, offsets: np.ndarray) -> None:
     """Sort each segment ``values[offsets[d]:offsets[d + 1]]`` in place, in parallel."""
     for d in prange(offsets.shape[0] - 1):
         _sort_one(values, offsets[d], offsets[d + 1])
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
     """Sort each segment of ``values`` in place and return its number of distinct values."""
     n_seg = offsets.shape[0] - 1

@@ -57,7 +57,7 @@ def _decode(buf, i, stop):
     return -1, 1
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def has_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np.ndarray:
     """Whether each document has a word; stops at the first letter or digit."""
     n_docs = doc_offsets.shape[0] - 1
@@ -74,7 +74,7 @@ def has_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np
     return found
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def count_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np.ndarray:
     """Number of words in each document."""
     n_docs = doc_offsets.shape[0] - 1
@@ -143,7 +143,7 @@ def _hash_words(buf, i, stop, table, out, w):
     return np.int64(to)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def word_hashes(
     buf: np.ndarray, doc_offsets: np.ndarray, word_offsets: np.ndarray, table: np.ndarray
 ) -> np.ndarray:
@@ -155,7 +155,7 @@ def word_hashes(
     return out
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _hash_words_bounded(buf, doc_offsets, room_offsets, table, out, counts):
     for d in prange(doc_offsets.shape[0] - 1):
         counts[d] = (
@@ -164,7 +164,7 @@ def _hash_words_bounded(buf, doc_offsets, room_offsets, table, out, counts):
         )
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def compact_segments(values, starts, offsets, out):
     """Move segment d, written at ``values[starts[d]:]``, to ``out[offsets[d]:offsets[d + 1]]``
     (segments written with room to spare, laid end to end)."""
@@ -217,7 +217,7 @@ def words_and_hashes(
     return out, offsets
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _gather(buf, offsets, picks, out_offsets, out):
     for k in range(picks.shape[0]):
         d = picks[k]

@@ -171,7 +171,7 @@ def _searchable(connection: sqlite3.Connection) -> tuple[np.ndarray, int, int]:
     return ids, live, int(top[0]) if top else 0
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _decode_packed(buf, offsets, cumulative, out, starts):
     # buf holds many `pack_uints` blobs end to end; blob r is buf[offsets[r]:offsets[r + 1]].
     # Writes its values into out[starts[r]:starts[r + 1]]; returns False on a bad blob.
@@ -228,7 +228,7 @@ def _uint_at(buf, i, width):
     return v
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _df_and_norms(
     id_buf, id_offsets, count_buf, count_offsets, row_group, position, n_groups, n_texts, sublinear
 ):

@@ -209,7 +209,7 @@ def _canonical_one(buf, a, b, out, start, fold, nfkc, line_separator):
     return np.int64(w) - start, chars, status
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _canonical(buf, offsets, out, lengths, chars, status, fold, nfkc, line_separator):
     for d in prange(offsets.shape[0] - 1):
         lengths[d], chars[d], status[d] = _canonical_one(
@@ -217,7 +217,7 @@ def _canonical(buf, offsets, out, lengths, chars, status, fold, nfkc, line_separ
         )
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _canonical_serial(buf, offsets, out, lengths, chars, status, fold, nfkc, line_separator):
     # For worker processes, which must not start threads of their own after a fork.
     for d in range(offsets.shape[0] - 1):
@@ -239,7 +239,7 @@ def _run(buf, offsets, parallel, separator, fold=_NO_FOLD, nfkc=_NO_FOLD):
     return out, 2 * offsets, lengths, chars, status
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _compact(out, starts, lengths, dest, dest_offsets):
     # Each text's output laid end to end.
     for d in prange(lengths.shape[0]):
@@ -247,7 +247,7 @@ def _compact(out, starts, lengths, dest, dest_offsets):
         dest[w : w + n] = out[a : a + n]
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _compact_serial(out, starts, lengths, dest, dest_offsets):
     for d in range(lengths.shape[0]):
         a, w, n = starts[d], dest_offsets[d], lengths[d]

@@ -20,7 +20,7 @@ _NEWLINE = np.uint8(0x0A)
 _SPACE = np.uint8(0x20)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _line_counts(buf, offsets):
     out = np.zeros(offsets.shape[0] - 1, dtype=np.int64)
     for d in prange(offsets.shape[0] - 1):
@@ -34,7 +34,7 @@ def _line_counts(buf, offsets):
     return out
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _fill_spans(buf, offsets, line_offsets, starts, stops):
     for d in prange(offsets.shape[0] - 1):
         a, b = offsets[d], offsets[d + 1]
@@ -71,7 +71,7 @@ def line_spans(buf: np.ndarray, offsets: np.ndarray) -> tuple[np.ndarray, np.nda
     return starts, stops, line_offsets
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def line_hashes(buf: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.ndarray:
     """Stable 64-bit hash of the bytes of every span (equal lines, equal hashes)."""
     out = np.empty(starts.shape[0], dtype=np.uint64)
@@ -80,7 +80,7 @@ def line_hashes(buf: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.nd
     return out
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def line_characters(buf: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.ndarray:
     """Characters (not bytes) of every span: bytes that do not continue a UTF-8 sequence."""
     out = np.zeros(starts.shape[0], dtype=np.int64)
@@ -93,7 +93,7 @@ def line_characters(buf: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> n
     return out
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _join(buf, starts, stops, line_offsets, keep, out_offsets, out):
     for d in range(line_offsets.shape[0] - 1):
         w = out_offsets[d]

@@ -81,7 +81,7 @@ def minhash_parameters(
     return a, b
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _minhash_multiply_shift(shingles, offsets, a, b, out):
     n_docs = offsets.shape[0] - 1
     num_perm = a.shape[0]
@@ -102,7 +102,7 @@ def _bin_of(h, k):
     return (h >> _S32) * np.uint64(k) >> _S32
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _minhash_binned(shingles, offsets, mix, step, out):
     n_docs = offsets.shape[0] - 1
     k = out.shape[1]
@@ -140,7 +140,7 @@ def _fmix32(h):
     return h
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _minhash_affine32(shingles, offsets, a, b, out):
     n_docs = offsets.shape[0] - 1
     num_perm = a.shape[0]

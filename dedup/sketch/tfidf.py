@@ -78,7 +78,7 @@ class TfidfModel:
         return _weight(counts, entry_idf, np.arange(entry_idf.shape[0]), self.sublinear_tf)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _fill_counts(columns, offsets, indptr, indices, data):
     for d in prange(offsets.shape[0] - 1):
         a, b = offsets[d], offsets[d + 1]
@@ -120,7 +120,7 @@ def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features
     return sp.csr_matrix((data, indices, indptr), shape=(n_docs, n_features))
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _weight_rows(indptr, idf_index, data, idf, sublinear):
     # In place: tf (or 1 + ln tf) times idf[idf_index[i]], then each row scaled to unit length.
     for d in prange(indptr.shape[0] - 1):
@@ -193,7 +193,7 @@ def fit_tfidf(
     return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, sublinear_tf)
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def _row_dots(indptr, indices, data, left, right, out):
     # A merge without branches on the values, on unsigned indices (see intersection_sizes).
     for p in prange(left.shape[0]):
@@ -274,7 +274,7 @@ def _collision_record(v: int, n_features: int, method: str, measured: float | No
     }
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def _count_df(columns, offsets, first_doc, last_seen, df):
     # One pass over the tokens: a column counts once per document (the last document that
     # touched it is remembered), so no per-document sort is needed.
@@ -367,10 +367,19 @@ class DocumentFrequency:
 
     def model(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> TfidfModel:
         """The fitted idf with the unit-length rows of the given texts."""
+        return self.weigh(self.counts(token_hashes, token_offsets))
+
+    def counts(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> sp.csr_matrix:
+        """Term counts of the given texts, rows with sorted columns: what `weigh` turns into
+        TF-IDF rows once every text has been counted."""
+        return _term_counts(token_hashes, token_offsets, self.n_features)
+
+    def weigh(self, counts: sp.csr_matrix) -> TfidfModel:
+        """The fitted idf with the unit-length rows of term counts made by `counts` (whose
+        values become the weights: the counts are used up)."""
         columns, df = self._columns_and_df()
         column_idf = np.log((1.0 + self.n_docs) / (1.0 + df)) + 1.0
         unseen = float(np.log(1.0 + self.n_docs) + 1.0)
-        counts = _term_counts(token_hashes, token_offsets, self.n_features)
         if self._dense:
             dense_idf = np.log((1.0 + self.n_docs) / (1.0 + self._df)) + 1.0
             rows = _weight(counts, dense_idf, counts.indices, self.sublinear_tf, in_place=True)

@@ -23,7 +23,7 @@ from ..sketch.tfidf import pair_cosines
 __all__ = ["PairScores", "intersection_sizes", "score_pairs", "deciding_score"]
 
 
-@njit(cache=True, parallel=True)
+@njit(cache=True, parallel=True, nogil=True)
 def intersection_sizes(shingles, offsets, left, right):
     """|A ∩ B| for every pair, by a merge of the two sorted unique arrays.
 
