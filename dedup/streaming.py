@@ -132,7 +132,9 @@ def prepare_documents(documents: list, parallel: bool = False, lines: bool = Tru
     spaces). Runs where the documents are read — in worker processes when there are
     workers — so the text crosses between processes once.
     """
-    originals = [doc.text.encode("utf-8", "surrogatepass") for doc in documents]
+    originals = [
+        doc.text.encode("utf-8", "surrogatepass") if doc.utf8 is None else doc.utf8 for doc in documents
+    ]
     buf, offsets, chars_of = canonical_packed(
         [doc.text for doc in documents],
         parallel=parallel,
@@ -147,7 +149,7 @@ def prepare_documents(documents: list, parallel: bool = False, lines: bool = Tru
     for doc, original, a, b, characters in zip(documents, originals, bounds[:-1], bounds[1:], chars_of):
         # The content hash is taken over the canonical text: the lines joined by spaces.
         doc.prepared = (original, buf[a:b].tobytes(), characters, content_hash(spaced[a:b]))
-        doc.text = ""
+        doc.text, doc.utf8 = "", None
 
 
 @dataclass

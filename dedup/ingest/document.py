@@ -30,6 +30,9 @@ class RawDocument:
     metadata: dict = field(default_factory=dict)
     # Filled by a ``prepare`` step where the document was read (see `iter_documents`).
     prepared: tuple | None = None
+    # The text's UTF-8 bytes when the reader has them: bytes read that decoded as UTF-8
+    # and that the reader kept unchanged (plain text); spares encoding the text again.
+    utf8: bytes | None = None
 
 
 @dataclass(frozen=True)

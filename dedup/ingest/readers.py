@@ -136,7 +136,10 @@ def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
         title = title or first_line_title(body)
     else:
         body, title = reduce_markup(text, item.format)
-    yield item.document(body, title=title, encoding=encoding)
+    doc, entry = item.document(body, title=title, encoding=encoding)
+    if body is text and encoding == "utf-8":
+        doc.utf8 = data  # decoded strictly, so valid UTF-8: no lone surrogate to clean
+    yield doc, entry
 
 
 def _read_records(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
@@ -242,7 +245,7 @@ def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> O
     doc.id, doc.source, doc.text, doc.title = (
         entry.document_id,
         entry.input,
-        _clean(doc.text),
+        doc.text if doc.utf8 is not None else _clean(doc.text),
         _clean(doc.title),
     )
     # Always a dict of its own, even where a reader shared one between documents.
@@ -253,6 +256,7 @@ def _finish(doc: RawDocument | None, entry: LedgerEntry, opts: ReadOptions) -> O
     if len(doc.text) > opts.max_text_chars:
         length = len(doc.text)
         doc.text = doc.text[: opts.max_text_chars]
+        doc.utf8 = None
         entry.status = "truncated"
         entry.reason = (
             f"text cut to {opts.max_text_chars:,} of {length:,} characters (raise --max-text-chars)"

@@ -139,3 +139,21 @@ def test_truncation_keeps_at_most_the_limit(text, limit):
     if doc is not None:
         assert len(doc.text) <= limit
         assert (entry.status == "truncated") == (len(text) > limit)
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    data=st.one_of(
+        st.binary(max_size=300),
+        st.text(max_size=300).map(lambda t: t.encode("utf-8", "surrogatepass")),
+        st.text(max_size=300).map(lambda t: ("\ufeff" + t).encode("utf-8", "surrogatepass")),
+        st.text(alphabet="abc é\r\n\t\x00ü", max_size=300).map(lambda t: t.encode("cp1252", "replace")),
+    ),
+    fmt=st.sampled_from(["text", "markdown", "html"]),
+    limit=st.sampled_from([5, 10**6]),
+)
+def test_bytes_kept_with_a_document_are_its_text_in_utf8(data, fmt, limit):
+    """The bytes a reader keeps (to spare encoding the text again) are exactly the text's UTF-8."""
+    for doc, _ in _outcomes(data, fmt, max_text_chars=limit):
+        if doc is not None and doc.utf8 is not None:
+            assert doc.utf8 == doc.text.encode("utf-8")
