@@ -25,6 +25,7 @@ from .candidates import choose_bands, exhaustive_candidate_pairs, lsh_candidate_
 from .cluster import build_clusters
 from .cluster.actions import ClusterInputs
 from .features import tokenize
+from .features.segment_sort import sorted_distinct
 from .features.shingles import from_word_hashes
 from .heap import lean_allocation
 from .ingest import InputError, LedgerEntry, decode_text, iter_documents, summarize
@@ -413,7 +414,7 @@ def _audit(
             signatures, bands, rows, settings.bucket_limit, keys=sketch.keys
         )
         del signatures
-        needed = np.unique(np.concatenate([left, right, exact_reps]))
+        needed = sorted_distinct(np.concatenate([left, right, exact_reps]))
         compared = compared_of(needed)
     else:
         compared = compared_of(np.arange(n_reps))

@@ -415,19 +415,21 @@ class ChunkSketcher:
         features = features_with(self.settings, buf, offsets, distinct=False)
         if release is not None:
             release()
-        self.frequencies.add(features.token_hashes, features.token_offsets)
+        if self._sets is not None and self.text_bytes > self.sets_text_limit:
+            self._sets = None
+        counts = None
+        if self._sets is not None:
+            counts = self.frequencies.counts(features.token_hashes, features.token_offsets)
+        self.frequencies.add(features.token_hashes, features.token_offsets, counts)
         if self.word_store is not None:
             self.word_store.extend_packed(features.token_hashes, features.token_offsets)
         if self.lsh:
             values = signatures_with(self.settings, features).values
             self._keys.append(band_keys(values, self.lsh[0], self.lsh[1]))
             self._out.write(values.tobytes())
-        if self._sets is not None and self.text_bytes > self.sets_text_limit:
-            self._sets = None
         if self._sets is not None:
             # The shingles are sorted in place: MinHash has had them.
             shingles, shingle_offsets = sort_unique_segments(features.shingles, features.shingle_offsets)
-            counts = self.frequencies.counts(features.token_hashes, features.token_offsets)
             self._sets.append((shingles, shingle_offsets, counts))
         self.texts += int(offsets.shape[0] - 1)
 

@@ -326,3 +326,20 @@ def test_without_a_thread_safe_kernel_layer_the_sketch_waits_for_the_reading(wri
     )
     assert done.returncode == 0, done.stderr
     assert int(done.stdout) > 0
+
+
+@pytest.mark.parametrize("n_features", [64, 2**30])
+def test_frequencies_from_term_counts_equal_those_from_tokens(n_features):
+    """Reference: `DocumentFrequency.add` from the tokens alone (checked against `fit_tfidf` above)."""
+    rng = np.random.default_rng(2)
+    hashes = rng.integers(0, 90, 3000).astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15)
+    offsets = np.array([0, 400, 400, 1700, 3000])
+    plain, counted = DocumentFrequency(n_features), DocumentFrequency(n_features)
+    for a, b in [(0, 2), (2, 4)]:
+        part, off = hashes[offsets[a] : offsets[b]], offsets[a : b + 1] - offsets[a]
+        plain.add(part, off)
+        counted.add(part, off, counted.counts(part, off))
+    for x, y in zip(plain._columns_and_df(), counted._columns_and_df()):
+        assert x.tolist() == y.tolist()
+    assert plain.collision_stats() == counted.collision_stats()
+    assert (plain.n_docs, plain.tokens) == (counted.n_docs, counted.tokens) == (4, 3000)

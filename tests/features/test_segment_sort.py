@@ -3,7 +3,12 @@
 import numpy as np
 import pytest
 
-from dedup.features.segment_sort import SMALL_BUCKET, sort_segments, sort_segments_count_unique
+from dedup.features.segment_sort import (
+    SMALL_BUCKET,
+    sort_segments,
+    sort_segments_count_unique,
+    sorted_distinct,
+)
 
 
 def _segments(rng, lengths):
@@ -55,3 +60,16 @@ def test_values_near_the_top_of_the_range():
     got = values.copy()
     assert sort_segments_count_unique(got, offsets).tolist() == [3]
     assert np.array_equal(got, np.sort(values))
+
+
+@pytest.mark.parametrize("dtype", [np.uint64, np.int64, np.int32, np.float64])
+@pytest.mark.parametrize("size", [0, 1, 2, 1000])
+def test_sorted_distinct_equals_numpy_unique(dtype, size):
+    """Reference: ``np.unique`` (sorted distinct values)."""
+    rng = np.random.default_rng(size)
+    values = rng.integers(0, max(size // 3, 1), size).astype(dtype)
+    if dtype == np.uint64 and size:
+        values[0] = np.uint64(2**64 - 1)  # the top of the range sorts last
+    got = sorted_distinct(values)
+    ref = np.unique(values)
+    assert got.dtype == ref.dtype and got.tolist() == ref.tolist()
