@@ -8,6 +8,7 @@ the quick path to the plain rule it stands in for.
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import random
 
@@ -177,7 +178,7 @@ def test_workers_read_with_the_stat_taken_when_found(write_corpus):
     alone, pooled = [], []
     docs_alone = list(iter_documents([str(root)], ledger=alone, max_file_bytes=40))
     docs_pooled = list(iter_documents([str(root)], ledger=pooled, max_file_bytes=40, workers=2))
-    assert [vars(d) for d in docs_alone] == [vars(d) for d in docs_pooled]
+    assert [dataclasses.asdict(d) for d in docs_alone] == [dataclasses.asdict(d) for d in docs_pooled]
     assert [e.to_dict() for e in alone] == [e.to_dict() for e in pooled]
     reasons = {e.input: e.reason for e in alone}
     assert reasons["big.txt"] == "file too large: 50 bytes, limit 40 (raise --max-file-bytes)"

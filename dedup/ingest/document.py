@@ -14,7 +14,7 @@ from .ledger import LedgerEntry
 __all__ = ["RawDocument", "Item", "Outcome"]
 
 
-@dataclass
+@dataclass(slots=True)
 class RawDocument:
     """One document as read: its id, its text and what is known about it."""
 
