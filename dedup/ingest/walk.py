@@ -321,6 +321,10 @@ def _read_limited(path: str, size: int, limit: int) -> bytes:
     with open(path, "rb", buffering=0) as handle:
         parts = [handle.read(min(size, limit) + 1)]
         total = len(parts[0])
+        if total == size <= limit:
+            # Exactly the size examined, one byte short of what was asked: a regular file
+            # reads short only at its end, so there is no need to ask again.
+            return parts[0]
         while total <= limit:  # on to the end: it may have grown, or a read may have come back short
             more = handle.read(min(limit + 1 - total, _GROWTH_STEP))
             if not more:

@@ -237,3 +237,19 @@ def test_bad_limits_are_refused_before_reading(write_corpus, bad):
     root = write_corpus({"a.txt": "x"})
     with pytest.raises(ValueError):
         list(iter_documents([str(root)], ledger=[], **bad))
+
+
+def test_reading_by_the_examined_size_still_finds_growth(tmp_path):
+    """A file read by the size it had when examined: exact when unchanged, whole when it
+    grew since, cut at limit + 1 when it grew past the limit."""
+    from dedup.ingest.walk import _read_limited
+
+    path = tmp_path / "a.txt"
+    path.write_bytes(b"x" * 1000)
+    assert _read_limited(str(path), 1000, 10_000) == b"x" * 1000
+    assert _read_limited(str(path), 400, 10_000) == b"x" * 1000  # grew from 400 bytes
+    assert _read_limited(str(path), 0, 10_000) == b"x" * 1000
+    assert _read_limited(str(path), 400, 500) == b"x" * 501  # grew past the limit
+    assert _read_limited(str(path), 1000, 1000) == b"x" * 1000
+    path.write_bytes(b"")
+    assert _read_limited(str(path), 0, 10) == b""
