@@ -221,7 +221,10 @@ def read_pass(
                 keep.append(stored)
             else:
                 wordless.add(h)
-        canonicals.extend(keep)
+        if len(keep) == len(pending):  # all of them: store the packed buffer as it is
+            canonicals.extend_packed(buf, offsets)
+        else:
+            canonicals.extend(keep)
         if background is not None and keep:
             background.submit(
                 *(
