@@ -366,7 +366,7 @@ def _audit(
     if early is not None:
         # Sketched during the read pass, in store order; the slots are the texts' own.
         sketch = early.finish(text_order(rep_slots))
-        words = early.word_store
+        words = None  # the sets are kept instead (or, beyond them, the texts are read again)
         progress.advance(n_reps)
     else:
         keep_words = from_word_hashes(settings) and canonicals.size <= KEEP_WORDS_TEXT_BYTES

@@ -382,9 +382,9 @@ class ChunkSketcher:
 
     `sketch_pass` feeds it after the read pass; `read_pass` feeds it each chunk as it is
     stored when the stored texts are already the texts to shingle (no boilerplate to
-    strip), from a thread of its own, so the compiled work overlaps the reading. Word
-    hashes stop being kept (the store is removed) once the texts exceed
-    ``word_text_limit`` bytes.
+    strip), from a thread of its own, so the compiled work overlaps the reading. With
+    ``sets_text_limit`` it also keeps every text's sorted shingle set and term counts
+    while the texts total at most that many bytes (and gives them up beyond).
     """
 
     def __init__(
@@ -394,13 +394,12 @@ class ChunkSketcher:
         lsh: tuple[int, int] | None,
         signature_path: str,
         word_store: ByteStore | None = None,
-        word_text_limit: int | None = None,
         sets_text_limit: int | None = None,
     ) -> None:
         self.settings, self.lsh = settings, lsh
         self.frequencies = DocumentFrequency(settings.tfidf_features, settings.sublinear_tf)
         self.signature_path = signature_path if lsh else None
-        self.word_store, self.word_text_limit = word_store, word_text_limit
+        self.word_store = word_store
         self.sets_text_limit = sets_text_limit
         self._sets: list | None = [] if sets_text_limit is not None else None
         self.texts = self.text_bytes = 0
@@ -411,10 +410,6 @@ class ChunkSketcher:
         """Sketch the next texts, ``buf[offsets[k]:offsets[k + 1]]``; ``release`` is called
         once the bytes have been read (a mapped view's pages can go)."""
         self.text_bytes += int(offsets[-1] - offsets[0])
-        limit = self.word_text_limit
-        if self.word_store is not None and limit is not None and self.text_bytes > limit:
-            self.word_store.remove()
-            self.word_store = None
         features = features_with(self.settings, buf, offsets, distinct=False)
         if release is not None:
             release()
