@@ -221,22 +221,16 @@ def read_pass(
                 keep.append(stored)
             else:
                 wordless.add(h)
-        if len(keep) == len(pending):  # all of them: store the packed buffer as it is
+        if len(keep) == len(pending):  # all of them: the packed buffer as it is
             canonicals.extend_packed(buf, offsets)
+            kept = (buf, offsets)
         else:
             canonicals.extend(keep)
-        if background is not None and keep:
-            background.submit(
-                *(
-                    (buf, offsets)
-                    if len(keep) == len(pending)
-                    else tokenize.gather_segments(buf, offsets, np.flatnonzero(has_words))
-                )
-            )
-        if counter is not None and has_words.all():
-            counter.add(buf, offsets)
-        elif counter is not None and has_words.any():
-            counter.add(*tokenize.gather_segments(buf, offsets, np.flatnonzero(has_words)))
+            kept = tokenize.gather_segments(buf, offsets, np.flatnonzero(has_words)) if keep else None
+        if background is not None and kept is not None:
+            background.submit(*kept)
+        if counter is not None and kept is not None:
+            counter.add(*kept)
         pending.clear()
         pending_bytes = 0
 
@@ -462,12 +456,9 @@ def _joined_sets(parts: list, n_features: int) -> KeptSets:
             np.zeros(0, np.uint64), np.zeros(1, np.int64), sp.csr_matrix((0, n_features), dtype=np.float64)
         )
     shingles = np.concatenate([sh for sh, _, _ in parts])
-    offsets = np.zeros(sum(off.shape[0] - 1 for _, off, _ in parts) + 1, dtype=np.int64)
-    done = used = 0
-    for sh, off, _ in parts:
-        n = off.shape[0] - 1
-        offsets[done + 1 : done + n + 1] = used + off[1:]
-        done, used = done + n, used + sh.shape[0]
+    lengths = np.concatenate([np.diff(off) for _, off, _ in parts])
+    offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
+    np.cumsum(lengths, out=offsets[1:])
     counts = sp.vstack([c for _, _, c in parts], format="csr")
     return KeptSets(shingles, offsets, counts)
 
