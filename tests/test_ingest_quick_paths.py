@@ -128,14 +128,14 @@ def test_each_file_is_examined_once(write_corpus, monkeypatch):
 
 def _growing_open(monkeypatch, grow_to: int):
     """Make every file reach ``grow_to`` bytes just after it was examined, before it is read."""
-    real_open = open
+    real_open = walk_module._open_descriptor
 
-    def open_after_growth(path, *args, **kwargs):
-        with real_open(path, "ab") as handle:
+    def open_after_growth(path):
+        with open(path, "ab") as handle:
             handle.write(b"g" * (grow_to - os.path.getsize(path)))
-        return real_open(path, *args, **kwargs)
+        return real_open(path)
 
-    monkeypatch.setattr(walk_module, "open", open_after_growth, raising=False)
+    monkeypatch.setattr(walk_module, "_open_descriptor", open_after_growth)
 
 
 def test_a_file_that_grows_past_the_limit_is_skipped(write_corpus, monkeypatch):
@@ -159,14 +159,14 @@ def test_a_file_that_grows_within_the_limit_is_read_whole(write_corpus, monkeypa
 
 def test_a_file_that_shrinks_is_read_as_it_is(write_corpus, monkeypatch):
     root = write_corpus({"a.txt": "a longer text than later"})
-    real_open = open
+    real_open = walk_module._open_descriptor
 
-    def open_after_shrinking(path, *args, **kwargs):
-        with real_open(path, "wb") as handle:
+    def open_after_shrinking(path):
+        with open(path, "wb") as handle:
             handle.write(b"short")
-        return real_open(path, *args, **kwargs)
+        return real_open(path)
 
-    monkeypatch.setattr(walk_module, "open", open_after_shrinking, raising=False)
+    monkeypatch.setattr(walk_module, "_open_descriptor", open_after_shrinking)
     ledger = []
     (doc,) = list(iter_documents([str(root)], ledger=ledger))
     assert doc.text == "short" and ledger[0].size == 5

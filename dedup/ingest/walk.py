@@ -308,6 +308,13 @@ UNCHANGED_REASON = "unchanged since the last index run (same modification time):
 
 # Reading on past the examined size (a file that grew) goes in steps of this many bytes.
 _GROWTH_STEP = 65536
+_READ_FLAGS = os.O_RDONLY | getattr(os, "O_BINARY", 0) | getattr(os, "O_CLOEXEC", 0)
+
+
+def _open_descriptor(path: str) -> int:
+    """A bare descriptor to read a file by: a file object would examine the file once
+    more and buffer nothing."""
+    return os.open(path, _READ_FLAGS)
 
 
 def _read_limited(path: str, size: int, limit: int) -> bytes:
@@ -318,19 +325,22 @@ def _read_limited(path: str, size: int, limit: int) -> bytes:
     modest steps: asking for ``limit + 1`` bytes at once would allocate a buffer of the
     limit's size for every file, however small.
     """
-    with open(path, "rb", buffering=0) as handle:
-        parts = [handle.read(min(size, limit) + 1)]
+    fd = _open_descriptor(path)
+    try:
+        parts = [os.read(fd, min(size, limit) + 1)]
         total = len(parts[0])
         if total == size <= limit:
             # Exactly the size examined, one byte short of what was asked: a regular file
             # reads short only at its end, so there is no need to ask again.
             return parts[0]
         while total <= limit:  # on to the end: it may have grown, or a read may have come back short
-            more = handle.read(min(limit + 1 - total, _GROWTH_STEP))
+            more = os.read(fd, min(limit + 1 - total, _GROWTH_STEP))
             if not more:
                 break
             parts.append(more)
             total += len(more)
+    finally:
+        os.close(fd)
     return parts[0] if len(parts) == 1 else b"".join(parts)
 
 

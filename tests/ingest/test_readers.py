@@ -90,17 +90,17 @@ def test_unreadable_and_vanishing_files_are_recorded_skips(write_corpus, monkeyp
     from dedup.ingest import walk
 
     root = write_corpus({"locked.txt": "text", "gone.txt": "text", "fine.txt": "text"})
-    real_open = open
+    real_open = walk._open_descriptor
 
-    def fake_open(path, *args, **kwargs):
+    def fake_open(path):
         name = os.path.basename(path)
         if name == "locked.txt":
             raise PermissionError(13, "Permission denied")
         if name == "gone.txt":
             raise FileNotFoundError(2, "No such file or directory")
-        return real_open(path, *args, **kwargs)
+        return real_open(path)
 
-    monkeypatch.setattr(walk, "open", fake_open, raising=False)
+    monkeypatch.setattr(walk, "_open_descriptor", fake_open)
     docs, ledger = _read(root)
     assert [d.id for d in docs] == ["fine.txt"]
     reasons = {e.input: e.reason for e in ledger}

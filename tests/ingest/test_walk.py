@@ -217,13 +217,13 @@ def test_same_input_gives_the_same_ledger_in_another_process(write_corpus):
 def test_reading_is_lazy(write_corpus, monkeypatch):
     root = write_corpus({f"f{n:02}.txt": f"text {n}" for n in range(30)})
     opened = []
-    real_open = open
+    real_open = walk_module._open_descriptor
 
-    def counting_open(path, *args, **kwargs):
+    def counting_open(path):
         opened.append(os.path.basename(path))
-        return real_open(path, *args, **kwargs)
+        return real_open(path)
 
-    monkeypatch.setattr(walk_module, "open", counting_open, raising=False)
+    monkeypatch.setattr(walk_module, "_open_descriptor", counting_open)
     ledger = []
     documents = iter_documents([str(root)], ledger=ledger)
     first = next(documents)
