@@ -26,11 +26,15 @@ def cluster_members(n_docs: int, left: np.ndarray, right: np.ndarray) -> list[np
         return []
     graph = sp.coo_matrix((np.ones(left.shape[0], dtype=np.int8), (left, right)), shape=(n_docs, n_docs))
     _, labels = connected_components(graph.tocsr(), directed=False)
-    order = np.argsort(labels, kind="stable")
+    # Most documents are alone in their component: only the others are grouped.
+    members = np.flatnonzero(np.bincount(labels)[labels] > 1)
+    if members.shape[0] == 0:
+        return []
+    # A stable sort by component keeps each component's members in increasing order.
+    order = members[np.argsort(labels[members], kind="stable")]
     sorted_labels = labels[order]
     boundaries = np.flatnonzero(sorted_labels[1:] != sorted_labels[:-1]) + 1
-    groups = [g for g in np.split(order, boundaries) if g.shape[0] > 1]
-    groups = [np.sort(g) for g in groups]
+    groups = np.split(order, boundaries)
     groups.sort(key=lambda g: int(g[0]))
     return groups
 

@@ -16,12 +16,20 @@ def test_components_equal_networkx_connected_components():
     right = rng.integers(0, n, 300)
     keep = left != right
     left, right = np.minimum(left, right)[keep], np.maximum(left, right)[keep]
-    ours = {tuple(m.tolist()) for m in cluster_members(n, left, right)}
+    ours = [tuple(m.tolist()) for m in cluster_members(n, left, right)]
     graph = nx.Graph()
     graph.add_nodes_from(range(n))
     graph.add_edges_from(zip(left.tolist(), right.tolist()))
     expected = {tuple(sorted(c)) for c in nx.connected_components(graph) if len(c) > 1}
-    assert ours == expected
+    # Members in increasing order, components by their smallest member (disjoint tuples
+    # sort by their first element).
+    assert ours == sorted(expected)
+
+
+def test_components_of_a_graph_without_edges():
+    no_edges = np.zeros(0, np.int64)
+    assert cluster_members(5, no_edges, no_edges) == []
+    assert cluster_members(0, no_edges, no_edges) == []
 
 
 def test_keeper_policies_and_preferred_globs():
