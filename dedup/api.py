@@ -415,7 +415,7 @@ def _audit(
         )
         del signatures
         needed = sorted_distinct(np.concatenate([left, right, exact_reps]))
-        compared = compared_of(needed)
+        compared = compared_of(needed, in_place=True)
     else:
         compared = compared_of(np.arange(n_reps))
         cosine_extra = settings.threshold if settings.measure == "cosine" else None

@@ -548,19 +548,30 @@ def compared_sets(
     progress: Callable[[int], None] | None = None,
     word_store: ByteStore | None = None,
     kept: KeptSets | None = None,
+    in_place: bool = False,
 ) -> ComparedSets:
     """Sorted unique shingles and unit TF-IDF rows of the distinct texts ``needed`` (sorted).
 
     With ``kept`` (the sets the sketch pass made of every text) they are picked out of
     those; with ``word_store`` (the word hashes `sketch_pass` kept, slot for slot), the
     shingles are made from those hashes; otherwise the texts are read and tokenized again.
+
+    ``in_place=True`` (for callers that reach the sets only through `ComparedSets.of`):
+    kept sets are used where they lie, their rows in slot order, and nothing is copied;
+    their term counts all become TF-IDF weights (they are used up).
     """
     import scipy.sparse as sp
 
     needed = np.asarray(needed, dtype=np.int64)
     local = np.full(n_texts, -1, dtype=np.int64)
-    local[needed] = np.arange(needed.shape[0])
     picked = slots[needed]
+    if kept is not None and in_place:
+        local[needed] = picked
+        model = frequencies.weigh(kept.counts)
+        if progress:
+            progress(needed.shape[0])
+        return ComparedSets(local, kept.shingles, kept.shingle_offsets, model)
+    local[needed] = np.arange(needed.shape[0])
     if kept is not None:
         # Made for every text while it was sketched: only picked out here.
         shingles, shingle_offsets = tokenize.gather_segments(kept.shingles, kept.shingle_offsets, picked)
