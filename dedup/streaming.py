@@ -24,6 +24,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -75,29 +76,45 @@ def kernels_thread_safe() -> bool:
 
 
 class _Background:
-    """Runs ``work(*args)`` for each submitted chunk, in order, in one thread of its own;
-    at most `AHEAD` chunks wait, so memory stays bounded. `close` waits for the rest and
-    raises what the work raised."""
+    """Runs ``commit(compute(*args))`` for each submitted chunk, in order, in one thread of
+    its own; at most `AHEAD` chunks wait, so memory stays bounded. `close` waits for the
+    rest and raises what the work raised.
 
-    AHEAD = 2
+    ``compute`` must touch no shared state (it may run in either thread, two chunks at
+    once); ``commit`` takes its results in submission order. At `close`, the caller
+    computes chunks from the back of the queue while the thread works from the front,
+    so the last chunks of a pass are not left to one thread.
+    """
 
-    def __init__(self, work: Callable) -> None:
+    AHEAD = 3
+
+    def __init__(self, compute: Callable, commit: Callable) -> None:
         from concurrent.futures import ThreadPoolExecutor
 
-        self.work = work
+        self.compute, self.commit = compute, commit
         self._pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="dedup-sketch")
-        self._pending: list = []
+        self._pending: list = []  # (future, args) in submission order
+
+    def _work(self, *args) -> None:
+        self.commit(self.compute(*args))
 
     def submit(self, *args) -> None:
         while len(self._pending) >= self.AHEAD:
-            self._pending.pop(0).result()
-        self._pending.append(self._pool.submit(self.work, *args))
+            self._pending.pop(0)[0].result()
+        self._pending.append((self._pool.submit(self._work, *args), args))
 
     def close(self) -> None:
-        """Wait for every chunk; raise what the work raised."""
+        """Finish every chunk (those not begun here); raise what the work raised."""
         try:
-            for future in self._pending:
+            # The thread takes the chunks from the front, this one from the back, until
+            # they meet; the chunks taken here come last and are committed after the others.
+            taken = []
+            while self._pending and self._pending[-1][0].cancel():
+                taken.append(self.compute(*self._pending.pop()[1]))
+            for future, _ in self._pending:
                 future.result()
+            for part in reversed(taken):
+                self.commit(part)
         finally:
             self.abandon()
 
@@ -198,7 +215,7 @@ def read_pass(
     chunk_texts, chunk_bytes = (
         (OVERLAP_CHUNK_TEXTS, OVERLAP_CHUNK_BYTES) if sketcher else (CHUNK_TEXTS, CHUNK_BYTES)
     )
-    background = _Background(sketcher.add) if sketcher is not None else None
+    background = _Background(sketcher.compute, sketcher.commit) if sketcher is not None else None
     with_dates = settings.keeper_policy in ("newest", "oldest")
     counter = BoilerplateCounter() if use_lines else None
     table = tokenize.word_table()
@@ -369,6 +386,18 @@ class SlotRows:
         return np.asarray(self.rows[self.slot_of[texts]])
 
 
+class _Sketched(NamedTuple):
+    """What `ChunkSketcher.compute` makes of a chunk, for `ChunkSketcher.commit`."""
+
+    text_bytes: int
+    features: object
+    counts: object  # term counts (scipy.sparse CSR) when sets are kept, else None
+    values: np.ndarray | None  # MinHash signatures
+    keys: np.ndarray | None  # band keys
+    shingles: np.ndarray | None  # sorted unique shingles when sets are kept
+    shingle_offsets: np.ndarray | None
+
+
 class ChunkSketcher:
     """Sketches distinct texts handed over chunk after chunk in store (slot) order: their
     document frequencies, with ``lsh=(bands, rows)`` their MinHash signatures (spilled to
@@ -403,27 +432,47 @@ class ChunkSketcher:
     def add(self, buf: np.ndarray, offsets: np.ndarray, release: Callable[[], None] | None = None) -> None:
         """Sketch the next texts, ``buf[offsets[k]:offsets[k + 1]]``; ``release`` is called
         once the bytes have been read (a mapped view's pages can go)."""
-        self.text_bytes += int(offsets[-1] - offsets[0])
+        self.commit(self.compute(buf, offsets, release))
+
+    def compute(
+        self, buf: np.ndarray, offsets: np.ndarray, release: Callable[[], None] | None = None
+    ) -> _Sketched:
+        """The sketches of the next texts, not yet added: this changes nothing of the
+        sketcher, so two chunks may be computed at once (in two threads); `commit` adds
+        them, chunk after chunk in order."""
         features = features_with(self.settings, buf, offsets, distinct=False)
         if release is not None:
             release()
+        sets = self._sets is not None  # once given up, never taken again
+        counts = self.frequencies.counts(features.token_hashes, features.token_offsets) if sets else None
+        values = keys = None
+        if self.lsh:
+            values = signatures_with(self.settings, features).values
+            keys = band_keys(values, self.lsh[0], self.lsh[1])
+        shingles = shingle_offsets = None
+        if sets:
+            # The shingles are sorted in place: MinHash has had them.
+            shingles, shingle_offsets = sort_unique_segments(features.shingles, features.shingle_offsets)
+        return _Sketched(
+            int(offsets[-1] - offsets[0]), features, counts, values, keys, shingles, shingle_offsets
+        )
+
+    def commit(self, part: _Sketched) -> None:
+        """Add the sketches of the next texts (`compute` made them)."""
+        self.text_bytes += part.text_bytes
         if self._sets is not None and self.text_bytes > self.sets_text_limit:
             self._sets = None
-        counts = None
-        if self._sets is not None:
-            counts = self.frequencies.counts(features.token_hashes, features.token_offsets)
+        features = part.features
+        counts = part.counts if self._sets is not None else None
         self.frequencies.add(features.token_hashes, features.token_offsets, counts)
         if self.word_store is not None:
             self.word_store.extend_packed(features.token_hashes, features.token_offsets)
         if self.lsh:
-            values = signatures_with(self.settings, features).values
-            self._keys.append(band_keys(values, self.lsh[0], self.lsh[1]))
-            self._out.write(values.tobytes())
+            self._keys.append(part.keys)
+            self._out.write(part.values.tobytes())
         if self._sets is not None:
-            # The shingles are sorted in place: MinHash has had them.
-            shingles, shingle_offsets = sort_unique_segments(features.shingles, features.shingle_offsets)
-            self._sets.append((shingles, shingle_offsets, counts))
-        self.texts += int(offsets.shape[0] - 1)
+            self._sets.append((part.shingles, part.shingle_offsets, counts))
+        self.texts += int(features.token_offsets.shape[0] - 1)
 
     def finish(self, text_of_slot: np.ndarray, affected: int = 0, whole: int = 0) -> SketchResult:
         """The result, band keys in text order (``text_of_slot[s]`` is the text of slot s)."""

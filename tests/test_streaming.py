@@ -259,13 +259,13 @@ def test_sketching_while_reading_gives_byte_identical_outputs(
     monkeypatch.setattr(streaming, "OVERLAP_CHUNK_BYTES", 500)
     monkeypatch.setattr(dedup.api, "KEEP_SETS_TEXT_BYTES", sets_limit)
     made = []
-    real = streaming.ChunkSketcher.add
+    real = streaming.ChunkSketcher.compute
 
     def counted(self, buf, offsets, release=None):
         made.append(offsets.shape[0] - 1)
         return real(self, buf, offsets, release)
 
-    monkeypatch.setattr(streaming.ChunkSketcher, "add", counted)
+    monkeypatch.setattr(streaming.ChunkSketcher, "compute", counted)
     during = dedup.audit([str(root)], s).write(str(tmp_path / "during"))
     assert len(made) > 10 and max(made) <= 4  # the texts went over in many small chunks
     for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
@@ -280,14 +280,67 @@ def test_an_error_while_sketching_reaches_the_caller(write_corpus, monkeypatch):
     monkeypatch.setattr(streaming, "OVERLAP_CHUNK_TEXTS", 4)
     calls = []
 
+    real = streaming.ChunkSketcher.compute
+
     def failing(self, buf, offsets, release=None):
         calls.append(1)
         if len(calls) == 3:
             raise RuntimeError("sketch failed")
+        return real(self, buf, offsets, release)
 
-    monkeypatch.setattr(streaming.ChunkSketcher, "add", failing)
+    monkeypatch.setattr(streaming.ChunkSketcher, "compute", failing)
     with pytest.raises(RuntimeError, match="sketch failed"):
         dedup.audit([str(root)], AuditSettings(boilerplate=False))
+    assert not [t for t in threading.enumerate() if t.name.startswith("dedup-sketch")]
+
+
+def _gated_background(fail_at=None):
+    """A `_Background` whose first chunk holds its thread until the caller computes the last."""
+    import threading
+
+    started, gate = threading.Event(), threading.Event()
+    computed, committed = [], []
+
+    def compute(x):
+        computed.append((x, threading.current_thread().name))
+        if x == 0:
+            started.set()
+            assert gate.wait(timeout=30)
+        if x == fail_at:
+            gate.set()
+            raise RuntimeError(f"chunk {x} failed")
+        if x == 2:
+            gate.set()
+        return x
+
+    background = streaming._Background(compute, committed.append)
+    background.submit(0)
+    assert started.wait(timeout=30)
+    background.submit(1)
+    background.submit(2)
+    return background, computed, committed
+
+
+def test_chunks_not_begun_are_computed_by_the_caller_at_close():
+    import threading
+
+    background, computed, committed = _gated_background()
+    background.close()
+    assert committed == [0, 1, 2]  # in submission order, whoever computed them
+    by_thread = dict(computed)
+    assert by_thread[0].startswith("dedup-sketch")
+    assert by_thread[2] == threading.current_thread().name  # taken from the back
+    assert by_thread[1] in (by_thread[0], by_thread[2])
+    assert not [t for t in threading.enumerate() if t.name.startswith("dedup-sketch")]
+
+
+def test_an_error_in_a_chunk_computed_at_close_reaches_the_caller():
+    import threading
+
+    background, _, committed = _gated_background(fail_at=1)
+    with pytest.raises(RuntimeError, match="chunk 1 failed"):
+        background.close()
+    assert 1 not in committed and 2 not in committed
     assert not [t for t in threading.enumerate() if t.name.startswith("dedup-sketch")]
 
 
