@@ -43,7 +43,7 @@ from .streaming import (
     sketch_pass,
     text_order,
 )
-from .verify import PairScores, deciding_score, score_pairs
+from .verify import PairScores, deciding_score, may_reach, score_pairs
 from .workdir import WorkFolder
 
 __all__ = ["audit", "AuditResult", "SCHEMA_VERSION"]
@@ -447,6 +447,18 @@ def _audit(
 
     # -- verify -----------------------------------------------------------------------
     progress.start("verifying", int(left.shape[0]))
+    # Most candidates fall well short of the threshold: those are ruled out first, by a
+    # merge that stops as soon as they cannot reach it; the rest are scored in full.
+    reach = may_reach(
+        compared.shingles,
+        compared.shingle_offsets,
+        compared.of(left),
+        compared.of(right),
+        settings.measure,
+        settings.threshold,
+    )
+    n_candidates = int(left.shape[0])
+    left, right = left[reach], right[reach]
     scores = score_pairs(
         compared.shingles,
         compared.shingle_offsets,
@@ -577,7 +589,7 @@ def _audit(
         "distinct_texts": n_reps,
         "exact_groups": len(groups),
         "documents_in_exact_groups": sum(len(g) for g in groups),
-        "candidate_pairs": int(left.shape[0]),
+        "candidate_pairs": n_candidates,
         "confirmed_pairs": len(pairs),
         "near_pairs": len(confirmed),
         "clusters": len(clusters),

@@ -20,7 +20,7 @@ from numba import njit, prange
 
 from ..sketch.tfidf import pair_cosines
 
-__all__ = ["PairScores", "intersection_sizes", "score_pairs", "deciding_score"]
+__all__ = ["PairScores", "intersection_sizes", "score_pairs", "deciding_score", "may_reach"]
 
 
 @njit(cache=True, parallel=True, nogil=True)
@@ -109,3 +109,87 @@ def deciding_score(scores: PairScores, measure: str) -> np.ndarray:
     if measure == "cosine":
         return scores.cosine
     raise ValueError(f"unknown measure {measure!r}")
+
+
+# Kinds of deciding score `may_reach` can bound (cosine it cannot: every pair may reach it).
+_JACCARD, _CONTAINMENT = 0, 1
+
+
+@njit(cache=True, inline="always")
+def _reaches(c, size_a, size_b, kind, threshold):
+    # Whether c shared shingles give a deciding score of at least threshold, computed as
+    # `score_pairs` and `deciding_score` compute it (the same float64 divisions).
+    if kind == _JACCARD:
+        union = size_a + size_b - c
+        return union > 0 and c / union >= threshold
+    smaller = min(size_a, size_b)
+    return smaller > 0 and c / smaller >= threshold
+
+
+@njit(cache=True, parallel=True, nogil=True)
+def _may_reach(shingles, offsets, left, right, kind, threshold, out):
+    for p in prange(left.shape[0]):
+        i = np.uint64(offsets[left[p]])
+        i_end = np.uint64(offsets[left[p] + 1])
+        j = np.uint64(offsets[right[p]])
+        j_end = np.uint64(offsets[right[p] + 1])
+        size_a = np.int64(i_end - i)
+        size_b = np.int64(j_end - j)
+        most = min(size_a, size_b)
+        # The fewest shared shingles that reach the threshold: the scores grow with the
+        # count, so the first count that reaches it, counted up from an estimate.
+        need = 0
+        if kind == _JACCARD:
+            need = max(np.int64(threshold * (size_a + size_b) / (1.0 + threshold)) - 1, 0)
+        else:
+            need = max(np.int64(threshold * most) - 1, 0)
+        while need <= most and not _reaches(need, size_a, size_b, kind, threshold):
+            need += 1
+        if need > most:  # not even all of the smaller set would do
+            out[p] = False
+            continue
+        # The merge of `intersection_sizes`, given up once the shingles left on the
+        # shorter side could no longer bring the count to `need`.
+        c = 0
+        step = 0
+        while i < i_end and j < j_end:
+            a = shingles[i]
+            b = shingles[j]
+            c += np.int64(a == b)
+            i += np.uint64(a <= b)
+            j += np.uint64(b <= a)
+            step += 1
+            if (step & 63) == 0 and c + np.int64(min(i_end - i, j_end - j)) < need:
+                break
+        out[p] = c >= need
+
+
+def may_reach(
+    shingles: np.ndarray,
+    shingle_offsets: np.ndarray,
+    left: np.ndarray,
+    right: np.ndarray,
+    measure: str,
+    threshold: float,
+) -> np.ndarray:
+    """For each pair, whether its deciding score (`deciding_score`) reaches ``threshold``;
+    exactly the pairs `score_pairs` would confirm, for Jaccard and containment.
+
+    Most candidate pairs fall well short: a pair whose sizes alone rule it out is never
+    merged, and a merge stops once the shingles left could not make up the shortfall.
+    Cosine is not bounded by the shingles: every pair is kept (all True).
+
+    >>> sh = np.array([1, 2, 3, 2, 3, 4, 9], np.uint64); off = np.array([0, 3, 6, 7])
+    >>> may_reach(sh, off, np.array([0, 0]), np.array([1, 2]), "jaccard", 0.5).tolist()
+    [True, False]
+    """
+    left = np.asarray(left, dtype=np.int64)
+    right = np.asarray(right, dtype=np.int64)
+    if measure == "cosine" or threshold <= 0:
+        return np.ones(left.shape[0], dtype=np.bool_)
+    if measure not in ("jaccard", "containment"):
+        raise ValueError(f"unknown measure {measure!r}")
+    kind = _JACCARD if measure == "jaccard" else _CONTAINMENT
+    out = np.empty(left.shape[0], dtype=np.bool_)
+    _may_reach(shingles, shingle_offsets, left, right, kind, float(threshold), out)
+    return out
