@@ -110,37 +110,48 @@ def test_the_control_screen_never_changes_a_decision(monkeypatch):
     assert any(text and "\x01" in text for text, _, _ in screened)  # one stray control is text
 
 
-def test_each_file_is_examined_once(write_corpus, monkeypatch):
+@pytest.mark.parametrize("workers", [1, 2])
+def test_each_file_is_examined_once(write_corpus, monkeypatch, workers):
+    """One examination a file: by its path where the walk hands files to workers, through
+    its open descriptor where they are read here (the path is looked up once)."""
     root = write_corpus({f"f{n:02}.txt": f"text {n}" for n in range(20)})
-    calls = []
-    real_stat = os.stat
+    by_path, by_descriptor = [], []
+    real_stat, real_fstat = os.stat, os.fstat
 
     def counting_stat(path, *args, **kwargs):
-        calls.append(path)
+        by_path.append(path)
         return real_stat(path, *args, **kwargs)
 
+    def counting_fstat(fd):
+        by_descriptor.append(fd)
+        return real_fstat(fd)
+
     monkeypatch.setattr(walk_module.os, "stat", counting_stat)
-    docs = list(iter_documents([str(root)], ledger=[]))
+    monkeypatch.setattr(walk_module.os, "fstat", counting_fstat)
+    docs = list(iter_documents([str(root)], ledger=[], workers=workers))
     assert len(docs) == 20
-    per_file = [p for p in calls if str(p).endswith(".txt")]
-    assert len(per_file) == len(set(per_file)) == 20
+    per_file = [p for p in by_path if str(p).endswith(".txt")]
+    assert len(per_file) == len(set(per_file))
+    if workers == 1:
+        assert per_file == [] and len(by_descriptor) == 20
+    else:
+        assert len(per_file) == 20
 
 
-def _growing_open(monkeypatch, grow_to: int):
-    """Make every file reach ``grow_to`` bytes just after it was examined, before it is read."""
-    real_open = walk_module._open_descriptor
+def _changing_before_read(monkeypatch, path, content: bytes):
+    """Give the file ``content`` just after it was examined, before it is read."""
+    real_read = walk_module._read_descriptor
 
-    def open_after_growth(path):
-        with open(path, "ab") as handle:
-            handle.write(b"g" * (grow_to - os.path.getsize(path)))
-        return real_open(path)
+    def read_after_change(fd, size, limit):
+        path.write_bytes(content)
+        return real_read(fd, size, limit)
 
-    monkeypatch.setattr(walk_module, "_open_descriptor", open_after_growth)
+    monkeypatch.setattr(walk_module, "_read_descriptor", read_after_change)
 
 
 def test_a_file_that_grows_past_the_limit_is_skipped(write_corpus, monkeypatch):
     root = write_corpus({"a.txt": "short"})
-    _growing_open(monkeypatch, 200_000)
+    _changing_before_read(monkeypatch, root / "a.txt", b"short" + b"g" * (200_000 - 5))
     ledger = []
     assert list(iter_documents([str(root)], ledger=ledger, max_file_bytes=100_000)) == []
     (entry,) = ledger
@@ -150,7 +161,7 @@ def test_a_file_that_grows_past_the_limit_is_skipped(write_corpus, monkeypatch):
 
 def test_a_file_that_grows_within_the_limit_is_read_whole(write_corpus, monkeypatch):
     root = write_corpus({"a.txt": "short"})
-    _growing_open(monkeypatch, 150_000)
+    _changing_before_read(monkeypatch, root / "a.txt", b"short" + b"g" * (150_000 - 5))
     ledger = []
     (doc,) = list(iter_documents([str(root)], ledger=ledger, max_file_bytes=200_000))
     assert doc.text == "short" + "g" * (150_000 - 5)
@@ -159,14 +170,7 @@ def test_a_file_that_grows_within_the_limit_is_read_whole(write_corpus, monkeypa
 
 def test_a_file_that_shrinks_is_read_as_it_is(write_corpus, monkeypatch):
     root = write_corpus({"a.txt": "a longer text than later"})
-    real_open = walk_module._open_descriptor
-
-    def open_after_shrinking(path):
-        with open(path, "wb") as handle:
-            handle.write(b"short")
-        return real_open(path)
-
-    monkeypatch.setattr(walk_module, "_open_descriptor", open_after_shrinking)
+    _changing_before_read(monkeypatch, root / "a.txt", b"short")
     ledger = []
     (doc,) = list(iter_documents([str(root)], ledger=ledger))
     assert doc.text == "short" and ledger[0].size == 5
@@ -183,3 +187,55 @@ def test_workers_read_with_the_stat_taken_when_found(write_corpus):
     reasons = {e.input: e.reason for e in alone}
     assert reasons["big.txt"] == "file too large: 50 bytes, limit 40 (raise --max-file-bytes)"
     assert reasons["ctrl.txt"] == "binary data: control character 0x01 at offset 0"
+
+
+def test_files_examined_by_descriptor_or_by_path_give_the_same_ledger(write_corpus, monkeypatch):
+    """Reference: the walk that examines every file by its path (as it does for worker
+    processes). Read here, a file to be read is opened first and examined through its
+    descriptor; links, excluded and unreadable files must come out the same."""
+    root = write_corpus(
+        {
+            "a.txt": "first text",
+            "b.txt": "second text",
+            "locked.txt": "cannot be opened",
+            "notes.xyz": "an unsupported type",
+            "skip/c.txt": "excluded by a pattern",
+        }
+    )
+    os.symlink(root / "a.txt", root / "a-link.txt")  # the same file as a.txt
+    os.link(root / "b.txt", root / "b-hard.txt")  # the same file under another name
+    os.symlink(root / "notes.xyz", root / "notes-link.xyz")  # the same unsupported file
+    os.symlink(root / "skip" / "c.txt", root / "c-link.txt")  # readable, but the same as an excluded file
+    os.symlink(root / "locked.txt", root / "locked-link.txt")
+    os.mkfifo(root / "pipe.txt")
+    real_open = walk_module._open_descriptor
+
+    def refusing(path):
+        if os.path.basename(os.path.realpath(path)) == "locked.txt":
+            raise PermissionError(13, "Permission denied")
+        return real_open(path)
+
+    monkeypatch.setattr(walk_module, "_open_descriptor", refusing)
+
+    def read(**kwargs):
+        ledger = []
+        docs = list(iter_documents([str(root)], ledger=ledger, exclude=["skip/c.txt"], **kwargs))
+        return [dataclasses.asdict(d) for d in docs], [e.to_dict() for e in ledger]
+
+    # The order of examination: by path for all (a file examined by path is never opened first).
+    with monkeypatch.context() as m:
+        m.setattr(walk_module, "_opened", lambda path: (None, None, None))
+        by_path = read()
+    assert read() == by_path
+    assert read(workers=2) == by_path  # examined in the walk, read by worker processes
+    reasons = {e["input"]: e["reason"] for e in by_path[1]}
+    # Walked in name order ("-" sorts before "."): the link comes first, then its target.
+    assert reasons["a-link.txt"] == "" and reasons["a.txt"] == "same file as a-link.txt, read once"
+    assert reasons["b-hard.txt"] == "" and reasons["b.txt"] == "same file as b-hard.txt, read once"
+    assert reasons["notes-link.xyz"].startswith("unsupported file type")
+    assert reasons["notes.xyz"] == "same file as notes-link.xyz, read once"
+    assert reasons["locked-link.txt"] == "cannot be read: Permission denied"
+    assert reasons["locked.txt"] == "same file as locked-link.txt, read once"
+    assert reasons["c-link.txt"] == ""  # walked before the excluded file: it is read
+    assert reasons["skip/c.txt"] == "same file as c-link.txt, read once"
+    assert reasons["pipe.txt"] == "not a regular file (device, socket or pipe)"

@@ -150,13 +150,19 @@ def _windows(
     reading; workers get up to `WINDOW_FILES` files at once.
 
     A file that is the same as one seen before (a link, a root given twice) becomes an
-    entry here, before any reading, so the order never depends on the readers.
+    entry here, before any reading, so the order never depends on the readers. Read in
+    this process, a file is examined by the reader instead (`_read_found` with
+    ``seen``), right when its turn comes: the same order, one look-up of its path fewer.
     """
     window: list[LedgerEntry | _Sized] = []
     files = size = 0
     for item in found:
         window.extend(walk_entries)
         walk_entries.clear()
+        if max_files == 1:
+            yield [*window, _Sized(item)]
+            window = []
+            continue
         real, info = _identity(item.path)
         if real in seen_files:
             window.append(LedgerEntry(item.rel, "skipped", f"same file as {seen_files[real]}, read once"))
@@ -220,8 +226,9 @@ def _worker_read(bundle: list[_Sized]) -> list[list[Outcome]]:
 class _Readers:
     """Reads the files of each window, in this process or in a pool of worker processes."""
 
-    def __init__(self, opts: ReadOptions, unchanged, workers: int, prepare) -> None:
+    def __init__(self, opts: ReadOptions, unchanged, workers: int, prepare, seen_files: dict) -> None:
         self.opts, self.unchanged, self.workers, self.prepare = opts, unchanged, max(1, workers), prepare
+        self.seen_files = seen_files  # files read so far (identity → id), when read here
         self._pool = None
 
     def _to_workers(self, sized: _Sized) -> bool:
@@ -264,6 +271,8 @@ class _Readers:
                 yield event
             elif pending is not None and self._to_workers(event):
                 yield next(results)
+            elif pending is None and self.workers == 1:
+                yield _read_found(event.item, self.opts, self.unchanged, seen=self.seen_files)
             else:
                 yield _read_found(event.item, self.opts, self.unchanged, event.info)
 
@@ -308,7 +317,10 @@ UNCHANGED_REASON = "unchanged since the last index run (same modification time):
 
 # Reading on past the examined size (a file that grew) goes in steps of this many bytes.
 _GROWTH_STEP = 65536
-_READ_FLAGS = os.O_RDONLY | getattr(os, "O_BINARY", 0) | getattr(os, "O_CLOEXEC", 0)
+# Not blocking: a file that became a pipe since it was found must not stop the reading.
+_READ_FLAGS = (
+    os.O_RDONLY | getattr(os, "O_BINARY", 0) | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_NONBLOCK", 0)
+)
 
 
 def _open_descriptor(path: str) -> int:
@@ -317,31 +329,52 @@ def _open_descriptor(path: str) -> int:
     return os.open(path, _READ_FLAGS)
 
 
-def _read_limited(path: str, size: int, limit: int) -> bytes:
+def _read_limited(path: str, size: int, limit: int, fd: int | None = None) -> bytes:
     """The bytes of a file examined at ``size`` bytes: all of them, or ``limit + 1`` when it
-    has grown beyond the limit since.
+    has grown beyond the limit since. ``fd``: the file opened already (left open).
 
     The file is read unbuffered by its known size plus one byte, then on to its end in
     modest steps: asking for ``limit + 1`` bytes at once would allocate a buffer of the
     limit's size for every file, however small.
     """
+    if fd is not None:
+        return _read_descriptor(fd, size, limit)
     fd = _open_descriptor(path)
     try:
-        parts = [os.read(fd, min(size, limit) + 1)]
-        total = len(parts[0])
-        if total == size <= limit:
-            # Exactly the size examined, one byte short of what was asked: a regular file
-            # reads short only at its end, so there is no need to ask again.
-            return parts[0]
-        while total <= limit:  # on to the end: it may have grown, or a read may have come back short
-            more = os.read(fd, min(limit + 1 - total, _GROWTH_STEP))
-            if not more:
-                break
-            parts.append(more)
-            total += len(more)
+        return _read_descriptor(fd, size, limit)
     finally:
         os.close(fd)
+
+
+def _read_descriptor(fd: int, size: int, limit: int) -> bytes:
+    parts = [os.read(fd, min(size, limit) + 1)]
+    total = len(parts[0])
+    if total == size <= limit:
+        # Exactly the size examined, one byte short of what was asked: a regular file
+        # reads short only at its end, so there is no need to ask again.
+        return parts[0]
+    while total <= limit:  # on to the end: it may have grown, or a read may have come back short
+        more = os.read(fd, min(limit + 1 - total, _GROWTH_STEP))
+        if not more:
+            break
+        parts.append(more)
+        total += len(more)
     return parts[0] if len(parts) == 1 else b"".join(parts)
+
+
+def _opened(path: str) -> tuple[int | None, object, os.stat_result | None]:
+    """The file opened, its identity (device and inode) and its stat result, from one
+    look-up of its path; ``(None, None, None)`` when it cannot be opened or examined so."""
+    try:
+        fd = _open_descriptor(path)
+    except OSError:
+        return None, None, None
+    try:
+        info = os.fstat(fd)
+    except OSError:
+        os.close(fd)
+        return None, None, None
+    return fd, (info.st_dev, info.st_ino), info
 
 
 def _read_found(
@@ -349,14 +382,53 @@ def _read_found(
     opts: ReadOptions,
     unchanged: Callable[[str, float], bool] | None = None,
     info: os.stat_result | None = None,
+    seen: dict[object, str] | None = None,
 ) -> Iterator[Outcome]:
     """Outcomes of one found file; problems before its reader runs are entries too.
 
     ``info`` is the file's stat result when it was found (it is examined again without it).
+    ``seen`` (the files read so far, identity → id) asks for the file to be examined here
+    first, as `_windows` does: one seen before becomes an entry. A walked file that is to
+    be read is then opened at once and examined through its descriptor.
     """
     fmt = format_of(item.rel)
     name = item.rel.rsplit("/", 1)[-1]
     reason = file_reason(item.rel, name, opts, found=item.walked, container=fmt in ARCHIVE_FORMATS)
+    fd = None
+    if seen is not None:
+        real = None
+        if (
+            item.walked
+            and not reason
+            and fmt is not None
+            and fmt not in STREAMED_FORMATS
+            and unchanged is None
+        ):
+            fd, real, info = _opened(item.path)
+        if real is None:
+            real, info = _identity(item.path)
+        if real in seen:
+            if fd is not None:
+                os.close(fd)
+            yield None, LedgerEntry(item.rel, "skipped", f"same file as {seen[real]}, read once")
+            return
+        seen[real] = item.rel
+    try:
+        yield from _read_examined(item, fmt, reason, opts, unchanged, info, fd)
+    finally:
+        if fd is not None:
+            os.close(fd)
+
+
+def _read_examined(
+    item: _Found,
+    fmt: str | None,
+    reason: str,
+    opts: ReadOptions,
+    unchanged: Callable[[str, float], bool] | None,
+    info: os.stat_result | None,
+    fd: int | None,
+) -> Iterator[Outcome]:
     if reason:
         yield None, LedgerEntry(item.rel, "skipped", reason, fmt or "")
         return
@@ -385,7 +457,7 @@ def _read_found(
         if info.st_size > opts.max_file_bytes:
             yield None, LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
             return
-        data = _read_limited(item.path, info.st_size, opts.max_file_bytes)
+        data = _read_limited(item.path, info.st_size, opts.max_file_bytes, fd)
     except OSError as err:
         yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt)
         return
@@ -478,7 +550,7 @@ def iter_documents(
     base = _base_of([p for p, _ in paths])
     seen_files: dict[object, str] = {}
     seen_ids: set[str] = set()
-    readers = _Readers(opts, unchanged, workers if unchanged is None else 1, prepare)
+    readers = _Readers(opts, unchanged, workers if unchanged is None else 1, prepare, seen_files)
     try:
         for path, listed in paths:
             if listed and not os.path.lexists(path):
