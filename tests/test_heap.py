@@ -82,3 +82,47 @@ def test_cycle_collection_rests_inside_and_comes_back_as_it_was(enabled_before):
         assert gc.isenabled() is enabled_before
     finally:
         (gc.enable if was else gc.disable)()
+
+
+class _FakeLibc:
+    """Records what `lean_allocation` asks of the C library; reports ``free`` bytes free."""
+
+    def __init__(self, free: int | None) -> None:
+        self.trims = 0
+        if free is not None:
+            self.mallinfo2 = lambda: heap._MallInfo2(fordblks=free)
+
+    def mallopt(self, *args) -> int:
+        return 1
+
+    def malloc_trim(self, pad) -> int:
+        self.trims += 1
+        return 1
+
+
+@pytest.mark.parametrize(
+    ("free", "trims"),
+    [(10 * 2**20, 0), (heap.TRIM_FREE_BYTES + 1, 1), (None, 1)],
+    ids=["little-free", "much-free", "cannot-tell"],
+)
+def test_free_memory_is_returned_only_when_there_is_much_of_it(monkeypatch, free, trims):
+    fake = _FakeLibc(free)
+    monkeypatch.setattr(heap, "_glibc", lambda: fake)
+    with heap.lean_allocation():
+        with heap.lean_allocation():
+            pass
+        assert fake.trims == 0  # only the outermost exit
+    assert fake.trims == trims
+
+
+def test_free_heap_bytes_sees_a_freed_block(monkeypatch):
+    """Reference: glibc's own count (mallinfo2); a block freed inside stays in the heap."""
+    lib = heap._glibc()
+    if lib is None or not hasattr(lib, "mallinfo2"):
+        pytest.skip("glibc 2.33 or later needed (mallinfo2)")
+    with heap.lean_allocation():
+        block = bytearray(64 * 2**20)
+        before = heap._free_heap_bytes(lib)
+        del block
+        after = heap._free_heap_bytes(lib)
+    assert after - before >= 60 * 2**20
