@@ -115,7 +115,7 @@ def test_free_memory_is_returned_only_when_there_is_much_of_it(monkeypatch, free
     assert fake.trims == trims
 
 
-def test_free_heap_bytes_sees_a_freed_block(monkeypatch):
+def test_free_heap_bytes_sees_a_freed_block():
     """Reference: glibc's own count (mallinfo2); a block freed inside stays in the heap."""
     lib = heap._glibc()
     if lib is None or not hasattr(lib, "mallinfo2"):
