@@ -34,7 +34,7 @@ from .features.hashing import sort_unique_segments
 from .features.shingles import features_from_tokens, features_with, pack_bytes
 from .normalize import content_hash
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
-from .normalize.canonical_bytes import canonical_packed
+from .normalize.canonical_bytes import canonical_segments
 from .progress import Progress
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
@@ -152,20 +152,24 @@ def prepare_documents(documents: list, parallel: bool = False, lines: bool = Tru
     originals = [
         doc.text.encode("utf-8", "surrogatepass") if doc.utf8 is None else doc.utf8 for doc in documents
     ]
-    buf, offsets, chars_of = canonical_packed(
+    out, starts, lengths, chars_of, fixed = canonical_segments(
         [doc.text for doc in documents],
         parallel=parallel,
         encoded=originals,
         separator=b"\n" if lines else b" ",
     )
-    spaced = buf
-    if lines:
-        spaced = buf.copy()
-        spaced[spaced == 0x0A] = 0x20
-    bounds = offsets.tolist()
-    for doc, original, a, b, characters in zip(documents, originals, bounds[:-1], bounds[1:], chars_of):
+    ends = (starts + lengths).tolist()
+    for k, (doc, original, a, b, characters) in enumerate(
+        zip(documents, originals, starts.tolist(), ends, chars_of)
+    ):
+        stored = fixed[k] if k in fixed else out[a:b].tobytes()
         # The content hash is taken over the canonical text: the lines joined by spaces.
-        doc.prepared = (original, buf[a:b].tobytes(), characters, content_hash(spaced[a:b]))
+        doc.prepared = (
+            original,
+            stored,
+            characters,
+            content_hash(stored.replace(b"\n", b" ") if lines else stored),
+        )
         doc.text, doc.utf8 = "", None
 
 

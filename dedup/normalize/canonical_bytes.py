@@ -90,7 +90,7 @@ _BYTE_CLASS[65:91] += 32
 _BYTE_CLASS[[9, 32, 31]] = _SPACE
 _BYTE_CLASS[[10, 11, 12, 13, 28, 29, 30]] = _BREAK
 
-__all__ = ["canonical_line_bytes", "canonical_packed"]
+__all__ = ["canonical_line_bytes", "canonical_packed", "canonical_segments"]
 
 
 @njit(cache=True, inline="always")
@@ -265,9 +265,29 @@ def canonical_packed(
     the texts' UTF-8 bytes (``surrogatepass``) when the caller has them already, saves
     encoding them again.
 
-    >>> buf, offsets, characters = canonical_packed(["  The ﬁle\\u2028IS  here ", "Straße"], separator=b" ")
+    >>> buf, offsets, characters = canonical_packed(["  The ﬁle\u2028IS  here ", "Straße"], separator=b" ")
     >>> buf.tobytes(), offsets.tolist(), characters
     (b'the file is herestrasse', [0, 16, 23], [16, 7])
+    """
+    out, starts, lengths, chars, fixed = canonical_segments(texts, parallel, encoded, separator)
+    sizes = lengths.copy()
+    for k, value in fixed.items():
+        sizes[k], lengths[k] = len(value), 0  # copied in below, not by the kernel
+    offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
+    np.cumsum(sizes, out=offsets[1:])
+    dest = np.empty(int(offsets[-1]), dtype=np.uint8)
+    (_compact if parallel else _compact_serial)(out, starts, lengths, dest, offsets)
+    for k, value in fixed.items():
+        dest[offsets[k] : offsets[k + 1]] = np.frombuffer(value, dtype=np.uint8)
+    return dest, offsets, chars
+
+
+def canonical_segments(
+    texts: list[str], parallel: bool = True, encoded: list[bytes] | None = None, separator: bytes = b"\n"
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, list[int], dict[int, bytes]]:
+    """`canonical_packed` before its texts are laid end to end, for a caller that takes
+    each text apart anyway: ``(out, starts, lengths, characters, fixed)``, where text k
+    is ``fixed[k]`` when Python normalized it, else ``out[starts[k]:starts[k] + lengths[k]]``.
     """
     if encoded is None:
         encoded = [
@@ -305,16 +325,7 @@ def canonical_packed(
             a = int(again_starts[j])
             fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()
             chars[k] = again_chars[j]
-    sizes = lengths.copy()
-    for k, value in fixed.items():
-        sizes[k], lengths[k] = len(value), 0  # copied in below, not by the kernel
-    offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
-    np.cumsum(sizes, out=offsets[1:])
-    dest = np.empty(int(offsets[-1]), dtype=np.uint8)
-    (_compact if parallel else _compact_serial)(out, starts, lengths, dest, offsets)
-    for k, value in fixed.items():
-        dest[offsets[k] : offsets[k + 1]] = np.frombuffer(value, dtype=np.uint8)
-    return dest, offsets, chars.tolist()
+    return out, starts[:-1], lengths, chars.tolist(), fixed
 
 
 def canonical_line_bytes(
