@@ -429,6 +429,8 @@ class ChunkSketcher:
         self.word_store = word_store
         self.sets_text_limit = sets_text_limit
         self._sets: list | None = [] if sets_text_limit is not None else None
+        # The kept shingles, laid end to end as they come (no joining of parts at the end).
+        self._shingles = _Growing(np.uint64) if sets_text_limit is not None else None
         self.texts = self.text_bytes = 0
         self._out = open(signature_path, "wb") if lsh else None  # noqa: SIM115 - closed by `finish`
         self._keys: list[np.ndarray] = []
@@ -465,7 +467,7 @@ class ChunkSketcher:
         """Add the sketches of the next texts (`compute` made them)."""
         self.text_bytes += part.text_bytes
         if self._sets is not None and self.text_bytes > self.sets_text_limit:
-            self._sets = None
+            self._sets = self._shingles = None
         features = part.features
         counts = part.counts if self._sets is not None else None
         self.frequencies.add(features.token_hashes, features.token_offsets, counts)
@@ -475,7 +477,8 @@ class ChunkSketcher:
             self._keys.append(part.keys)
             self._out.write(part.values.tobytes())
         if self._sets is not None:
-            self._sets.append((part.shingles, part.shingle_offsets, counts))
+            self._shingles.append(part.shingles)
+            self._sets.append((np.diff(part.shingle_offsets), counts))
         self.texts += int(features.token_offsets.shape[0] - 1)
 
     def finish(self, text_of_slot: np.ndarray, affected: int = 0, whole: int = 0) -> SketchResult:
@@ -491,8 +494,8 @@ class ChunkSketcher:
             self._keys.clear()
         sets = None
         if self._sets is not None:
-            sets = _joined_sets(self._sets, self.frequencies.n_features)
-            self._sets = None
+            sets = _joined_sets(self._shingles.array(), self._sets, self.frequencies.n_features)
+            self._sets = self._shingles = None
         return SketchResult(self.frequencies, keys, self.signature_path, affected, whole, sets)
 
     def close(self) -> None:
@@ -501,19 +504,42 @@ class ChunkSketcher:
             self._out.close()
 
 
-def _joined_sets(parts: list, n_features: int) -> KeptSets:
+def _joined_sets(shingles: np.ndarray, parts: list, n_features: int) -> KeptSets:
+    """The kept sets: ``shingles`` laid end to end already, ``parts`` the set sizes and
+    term counts of each chunk."""
     import scipy.sparse as sp
 
     if not parts:
         return KeptSets(
             np.zeros(0, np.uint64), np.zeros(1, np.int64), sp.csr_matrix((0, n_features), dtype=np.float64)
         )
-    shingles = np.concatenate([sh for sh, _, _ in parts])
-    lengths = np.concatenate([np.diff(off) for _, off, _ in parts])
+    lengths = np.concatenate([sizes for sizes, _ in parts])
     offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
     np.cumsum(lengths, out=offsets[1:])
-    counts = sp.vstack([c for _, _, c in parts], format="csr")
+    counts = sp.vstack([c for _, c in parts], format="csr")
     return KeptSets(shingles, offsets, counts)
+
+
+class _Growing:
+    """A one-dimensional array appended to in place; its room doubles when full, so each
+    value is copied about once more in all (in the thread that appends)."""
+
+    def __init__(self, dtype) -> None:
+        self._room = np.empty(0, dtype=dtype)
+        self._used = 0
+
+    def append(self, values: np.ndarray) -> None:
+        need = self._used + values.shape[0]
+        if need > self._room.shape[0]:
+            room = np.empty(max(need, 2 * self._room.shape[0], 1 << 16), dtype=self._room.dtype)
+            room[: self._used] = self._room[: self._used]
+            self._room = room
+        self._room[self._used : need] = values
+        self._used = need
+
+    def array(self) -> np.ndarray:
+        """The values appended so far (a view)."""
+        return self._room[: self._used]
 
 
 def text_order(slots: np.ndarray) -> np.ndarray:

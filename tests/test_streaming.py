@@ -396,3 +396,14 @@ def test_frequencies_from_term_counts_equal_those_from_tokens(n_features):
         assert x.tolist() == y.tolist()
     assert plain.collision_stats() == counted.collision_stats()
     assert (plain.n_docs, plain.tokens) == (counted.n_docs, counted.tokens) == (4, 3000)
+
+
+def test_growing_array_equals_the_joined_parts():
+    """Reference: numpy.concatenate of the same parts (empty ones and ones larger than the room too)."""
+    rng = np.random.default_rng(9)
+    parts = [rng.integers(0, 2**63, int(n), dtype=np.uint64) for n in (0, 5, 70_000, 0, 1, 200_000, 3)]
+    grown = streaming._Growing(np.uint64)
+    for k, part in enumerate(parts):
+        grown.append(part)
+        assert np.array_equal(grown.array(), np.concatenate(parts[: k + 1]))
+    assert grown.array().dtype == np.uint64
