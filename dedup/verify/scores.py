@@ -23,29 +23,43 @@ from ..sketch.tfidf import pair_cosines
 __all__ = ["PairScores", "intersection_sizes", "score_pairs", "deciding_score", "may_reach"]
 
 
+@njit(cache=True, inline="always")
+def _shared(shingles, i, i_end, j, j_end, need):
+    # |A ∩ B| of the sorted unique runs shingles[i:i_end] and shingles[j:j_end], given up
+    # (with a count short of ``need``) once the shingles left on the shorter side could
+    # no longer bring the count to ``need``; with need 0, never given up.
+    #
+    # The merge takes no branch on the values (each side moves on by a comparison's 0 or
+    # 1), so the processor never guesses wrong about which side moves, and its indices
+    # are unsigned (no test for negative indices): about twice as fast as the plain merge.
+    c = 0
+    step = 0
+    while i < i_end and j < j_end:
+        a = shingles[i]
+        b = shingles[j]
+        c += np.int64(a == b)
+        i += np.uint64(a <= b)
+        j += np.uint64(b <= a)
+        step += 1
+        if (step & 63) == 0 and c + np.int64(min(i_end - i, j_end - j)) < need:
+            break
+    return c
+
+
 @njit(cache=True, parallel=True, nogil=True)
 def intersection_sizes(shingles, offsets, left, right):
-    """|A ∩ B| for every pair, by a merge of the two sorted unique arrays.
-
-    The merge takes no branch on the values (each side moves on by a comparison's 0 or
-    1), so the processor never guesses wrong about which side moves, and its indices
-    are unsigned (no test for negative indices): about twice as fast as the plain merge.
-    """
+    """|A ∩ B| for every pair, by a merge of the two sorted unique arrays."""
     n_pairs = left.shape[0]
     out = np.zeros(n_pairs, dtype=np.int64)
     for p in prange(n_pairs):
-        i = np.uint64(offsets[left[p]])
-        i_end = np.uint64(offsets[left[p] + 1])
-        j = np.uint64(offsets[right[p]])
-        j_end = np.uint64(offsets[right[p] + 1])
-        c = 0
-        while i < i_end and j < j_end:
-            a = shingles[i]
-            b = shingles[j]
-            c += np.int64(a == b)
-            i += np.uint64(a <= b)
-            j += np.uint64(b <= a)
-        out[p] = c
+        out[p] = _shared(
+            shingles,
+            np.uint64(offsets[left[p]]),
+            np.uint64(offsets[left[p] + 1]),
+            np.uint64(offsets[right[p]]),
+            np.uint64(offsets[right[p] + 1]),
+            0,
+        )
     return out
 
 
@@ -148,20 +162,7 @@ def _may_reach(shingles, offsets, left, right, kind, threshold, out):
         if need > most:  # not even all of the smaller set would do
             out[p] = False
             continue
-        # The merge of `intersection_sizes`, given up once the shingles left on the
-        # shorter side could no longer bring the count to `need`.
-        c = 0
-        step = 0
-        while i < i_end and j < j_end:
-            a = shingles[i]
-            b = shingles[j]
-            c += np.int64(a == b)
-            i += np.uint64(a <= b)
-            j += np.uint64(b <= a)
-            step += 1
-            if (step & 63) == 0 and c + np.int64(min(i_end - i, j_end - j)) < need:
-                break
-        out[p] = c >= need
+        out[p] = _shared(shingles, i, i_end, j, j_end, need) >= need
 
 
 def may_reach(
