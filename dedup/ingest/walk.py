@@ -271,7 +271,7 @@ class _Readers:
                 yield event
             elif pending is not None and self._to_workers(event):
                 yield next(results)
-            elif pending is None and self.workers == 1:
+            elif self.workers == 1:  # examined here, in its turn (see `_windows`)
                 yield _read_found(event.item, self.opts, self.unchanged, seen=self.seen_files)
             else:
                 yield _read_found(event.item, self.opts, self.unchanged, event.info)
