@@ -428,9 +428,7 @@ class ChunkSketcher:
         self.signature_path = signature_path if lsh else None
         self.word_store = word_store
         self.sets_text_limit = sets_text_limit
-        self._sets: list | None = [] if sets_text_limit is not None else None
-        # The kept shingles, laid end to end as they come (no joining of parts at the end).
-        self._shingles = _Growing(np.uint64) if sets_text_limit is not None else None
+        self._sets: _KeptParts | None = _KeptParts() if sets_text_limit is not None else None
         self.texts = self.text_bytes = 0
         self._out = open(signature_path, "wb") if lsh else None  # noqa: SIM115 - closed by `finish`
         self._keys: list[np.ndarray] = []
@@ -467,7 +465,7 @@ class ChunkSketcher:
         """Add the sketches of the next texts (`compute` made them)."""
         self.text_bytes += part.text_bytes
         if self._sets is not None and self.text_bytes > self.sets_text_limit:
-            self._sets = self._shingles = None
+            self._sets = None
         features = part.features
         counts = part.counts if self._sets is not None else None
         self.frequencies.add(features.token_hashes, features.token_offsets, counts)
@@ -477,8 +475,7 @@ class ChunkSketcher:
             self._keys.append(part.keys)
             self._out.write(part.values.tobytes())
         if self._sets is not None:
-            self._shingles.append(part.shingles)
-            self._sets.append((np.diff(part.shingle_offsets), counts))
+            self._sets.add(part.shingles, part.shingle_offsets, counts)
         self.texts += int(features.token_offsets.shape[0] - 1)
 
     def finish(self, text_of_slot: np.ndarray, affected: int = 0, whole: int = 0) -> SketchResult:
@@ -494,8 +491,8 @@ class ChunkSketcher:
             self._keys.clear()
         sets = None
         if self._sets is not None:
-            sets = _joined_sets(self._shingles.array(), self._sets, self.frequencies.n_features)
-            self._sets = self._shingles = None
+            sets = self._sets.joined(self.frequencies.n_features)
+            self._sets = None
         return SketchResult(self.frequencies, keys, self.signature_path, affected, whole, sets)
 
     def close(self) -> None:
@@ -504,20 +501,33 @@ class ChunkSketcher:
             self._out.close()
 
 
-def _joined_sets(shingles: np.ndarray, parts: list, n_features: int) -> KeptSets:
-    """The kept sets: ``shingles`` laid end to end already, ``parts`` the set sizes and
-    term counts of each chunk."""
-    import scipy.sparse as sp
+class _KeptParts:
+    """The shingle sets and term counts of the chunks sketched so far: the shingles laid
+    end to end as they come (no joining of parts at the end), the rest per chunk."""
 
-    if not parts:
-        return KeptSets(
-            np.zeros(0, np.uint64), np.zeros(1, np.int64), sp.csr_matrix((0, n_features), dtype=np.float64)
-        )
-    lengths = np.concatenate([sizes for sizes, _ in parts])
-    offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
-    np.cumsum(lengths, out=offsets[1:])
-    counts = sp.vstack([c for _, c in parts], format="csr")
-    return KeptSets(shingles, offsets, counts)
+    def __init__(self) -> None:
+        self.shingles = _Growing(np.uint64)
+        self.sizes: list[np.ndarray] = []
+        self.counts: list = []
+
+    def add(self, shingles: np.ndarray, shingle_offsets: np.ndarray, counts) -> None:
+        self.shingles.append(shingles)
+        self.sizes.append(np.diff(shingle_offsets))
+        self.counts.append(counts)
+
+    def joined(self, n_features: int) -> KeptSets:
+        import scipy.sparse as sp
+
+        if not self.sizes:
+            return KeptSets(
+                np.zeros(0, np.uint64),
+                np.zeros(1, np.int64),
+                sp.csr_matrix((0, n_features), dtype=np.float64),
+            )
+        lengths = np.concatenate(self.sizes)
+        offsets = np.zeros(lengths.shape[0] + 1, dtype=np.int64)
+        np.cumsum(lengths, out=offsets[1:])
+        return KeptSets(self.shingles.array(), offsets, sp.vstack(self.counts, format="csr"))
 
 
 class _Growing:
