@@ -8,6 +8,7 @@ reader never raises for bad input; what it cannot read becomes an entry with a r
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 from .ledger import LedgerEntry
 
@@ -35,8 +36,7 @@ class RawDocument:
     utf8: bytes | None = None
 
 
-@dataclass(frozen=True)
-class Item:
+class Item(NamedTuple):
     """One input to read.
 
     Attributes

@@ -176,10 +176,15 @@ def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None
     if nul >= 0:
         return None, "", f"binary data: NUL byte at offset {nul}"
     try:
-        return _checked(data.decode("utf-8"), "utf-8", utf8=data)
+        text = data.decode("utf-8")
     except UnicodeDecodeError as err:
         bad = data[err.start : err.start + 1].hex()
         not_utf8 = f"not UTF-8 text: byte 0x{bad} at offset {err.start} cannot be decoded"
+    else:
+        # Most files: UTF-8 with no control character at all, screened on the bytes.
+        if _utf8_without_controls(data[: 4 * _SAMPLE]):
+            return text, "utf-8", ""
+        return _checked(text, "utf-8", utf8=data)
     codec = _codec_name(declared) if declared else None
     if codec is not None:
         text = _strict(data, codec)

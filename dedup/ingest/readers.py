@@ -134,6 +134,8 @@ def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
     if item.format == "html":
         body, title = html_to_text(text, keep_all=opts.html_keep_all)
         title = title or first_line_title(body)
+    elif item.format == "text":  # kept as it is
+        body, title = text, first_line_title(text)
     else:
         body, title = reduce_markup(text, item.format)
     doc, entry = item.document(body, title=title, encoding=encoding)
@@ -288,12 +290,12 @@ def read_bytes(
 ) -> Iterator[Outcome]:
     """Documents and ledger entries from the bytes of one input of a known format.
 
-    ``budget`` is the expansion budget of the archive the input is a member of.
+    ``budget`` is the expansion budget of the archive the input is a member of. Lazy:
+    the reader runs as the outcomes are taken.
     """
     if item.format in ARCHIVE_FORMATS:
-        yield from _guarded(_read_archive(io.BytesIO(data), item, opts, budget), item, opts)
-    else:
-        yield from _guarded(_BYTES_READERS[item.format](data, item, opts), item, opts)
+        return _guarded(_read_archive(io.BytesIO(data), item, opts, budget), item, opts)
+    return _guarded(_BYTES_READERS[item.format](data, item, opts), item, opts)
 
 
 def read_stream(handle: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Outcome]:

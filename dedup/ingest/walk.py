@@ -13,7 +13,7 @@ import errno
 import os
 import stat
 import sys
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from typing import IO, NamedTuple
 
 from .document import Item, Outcome, RawDocument
@@ -383,8 +383,11 @@ def _read_found(
     unchanged: Callable[[str, float], bool] | None = None,
     info: os.stat_result | None = None,
     seen: dict[object, str] | None = None,
-) -> Iterator[Outcome]:
+) -> Iterable[Outcome]:
     """Outcomes of one found file; problems before its reader runs are entries too.
+
+    The file is examined and read when this is called; its reader runs as the outcomes
+    are taken (an archive member by member).
 
     ``info`` is the file's stat result when it was found (it is examined again without it).
     ``seen`` (the files read so far, identity → id) asks for the file to be examined here
@@ -410,14 +413,17 @@ def _read_found(
         if real in seen:
             if fd is not None:
                 os.close(fd)
-            yield None, LedgerEntry(item.rel, "skipped", f"same file as {seen[real]}, read once")
-            return
+            return _skipped(LedgerEntry(item.rel, "skipped", f"same file as {seen[real]}, read once"))
         seen[real] = item.rel
     try:
-        yield from _read_examined(item, fmt, reason, opts, unchanged, info, fd)
+        return _read_examined(item, fmt, reason, opts, unchanged, info, fd)
     finally:
         if fd is not None:
             os.close(fd)
+
+
+def _skipped(entry: LedgerEntry) -> list[Outcome]:
+    return [(None, entry)]
 
 
 def _read_examined(
@@ -428,43 +434,51 @@ def _read_examined(
     unchanged: Callable[[str, float], bool] | None,
     info: os.stat_result | None,
     fd: int | None,
-) -> Iterator[Outcome]:
+) -> Iterable[Outcome]:
+    # The file is read here, at once (``fd`` can be closed after); its reader runs lazily.
     if reason:
-        yield None, LedgerEntry(item.rel, "skipped", reason, fmt or "")
-        return
+        return _skipped(LedgerEntry(item.rel, "skipped", reason, fmt or ""))
     if fmt is None:
         ext = os.path.splitext(item.path)[1] or "(no extension)"
-        yield None, LedgerEntry(item.rel, "skipped", f"unsupported file type {clean_name(ext)}")
-        return
+        return _skipped(LedgerEntry(item.rel, "skipped", f"unsupported file type {clean_name(ext)}"))
     try:
         if info is None:
             info = os.stat(item.path)
         if not stat.S_ISREG(info.st_mode):
-            yield None, LedgerEntry(item.rel, "skipped", "not a regular file", fmt)
-            return
+            return _skipped(LedgerEntry(item.rel, "skipped", "not a regular file", fmt))
         if unchanged is not None and fmt in _SINGLE_DOCUMENT_FORMATS and unchanged(item.rel, info.st_mtime):
-            yield (
-                None,
-                LedgerEntry(item.rel, "read", UNCHANGED_REASON, fmt, info.st_size, document_id=item.rel),
+            return _skipped(
+                LedgerEntry(item.rel, "read", UNCHANGED_REASON, fmt, info.st_size, document_id=item.rel)
             )
-            return
         if fmt in STREAMED_FORMATS:
             # Streamed: bounded by the archive limits, not by the size of the file.
-            found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
-            with open(item.path, "rb") as handle:
-                yield from read_stream(handle, found, opts)
-            return
+            return _streamed(item, Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime), opts)
         if info.st_size > opts.max_file_bytes:
-            yield None, LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
-            return
-        data = _read_limited(item.path, info.st_size, opts.max_file_bytes, fd)
+            return _skipped(
+                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
+            )
+        limit = opts.max_file_bytes
+        data = (
+            _read_limited(item.path, info.st_size, limit)
+            if fd is None
+            else _read_descriptor(fd, info.st_size, limit)
+        )
     except OSError as err:
-        yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt)
-        return
+        return _skipped(LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt))
     if len(data) > opts.max_file_bytes:  # it grew since it was examined
-        yield None, LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data))
+        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data)))
+    return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
+
+
+def _streamed(item: _Found, found: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    # Opened when the outcomes are taken, and open while they are.
+    try:
+        handle = open(item.path, "rb")  # noqa: SIM115 - closed below, after the last outcome
+    except OSError as err:
+        yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", found.format)
         return
-    yield from read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
+    with handle:
+        yield from read_stream(handle, found, opts)
 
 
 def iter_documents(
