@@ -302,7 +302,8 @@ def _audit(
     # exhaustive by choice; for "auto" they go unused when the corpus turns out small).
     bands, rows = _bands(settings)
     early: ChunkSketcher | None = None
-    if not settings.boilerplate and OVERLAP_SKETCH and kernels_thread_safe():
+    threaded = OVERLAP_SKETCH and kernels_thread_safe()
+    if not settings.boilerplate and threaded:
         early = ChunkSketcher(
             settings,
             lsh=(bands, rows) if settings.candidates != "exhaustive" else None,
@@ -310,7 +311,9 @@ def _audit(
             sets_text_limit=KEEP_SETS_TEXT_BYTES,
         )
     try:
-        read = read_pass(documents_in, settings, originals, canonicals, progress, sketcher=early)
+        read = read_pass(
+            documents_in, settings, originals, canonicals, progress, sketcher=early, threaded=threaded
+        )
     finally:
         if early is not None:
             early.close()

@@ -15,6 +15,10 @@ is stored, while this thread reads on (the compiled kernels release the interpre
 lock). For a modest corpus it also keeps every text's shingle set and term counts, and
 pass 3 only picks the compared ones out.
 
+Where compiled kernels may run in two threads at once, normalizing a batch is split too:
+its compiled pass runs in a thread of its own while this thread reads the next batch,
+and this thread then keeps the batch's records (one batch behind the reading).
+
 So memory holds the per-document records, 8 bytes per band per text and one chunk at a
 time, never the corpus.
 """
@@ -34,7 +38,7 @@ from .features.hashing import sort_unique_segments
 from .features.shingles import features_from_tokens, features_with, pack_bytes
 from .normalize import content_hash
 from .normalize.boilerplate import Boilerplate, BoilerplateCounter
-from .normalize.canonical_bytes import canonical_segments
+from .normalize.canonical_bytes import CanonicalJob
 from .progress import Progress
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency, TfidfModel
@@ -149,28 +153,101 @@ def prepare_documents(documents: list, parallel: bool = False, lines: bool = Tru
     spaces). Runs where the documents are read — in worker processes when there are
     workers — so the text crosses between processes once.
     """
-    originals = [
-        doc.text.encode("utf-8", "surrogatepass") if doc.utf8 is None else doc.utf8 for doc in documents
-    ]
-    out, starts, lengths, chars_of, fixed = canonical_segments(
-        [doc.text for doc in documents],
-        parallel=parallel,
-        encoded=originals,
-        separator=b"\n" if lines else b" ",
-    )
-    ends = (starts + lengths).tolist()
-    for k, (doc, original, a, b, characters) in enumerate(
-        zip(documents, originals, starts.tolist(), ends, chars_of)
-    ):
-        stored = fixed[k] if k in fixed else out[a:b].tobytes()
-        # The content hash is taken over the canonical text: the lines joined by spaces.
-        doc.prepared = (
-            original,
-            stored,
-            characters,
-            content_hash(stored.replace(b"\n", b" ") if lines else stored),
+    PreparedBatch(documents, lines).finish(parallel=parallel)
+
+
+class PreparedBatch:
+    """`prepare_documents` in two steps: `compiled` (the kernel's pass, which needs no
+    interpreter lock, so it may run in another thread while this one reads on) and
+    `finish` (the few texts only Python can normalize, the content hashes, then each
+    document's ``prepared``)."""
+
+    def __init__(self, documents: list, lines: bool, spare: np.ndarray | None = None) -> None:
+        self.documents, self.lines = documents, lines
+        self.originals = [
+            doc.text.encode("utf-8", "surrogatepass") if doc.utf8 is None else doc.utf8 for doc in documents
+        ]
+        self.job = CanonicalJob(
+            [doc.text for doc in documents], self.originals, b"\n" if lines else b" ", spare
         )
-        doc.text, doc.utf8 = "", None
+
+    def compiled(self, parallel: bool = True) -> tuple:
+        """The kernel's pass over the batch (see `CanonicalJob.run`)."""
+        return self.job.run(parallel)
+
+    def finish(self, ran: tuple | None = None, parallel: bool = True) -> None:
+        """Fill in ``doc.prepared`` from what `compiled` returned (run here when not given)."""
+        lines = self.lines
+        out, starts, lengths, chars_of, fixed = self.job.finish(
+            ran if ran is not None else self.compiled(parallel), parallel
+        )
+        ends = (starts + lengths).tolist()
+        for k, (doc, original, a, b, characters) in enumerate(
+            zip(self.documents, self.originals, starts.tolist(), ends, chars_of)
+        ):
+            stored = fixed[k] if k in fixed else out[a:b].tobytes()
+            # The content hash is taken over the canonical text: the lines joined by spaces.
+            doc.prepared = (
+                original,
+                stored,
+                characters,
+                content_hash(stored.replace(b"\n", b" ") if lines else stored),
+            )
+            doc.text, doc.utf8 = "", None
+
+
+class _Normalizer:
+    """Normalizes the read pass's batches; threaded, one batch behind: the compiled part of
+    a batch runs in a thread of its own while the caller reads the next batch, and `push`
+    hands back the batch before, prepared."""
+
+    def __init__(self, lines: bool, threaded: bool) -> None:
+        from concurrent.futures import ThreadPoolExecutor
+
+        self.lines = lines
+        self._pool = (
+            ThreadPoolExecutor(max_workers=1, thread_name_prefix="dedup-normalize") if threaded else None
+        )
+        self._waiting: tuple | None = None  # (batch, prepared batch or None, future or None)
+        # Two batches are under way at once; each writes its canonical texts into one of
+        # two arrays kept for the pass, in turn. Fresh arrays would take fresh pages: the
+        # heap, with two batches' arrays alive at once, does not hand the same ones back.
+        self._spares: list[np.ndarray] = [np.zeros(0, np.uint8), np.zeros(0, np.uint8)]
+        self._turn = 0
+
+    def push(self, batch: list | None) -> list | None:
+        """Start on ``batch`` (None: no more); the batch pushed before it, prepared, or None."""
+        started = None
+        if batch is not None:
+            todo = [doc for doc in batch if doc.prepared is None]
+            work = PreparedBatch(todo, self.lines, self._spare(todo)) if todo else None
+            if self._pool is None:
+                if work is not None:
+                    work.finish()
+                return batch
+            started = (batch, work, self._pool.submit(work.compiled) if work is not None else None)
+        done, self._waiting = self._waiting, started
+        if done is None:
+            return None
+        batch, work, future = done
+        if work is not None:
+            work.finish(future.result())
+        return batch
+
+    def _spare(self, todo: list) -> np.ndarray | None:
+        if self._pool is None:
+            return None
+        self._turn ^= 1
+        need = 2 * sum(len(doc.utf8) if doc.utf8 is not None else 4 * len(doc.text) for doc in todo)
+        if self._spares[self._turn].shape[0] < need:
+            self._spares[self._turn] = np.empty(need + need // 4, dtype=np.uint8)
+        return self._spares[self._turn]
+
+    def close(self) -> None:
+        """Wait for the thread (if any) and end it; a batch not taken back is dropped."""
+        self._waiting = None
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
 
 
 @dataclass
@@ -207,8 +284,12 @@ def read_pass(
     canonicals: ByteStore,
     progress: Progress,
     sketcher: ChunkSketcher | None = None,
+    threaded: bool = False,
 ) -> ReadResult:
     """Stream the documents once (see the module notes).
+
+    ``threaded``: the compiled part of normalizing a batch runs in a thread of its own
+    while this thread reads the next batch (then keeps its records).
 
     With a ``sketcher``, each chunk of distinct texts is sketched as soon as it is stored,
     in a thread of its own (the compiled kernels release the interpreter lock, so they
@@ -259,11 +340,8 @@ def read_pass(
     batch: list = []
     batch_bytes = 0
 
-    def normalize_batch() -> None:
-        nonlocal pending_bytes, batch_bytes
-        todo = [doc for doc in batch if doc.prepared is None]
-        if todo:
-            prepare_documents(todo, parallel=True, lines=use_lines)
+    def record_batch(batch: list) -> None:
+        nonlocal pending_bytes
         originals.extend([doc.prepared[0] for doc in batch])
         for doc in batch:
             original, stored, characters, digest = doc.prepared
@@ -289,7 +367,15 @@ def read_pass(
                 if len(pending) >= chunk_texts or pending_bytes >= chunk_bytes:
                     flush()
         progress.advance(len(batch))
-        batch.clear()
+
+    normalizer = _Normalizer(use_lines, threaded)
+
+    def normalize_batch() -> None:
+        nonlocal batch, batch_bytes
+        done = normalizer.push(batch)
+        if done is not None:
+            record_batch(done)
+        batch = []
         batch_bytes = 0
 
     read_seconds = 0.0
@@ -307,11 +393,16 @@ def read_pass(
                 normalize_batch()
         if batch:
             normalize_batch()
+        done = normalizer.push(None)
+        if done is not None:
+            record_batch(done)
         flush()
     except BaseException:
+        normalizer.close()
         if background is not None:
             background.abandon()
         raise
+    normalizer.close()
     if background is not None:
         background.close()
     order = sorted(range(len(records)), key=lambda i: records[i]["id"])

@@ -407,3 +407,67 @@ def test_growing_array_equals_the_joined_parts():
         grown.append(part)
         assert np.array_equal(grown.array(), np.concatenate(parts[: k + 1]))
     assert grown.array().dtype == np.uint64
+
+
+@pytest.mark.parametrize("boilerplate", [True, False])
+def test_normalizing_in_a_thread_gives_byte_identical_outputs(
+    write_corpus, tmp_path, monkeypatch, boilerplate
+):
+    """Reference: the same audit normalized batch by batch in this thread (no thread at all).
+
+    Batches of three documents make the normalizing thread run many batches one behind
+    the reading, reusing its two output arrays again and again (texts of every length,
+    so an array sometimes has to grow); some texts need Python's NFKC or case folding.
+    """
+    import threading
+
+    import dedup.api
+
+    files = _corpus(7, 60)
+    files["kb/fold.txt"] = "Die STRASSE und die Straße: ﬁle ﬂow " * 5
+    files["kb/compose.txt"] = "Cafe\u0301 au lait, cafe\u0301 noir " * 5
+    files["kb/long.txt"] = " ".join(WORDS * 40)
+    root = write_corpus(files)
+    s = AuditSettings(threshold=0.6, boilerplate=boilerplate, boilerplate_min_texts=3)
+    with monkeypatch.context() as m:
+        m.setattr(dedup.api, "OVERLAP_SKETCH", False)
+        alone = dedup.audit([str(root)], s).write(str(tmp_path / "alone"))
+    monkeypatch.setattr(streaming, "BATCH_DOCUMENTS", 3)
+    threads = []
+    real = streaming.PreparedBatch.compiled
+
+    def recorded(self, parallel=True):
+        threads.append(threading.current_thread().name)
+        return real(self, parallel)
+
+    monkeypatch.setattr(streaming.PreparedBatch, "compiled", recorded)
+    threaded = dedup.audit([str(root)], s).write(str(tmp_path / "threaded"))
+    assert len(threads) > 15 and all(name.startswith("dedup-normalize") for name in threads)
+    for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv", "documents.csv"):
+        if name in alone:
+            assert _bytes(alone[name]) == _bytes(threaded[name]), name
+    assert json.loads(_bytes(alone["audit.json"]))["summary"]["clusters"] > 0
+
+
+def test_an_error_while_normalizing_reaches_the_caller(write_corpus, monkeypatch):
+    import threading
+
+    root = write_corpus(_corpus(8, 60))
+    monkeypatch.setattr(streaming, "BATCH_DOCUMENTS", 4)
+    calls = []
+    real = streaming.PreparedBatch.compiled
+
+    def failing(self, parallel=True):
+        calls.append(1)
+        if len(calls) == 3:
+            raise RuntimeError("normalizing failed")
+        return real(self, parallel)
+
+    monkeypatch.setattr(streaming.PreparedBatch, "compiled", failing)
+    for boilerplate in (True, False):
+        calls.clear()
+        with pytest.raises(RuntimeError, match="normalizing failed"):
+            dedup.audit([str(root)], AuditSettings(boilerplate=boilerplate))
+        assert not [
+            t for t in threading.enumerate() if t.name.startswith(("dedup-normalize", "dedup-sketch"))
+        ]

@@ -226,14 +226,19 @@ def _canonical_serial(buf, offsets, out, lengths, chars, status, fold, nfkc, lin
         )
 
 
-def _run(buf, offsets, parallel, separator, fold=_NO_FOLD, nfkc=_NO_FOLD):
+def _room(buf, offsets, spare=None):
     # Text d is written at out[2 * offsets[d]:]: room for folds that lengthen the UTF-8.
-    offsets = np.asarray(offsets, dtype=np.int64)
-    out = np.empty(2 * buf.shape[0], dtype=np.uint8)
+    # ``spare``: an array to write into when it is large enough.
     n = offsets.shape[0] - 1
-    lengths = np.empty(n, dtype=np.int64)
-    chars = np.empty(n, dtype=np.int64)
-    status = np.zeros(n, dtype=np.int8)
+    size = 2 * buf.shape[0]
+    out = spare[:size] if spare is not None and spare.shape[0] >= size else np.empty(size, dtype=np.uint8)
+    return out, np.empty(n, dtype=np.int64), np.empty(n, dtype=np.int64), np.zeros(n, dtype=np.int8)
+
+
+def _run(buf, offsets, parallel, separator, fold=_NO_FOLD, nfkc=_NO_FOLD, room=None):
+    # ``room``: the output arrays (`_room`), allocated by the caller.
+    offsets = np.asarray(offsets, dtype=np.int64)
+    out, lengths, chars, status = room if room is not None else _room(buf, offsets)
     kernel = _canonical if parallel else _canonical_serial
     kernel(buf, offsets, out, lengths, chars, status, fold, nfkc, np.uint8(separator[0]))
     return out, 2 * offsets, lengths, chars, status
@@ -289,43 +294,77 @@ def canonical_segments(
     each text apart anyway: ``(out, starts, lengths, characters, fixed)``, where text k
     is ``fixed[k]`` when Python normalized it, else ``out[starts[k]:starts[k] + lengths[k]]``.
     """
-    if encoded is None:
-        encoded = [
-            text.encode("ascii") if text.isascii() else text.encode("utf-8", "surrogatepass")
-            for text in texts
-        ]
-    if all(text.isascii() for text in texts):  # no table is looked at
-        fold, nfkc = _NO_FOLD, _NO_FOLD
-    else:
-        fold, nfkc = fold_table(), nfkc_table()
-    out, starts, lengths, chars, status = _run(*pack_bytes(encoded), parallel, separator, fold, nfkc)
-    fixed: dict[int, bytes] = {}
-    redo = np.flatnonzero(status == 2).tolist()
-    if redo:
-        # Texts the kernel cannot normalize alone: NFKC in Python, then the kernel again.
-        normalized = [unicodedata.normalize("NFKC", texts[k]).encode("utf-8", "surrogatepass") for k in redo]
-        again_out, again_starts, again_lengths, again_chars, again = _run(
-            *pack_bytes(normalized), parallel, separator, fold
-        )
-        for j, k in enumerate(redo):
-            a = int(again_starts[j])
-            fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()
-            chars[k] = again_chars[j]
-            status[k] = again[j]
-    redo = np.flatnonzero(status == 1).tolist()
-    if redo:
-        # Folds the table does not hold: NFKC and str.casefold, then the kernel without a table.
-        folded = [
-            unicodedata.normalize("NFKC", texts[k]).casefold().encode("utf-8", "surrogatepass") for k in redo
-        ]
-        again_out, again_starts, again_lengths, again_chars, _ = _run(
-            *pack_bytes(folded), parallel, separator
-        )
-        for j, k in enumerate(redo):
-            a = int(again_starts[j])
-            fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()
-            chars[k] = again_chars[j]
-    return out, starts[:-1], lengths, chars.tolist(), fixed
+    job = CanonicalJob(texts, encoded, separator)
+    return job.finish(job.run(parallel), parallel)
+
+
+class CanonicalJob:
+    """`canonical_segments` in two steps: `run`, all compiled (it may run in another thread
+    while this one goes on: it needs no interpreter lock), then `finish`, which normalizes in
+    Python the few texts the kernel cannot. Both steps must see the same texts."""
+
+    def __init__(
+        self,
+        texts: list[str],
+        encoded: list[bytes] | None = None,
+        separator: bytes = b"\n",
+        spare: np.ndarray | None = None,
+    ):
+        if encoded is None:
+            encoded = [
+                text.encode("ascii") if text.isascii() else text.encode("utf-8", "surrogatepass")
+                for text in texts
+            ]
+        if all(text.isascii() for text in texts):  # no table is looked at
+            self.fold, self.nfkc = _NO_FOLD, _NO_FOLD
+        else:
+            self.fold, self.nfkc = fold_table(), nfkc_table()
+        self.texts, self.separator = texts, separator
+        self.buf, self.offsets = pack_bytes(encoded)
+        # Allocated here, not where `run` runs: another thread would take fresh pages from
+        # an allocation arena of its own instead of reusing this thread's.
+        self.room = _room(self.buf, self.offsets, spare)
+
+    def run(self, parallel: bool = True) -> tuple:
+        """The kernel's pass: ``(out, starts, lengths, chars, status)`` (see `_run`)."""
+        return _run(self.buf, self.offsets, parallel, self.separator, self.fold, self.nfkc, self.room)
+
+    def finish(
+        self, ran: tuple, parallel: bool = True
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, list[int], dict[int, bytes]]:
+        """What `canonical_segments` returns, from what `run` returned."""
+        texts, separator = self.texts, self.separator
+        out, starts, lengths, chars, status = ran
+        fixed: dict[int, bytes] = {}
+        redo = np.flatnonzero(status == 2).tolist()
+        if redo:
+            # Texts the kernel cannot normalize alone: NFKC in Python, then the kernel again.
+            normalized = [
+                unicodedata.normalize("NFKC", texts[k]).encode("utf-8", "surrogatepass") for k in redo
+            ]
+            again_out, again_starts, again_lengths, again_chars, again = _run(
+                *pack_bytes(normalized), parallel, separator, self.fold
+            )
+            for j, k in enumerate(redo):
+                a = int(again_starts[j])
+                fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()
+                chars[k] = again_chars[j]
+                status[k] = again[j]
+        redo = np.flatnonzero(status == 1).tolist()
+        if redo:
+            # Folds the table does not hold: NFKC and str.casefold, then the kernel without a table.
+            folded = [
+                unicodedata.normalize("NFKC", texts[k]).casefold().encode("utf-8", "surrogatepass")
+                for k in redo
+            ]
+            again_out, again_starts, again_lengths, again_chars, _ = _run(
+                *pack_bytes(folded), parallel, separator
+            )
+            for j, k in enumerate(redo):
+                a = int(again_starts[j])
+                fixed[k] = again_out[a : a + int(again_lengths[j])].tobytes()
+                chars[k] = again_chars[j]
+        return out, starts[:-1], lengths, chars.tolist(), fixed
 
 
 def canonical_line_bytes(

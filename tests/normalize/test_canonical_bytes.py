@@ -87,3 +87,28 @@ def test_given_utf8_bytes_give_what_the_texts_give():
     encoded = [t.encode("utf-8") for t in texts]
     assert canonical_line_bytes(texts, encoded=encoded) == canonical_line_bytes(texts)
     assert canonical_line_bytes(texts)[0] == [_reference(t)[0] for t in texts]
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    st.lists(
+        st.lists(st.text(alphabet=st.sampled_from(SPECIAL) | st.characters(), max_size=40), max_size=8),
+        max_size=5,
+    )
+)
+def test_in_two_steps_into_a_reused_array_it_is_the_reference(batches):
+    """`CanonicalJob` (the kernel's pass, then Python's fix-ups) writing batch after batch
+    into one array kept between them gives each batch the Python reference."""
+    import numpy as np
+
+    from dedup.normalize.canonical_bytes import CanonicalJob
+
+    spare = np.zeros(64, np.uint8)  # small: larger batches get an array of their own
+    for texts in batches:
+        job = CanonicalJob(texts, separator=b"\n", spare=spare)
+        out, starts, lengths, characters, fixed = job.finish(job.run())
+        got = [
+            fixed[k] if k in fixed else out[a : a + n].tobytes()
+            for k, (a, n) in enumerate(zip(starts, lengths))
+        ]
+        assert [_reference(t) for t in texts] == list(zip(got, characters))
