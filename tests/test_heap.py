@@ -126,3 +126,22 @@ def test_free_heap_bytes_sees_a_freed_block():
         del block
         after = heap._free_heap_bytes(lib)
     assert after - before >= 60 * 2**20
+
+
+def test_the_work_array_is_freed_before_the_heap_defaults_come_back(write_corpus, monkeypatch):
+    # Freed after, its pages would go back to the system at once (and be faulted in by
+    # the next audit); freed inside, the heap keeps them.
+    from dedup.features import tokenize
+
+    root = write_corpus({"a.txt": "one two three four five six", "b.txt": "one two three four five six"})
+    depths = []
+    real = tokenize.release_scratch
+
+    def recording():
+        depths.append(heap._state["depth"])
+        real()
+
+    monkeypatch.setattr(tokenize, "release_scratch", recording)
+    dedup.audit([str(root)])
+    assert depths == [1]
+    assert getattr(tokenize._SCRATCH, "array", None) is None
