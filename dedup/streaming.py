@@ -162,18 +162,16 @@ class PreparedBatch:
     `finish` (the few texts only Python can normalize, the content hashes, then each
     document's ``prepared``)."""
 
-    def __init__(self, documents: list, lines: bool, spare: np.ndarray | None = None) -> None:
+    def __init__(self, documents: list, lines: bool) -> None:
         self.documents, self.lines = documents, lines
         self.originals = [
             doc.text.encode("utf-8", "surrogatepass") if doc.utf8 is None else doc.utf8 for doc in documents
         ]
-        self.job = CanonicalJob(
-            [doc.text for doc in documents], self.originals, b"\n" if lines else b" ", spare
-        )
+        self.job = CanonicalJob([doc.text for doc in documents], self.originals, b"\n" if lines else b" ")
 
-    def compiled(self, parallel: bool = True) -> tuple:
+    def compiled(self, parallel: bool = True, spare: np.ndarray | None = None) -> tuple:
         """The kernel's pass over the batch (see `CanonicalJob.run`)."""
-        return self.job.run(parallel)
+        return self.job.run(parallel, spare)
 
     def finish(self, ran: tuple | None = None, parallel: bool = True) -> None:
         """Fill in ``doc.prepared`` from what `compiled` returned (run here when not given)."""
@@ -220,12 +218,15 @@ class _Normalizer:
         started = None
         if batch is not None:
             todo = [doc for doc in batch if doc.prepared is None]
-            work = PreparedBatch(todo, self.lines, self._spare(todo)) if todo else None
+            work = PreparedBatch(todo, self.lines) if todo else None
             if self._pool is None:
                 if work is not None:
                     work.finish()
                 return batch
-            started = (batch, work, self._pool.submit(work.compiled) if work is not None else None)
+            future = None
+            if work is not None:
+                future = self._pool.submit(work.compiled, True, self._spare(work.job.room_bytes))
+            started = (batch, work, future)
         done, self._waiting = self._waiting, started
         if done is None:
             return None
@@ -234,11 +235,9 @@ class _Normalizer:
             work.finish(future.result())
         return batch
 
-    def _spare(self, todo: list) -> np.ndarray | None:
-        if self._pool is None:
-            return None
+    def _spare(self, need: int) -> np.ndarray:
+        # The other array than the batch under way uses, of at least ``need`` bytes.
         self._turn ^= 1
-        need = 2 * sum(len(doc.utf8) if doc.utf8 is not None else 4 * len(doc.text) for doc in todo)
         if self._spares[self._turn].shape[0] < need:
             self._spares[self._turn] = np.empty(need + need // 4, dtype=np.uint8)
         return self._spares[self._turn]

@@ -329,16 +329,10 @@ def _open_descriptor(path: str) -> int:
     return os.open(path, _READ_FLAGS)
 
 
-def _read_limited(path: str, size: int, limit: int, fd: int | None = None) -> bytes:
+def _read_limited(path: str, size: int, limit: int) -> bytes:
     """The bytes of a file examined at ``size`` bytes: all of them, or ``limit + 1`` when it
-    has grown beyond the limit since. ``fd``: the file opened already (left open).
-
-    The file is read unbuffered by its known size plus one byte, then on to its end in
-    modest steps: asking for ``limit + 1`` bytes at once would allocate a buffer of the
-    limit's size for every file, however small.
-    """
-    if fd is not None:
-        return _read_descriptor(fd, size, limit)
+    has grown beyond the limit since (see `_read_descriptor`, which reads a file opened
+    already)."""
     fd = _open_descriptor(path)
     try:
         return _read_descriptor(fd, size, limit)
@@ -347,6 +341,9 @@ def _read_limited(path: str, size: int, limit: int, fd: int | None = None) -> by
 
 
 def _read_descriptor(fd: int, size: int, limit: int) -> bytes:
+    # Unbuffered, by the known size plus one byte, then on to the end in modest steps:
+    # asking for ``limit + 1`` bytes at once would allocate a buffer of the limit's size
+    # for every file, however small.
     parts = [os.read(fd, min(size, limit) + 1)]
     total = len(parts[0])
     if total == size <= limit:

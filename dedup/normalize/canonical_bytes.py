@@ -226,19 +226,16 @@ def _canonical_serial(buf, offsets, out, lengths, chars, status, fold, nfkc, lin
         )
 
 
-def _room(buf, offsets, spare=None):
+def _run(buf, offsets, parallel, separator, fold=_NO_FOLD, nfkc=_NO_FOLD, spare=None):
     # Text d is written at out[2 * offsets[d]:]: room for folds that lengthen the UTF-8.
     # ``spare``: an array to write into when it is large enough.
-    n = offsets.shape[0] - 1
+    offsets = np.asarray(offsets, dtype=np.int64)
     size = 2 * buf.shape[0]
     out = spare[:size] if spare is not None and spare.shape[0] >= size else np.empty(size, dtype=np.uint8)
-    return out, np.empty(n, dtype=np.int64), np.empty(n, dtype=np.int64), np.zeros(n, dtype=np.int8)
-
-
-def _run(buf, offsets, parallel, separator, fold=_NO_FOLD, nfkc=_NO_FOLD, room=None):
-    # ``room``: the output arrays (`_room`), allocated by the caller.
-    offsets = np.asarray(offsets, dtype=np.int64)
-    out, lengths, chars, status = room if room is not None else _room(buf, offsets)
+    n = offsets.shape[0] - 1
+    lengths = np.empty(n, dtype=np.int64)
+    chars = np.empty(n, dtype=np.int64)
+    status = np.zeros(n, dtype=np.int8)
     kernel = _canonical if parallel else _canonical_serial
     kernel(buf, offsets, out, lengths, chars, status, fold, nfkc, np.uint8(separator[0]))
     return out, 2 * offsets, lengths, chars, status
@@ -303,13 +300,7 @@ class CanonicalJob:
     while this one goes on: it needs no interpreter lock), then `finish`, which normalizes in
     Python the few texts the kernel cannot. Both steps must see the same texts."""
 
-    def __init__(
-        self,
-        texts: list[str],
-        encoded: list[bytes] | None = None,
-        separator: bytes = b"\n",
-        spare: np.ndarray | None = None,
-    ):
+    def __init__(self, texts: list[str], encoded: list[bytes] | None = None, separator: bytes = b"\n"):
         if encoded is None:
             encoded = [
                 text.encode("ascii") if text.isascii() else text.encode("utf-8", "surrogatepass")
@@ -321,13 +312,16 @@ class CanonicalJob:
             self.fold, self.nfkc = fold_table(), nfkc_table()
         self.texts, self.separator = texts, separator
         self.buf, self.offsets = pack_bytes(encoded)
-        # Allocated here, not where `run` runs: another thread would take fresh pages from
-        # an allocation arena of its own instead of reusing this thread's.
-        self.room = _room(self.buf, self.offsets, spare)
 
-    def run(self, parallel: bool = True) -> tuple:
-        """The kernel's pass: ``(out, starts, lengths, chars, status)`` (see `_run`)."""
-        return _run(self.buf, self.offsets, parallel, self.separator, self.fold, self.nfkc, self.room)
+    @property
+    def room_bytes(self) -> int:
+        """Bytes `run` writes into at most (twice the UTF-8 of the texts)."""
+        return 2 * int(self.buf.shape[0])
+
+    def run(self, parallel: bool = True, spare: np.ndarray | None = None) -> tuple:
+        """The kernel's pass: ``(out, starts, lengths, chars, status)`` (see `_run`); ``out``
+        is ``spare`` when it holds `room_bytes`."""
+        return _run(self.buf, self.offsets, parallel, self.separator, self.fold, self.nfkc, spare)
 
     def finish(
         self, ran: tuple, parallel: bool = True

@@ -105,8 +105,8 @@ def test_in_two_steps_into_a_reused_array_it_is_the_reference(batches):
 
     spare = np.zeros(64, np.uint8)  # small: larger batches get an array of their own
     for texts in batches:
-        job = CanonicalJob(texts, separator=b"\n", spare=spare)
-        out, starts, lengths, characters, fixed = job.finish(job.run())
+        job = CanonicalJob(texts, separator=b"\n")
+        out, starts, lengths, characters, fixed = job.finish(job.run(spare=spare))
         got = [
             fixed[k] if k in fixed else out[a : a + n].tobytes()
             for k, (a, n) in enumerate(zip(starts, lengths))
