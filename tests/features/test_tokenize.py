@@ -34,6 +34,18 @@ def test_words_equal_the_regex_tokens_of_canonical_text(raw_texts):
         assert got == expected
 
 
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.text(alphabet="ab9é_-. \u00a0ü", max_size=40), min_size=1, max_size=8))
+def test_dense_short_words_equal_the_regex_tokens(raw_texts):
+    """Reference: as above. One-letter words a byte apart fill every place the kernel has
+    for a text's words; words start and end texts, and non-ASCII bytes come between."""
+    texts = [canonical_text(t) for t in raw_texts]
+    fs = build_features(texts, shingle_size=1)
+    for d, text in enumerate(texts):
+        expected = [fnv1a_fmix64(w.encode("utf-8")) for w in token_text(text).split()]
+        assert fs.token_hashes[fs.token_offsets[d] : fs.token_offsets[d + 1]].tolist() == expected
+
+
 def test_non_ascii_letters_digits_and_punctuation():
     text = canonical_text("Straße—naïve café №5 ١٢٣ 東京、大阪。“quoted” e-mail_address")
     fs = build_features([text], shingle_size=1)
@@ -67,3 +79,34 @@ def test_one_pass_words_equal_the_two_pass_kernels_in_any_thread():
 
     with ThreadPoolExecutor(4) as pool:
         assert all(pool.map(check, corpora * 3))
+
+
+def test_the_kernel_writes_only_in_the_room_given_to_each_text():
+    """Texts of one-letter words fill their room (every byte stores the hash so far at the
+    next free place); a sentinel after it must stay."""
+    import numpy as np
+
+    from dedup.features import tokenize
+    from dedup.features.shingles import pack_bytes
+
+    table = tokenize.word_table()
+    for text in [
+        b"a",
+        b"a ",
+        b"a b",
+        b"a b c",
+        b"a b c ",
+        b" a b",
+        b"ab c d",
+        b"\xc3\xa9 a b",
+        b"a b \xc3\xa9",
+    ]:
+        buf, offsets = pack_bytes([text])
+        room = tokenize.word_room(offsets)
+        sentinel = np.uint64(0xDEADBEEF)
+        out = np.full(int(room[-1]) + 4, sentinel, dtype=np.uint64)
+        counts = np.empty(1, np.int64)
+        tokenize._hash_words_bounded(buf, offsets, room, table, out, counts)
+        assert (out[room[-1] :] == sentinel).all(), text
+        expected = [fnv1a_fmix64(w.encode()) for w in token_text(text.decode()).split()]
+        assert out[: counts[0]].tolist() == expected
