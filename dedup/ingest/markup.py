@@ -19,6 +19,8 @@ __all__ = ["reduce_markup", "MARKUP_FORMATS", "first_line_title"]
 
 _TITLE_CHARS = 200
 _TITLE_SCAN = 8192
+# White space as str.strip and str.isspace see it (both and re use Py_UNICODE_ISSPACE).
+_NOT_SPACE = re.compile(r"\S")
 # Lines longer than this keep their inline markup: no prose line is that long, and it
 # bounds the work of every inline pattern on a hostile line (a megabyte of "[a:" ...).
 _INLINE_MAX = 20_000
@@ -29,13 +31,15 @@ def first_line_title(text: str) -> str:
 
     Lines end where `str.splitlines` ends them; every such line end is also white space,
     so the first non-blank line starts where the leading white space ends, and only that
-    line needs splitting off.
+    line needs cutting out (no copy of the text before or after it).
     """
-    rest = text[:_TITLE_SCAN].lstrip()
-    if not rest:
+    first = _NOT_SPACE.search(text, 0, _TITLE_SCAN)
+    if first is None:
         return ""
     # "\n" is by far the most common line end: cut there first, then split the short rest.
-    line = rest.partition("\n")[0].splitlines()[0]
+    start = first.start()
+    stop = text.find("\n", start, _TITLE_SCAN)
+    line = text[start : stop if stop >= 0 else _TITLE_SCAN].splitlines()[0]
     return line.strip().lstrip("#").strip()[:_TITLE_CHARS]
 
 
