@@ -82,16 +82,27 @@ class TfidfModel:
 
 @njit(cache=True, parallel=True, nogil=True)
 def _fill_counts(columns, offsets, indptr, indices, data):
+    # Each document's sorted columns in runs: a run's column and length. No branch depends
+    # on the columns (a new run starts at every other token or so, too often to predict):
+    # every token stores its column and position at the current run, which moves on where
+    # the column changes, so the run keeps its last position; the lengths are then the
+    # differences of consecutive last positions.
     for d in prange(offsets.shape[0] - 1):
         a, b = offsets[d], offsets[d + 1]
-        w = indptr[d] - 1
-        for i in range(a, b):
-            if i == a or columns[i] != columns[i - 1]:
-                w += 1
-                indices[w] = columns[i]
-                data[w] = 1.0
-            else:
-                data[w] += 1.0
+        if b == a:
+            continue
+        w = indptr[d]
+        indices[w] = columns[a]
+        data[w] = a
+        for i in range(a + 1, b):
+            w += columns[i] != columns[i - 1]
+            indices[w] = columns[i]
+            data[w] = i
+        previous = a - 1
+        for k in range(indptr[d], indptr[d + 1]):
+            last = data[k]
+            data[k] = last - previous
+            previous = last
 
 
 def hashed_columns(token_hashes: np.ndarray, n_features: int) -> np.ndarray:

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from sklearn.feature_extraction.text import TfidfVectorizer
 from sklearn.metrics.pairwise import cosine_similarity
 
@@ -86,3 +88,30 @@ def test_collision_share_expected_and_measured():
     # Expected 1 - (1 - 1/m)^(V-1) ≈ 1 - exp(-V/m) for V = 20,000, m = 16,384 (common practice, no source).
     assert stats["expected_colliding_share"] == pytest.approx(1 - np.exp(-19_999 / 2**14), rel=1e-3)
     assert abs(stats["measured_colliding_share"] - stats["expected_colliding_share"]) < 0.02
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(st.lists(st.integers(0, 40), max_size=30), min_size=1, max_size=12),
+    st.sampled_from([8, 64, 2**20]),
+)
+def test_term_counts_equal_scipy_summing_repeated_entries(docs, n_features):
+    """Reference: scipy.sparse, which sums repeated (row, column) entries when a COO matrix
+    becomes CSR. Few distinct terms, so runs of one column (and empty documents) abound."""
+    import scipy.sparse as sp
+
+    from dedup.sketch.tfidf import _term_counts
+
+    hashes = np.array([t * 0x9E3779B97F4A7C15 % 2**64 for doc in docs for t in doc], dtype=np.uint64)
+    offsets = np.zeros(len(docs) + 1, dtype=np.int64)
+    np.cumsum([len(doc) for doc in docs], out=offsets[1:])
+    rows = np.repeat(np.arange(len(docs)), np.diff(offsets))
+    columns = (hashes % np.uint64(n_features)).astype(np.int64)
+    expected = sp.coo_matrix(
+        (np.ones(hashes.shape[0]), (rows, columns)), shape=(len(docs), n_features)
+    ).tocsr()
+    expected.sum_duplicates()
+    got = _term_counts(hashes, offsets, n_features)
+    assert np.array_equal(got.indptr, expected.indptr)
+    assert np.array_equal(got.indices, expected.indices)
+    assert np.array_equal(got.data, expected.data)
