@@ -119,12 +119,15 @@ def _minhash_binned(shingles, offsets, mix, step, out):
                 h = fmix64(a * shingles[s] + offset)
                 j = _bin_of(h, k)
                 v = np.uint32(h & _MASK32)
-                if got[j] > r:
-                    empty -= 1
-                    got[j] = r
-                    row[j] = v
-                elif got[j] == r and v < row[j]:
-                    row[j] = v
+                # No branch on the values (which bin comes first, and which value is
+                # smaller, the processor could not guess): a bin settled in an earlier
+                # round keeps its value, any other takes the smaller of its value and v.
+                old = row[j]
+                row[j] = old if got[j] < r else min(old, v)
+                got[j] = min(got[j], r)
+            empty = 0
+            for j in range(k):
+                empty += got[j] > r
             r += 1
         out[d, :] = row
 

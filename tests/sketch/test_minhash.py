@@ -5,9 +5,12 @@ from __future__ import annotations
 import datasketch
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from dedup.features import build_features, shingle_strings
 from dedup.sketch import minhash_signatures
+from dedup.sketch.minhash import minhash_parameters
 
 TEXTS = [
     "water meters are read every quarter by the field team and estimates follow",
@@ -115,3 +118,53 @@ def test_binned_fills_every_bin_and_keeps_the_empty_signature():
     assert not np.any(single[0] == single[1]) and np.array_equal(single[1], sig[0])
     again = minhash_signatures(shingles, offsets, num_perm=128, seed=5).values
     assert np.array_equal(sig, again)
+
+
+def _binned_by_hand(shingles: list[int], k: int, seed: int) -> list[int]:
+    """The binned scheme written out in plain Python (common practice, no source: one
+    permutation hashing with rounds): in round r every shingle x gets h = fmix64(a*x + b
+    + r*c) mod 2^64; its high 32 bits times k, shifted right by 32, choose a bin, its low
+    32 bits are the value. A bin keeps the smallest value of the first round that gives
+    it any; rounds go on until every bin has one. An empty set keeps 2^32 - 1 everywhere."""
+    mask = 2**64 - 1
+    mix, step = minhash_parameters(k, seed, "binned")
+    a, b, c = int(mix[0]), int(mix[1]), int(step[0])
+
+    def fmix(h):
+        h ^= h >> 33
+        h = (h * 0xFF51AFD7ED558CCD) & mask
+        h ^= h >> 33
+        h = (h * 0xC4CEB9FE1A85EC53) & mask
+        return h ^ (h >> 33)
+
+    row = [2**32 - 1] * k
+    settled = [False] * k
+    r = 0
+    while shingles and not all(settled):
+        best: dict[int, int] = {}
+        for x in shingles:
+            h = fmix((a * x + b + r * c) & mask)
+            j = ((h >> 32) * k) >> 32
+            if not settled[j]:
+                best[j] = min(best.get(j, 2**32), h & 0xFFFFFFFF)
+        for j, v in best.items():
+            row[j], settled[j] = v, True
+        r += 1
+    return row
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(st.lists(st.integers(0, 2**64 - 1), max_size=40), min_size=1, max_size=5),
+    st.sampled_from([1, 8, 64, 128]),
+    st.integers(0, 2**32 - 1),
+)
+def test_binned_signatures_equal_the_scheme_written_out(sets, k, seed):
+    """Reference: `_binned_by_hand`, the rounds and bins in plain Python integers. Sets
+    shorter than k take several rounds; repeated shingles and empty sets are included."""
+    shingles = np.array([x for group in sets for x in group], dtype=np.uint64)
+    offsets = np.zeros(len(sets) + 1, dtype=np.int64)
+    np.cumsum([len(group) for group in sets], out=offsets[1:])
+    got = minhash_signatures(shingles, offsets, num_perm=k, seed=seed, hash_scheme="binned").values
+    for d, group in enumerate(sets):
+        assert got[d].tolist() == _binned_by_hand(group, k, seed)
