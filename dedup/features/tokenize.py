@@ -82,11 +82,11 @@ def _hash_words(buf, i, stop, table, out, w):
     # indices are unsigned (no test for negative indices on every byte); others are
     # decoded. Every ASCII byte stores the hash so far at the next free place, which
     # moves on only where a word has just ended (so that store stays); between words the
-    # hash goes on over the other bytes too and is reset at the next word's first byte. Mispredicted branches
-    # at every word's start and end cost more than these stores. fmix64 is applied at
-    # the end, to the words only. The stores stay in the room of `word_room`: before
-    # byte k at most k // 2 words have ended (each takes a byte and a separator), fewer
-    # than the (n + 1) // 2 places of a text of n bytes.
+    # hash goes on over the other bytes too and is reset at the next word's first byte.
+    # Mispredicted branches at every word's start and end cost more than these stores.
+    # fmix64 is applied at the end, to the words only. The stores stay in the room of
+    # `word_room`: before byte k at most k // 2 words have ended (each takes a byte and a
+    # separator), fewer than the (n + 1) // 2 places of a text of n bytes.
     in_word = np.uint64(0)
     h = FNV_OFFSET
     at = np.uint64(i)
