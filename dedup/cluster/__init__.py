@@ -1,8 +1,12 @@
-"""Cluster: components of confirmed pairs, the keeper of each, and proposed actions."""
+"""Cluster: components of confirmed pairs, the keeper of each, and proposed actions.
 
-from .actions import build_clusters
+Roles, actions and reasons are data (reason codes with their figures); the words for
+them are the report's (`dedup.report.wording`).
+"""
+
+from .actions import REASON_CODES, build_clusters
 from .components import breadth_first_parents, cluster_members
-from .keeper import choose_keeper, keeper_sort_key, policy_reason
+from .keeper import choose_keeper, keeper_reason, keeper_sort_key
 
 __all__ = [
     "build_clusters",
@@ -10,5 +14,6 @@ __all__ = [
     "cluster_members",
     "choose_keeper",
     "keeper_sort_key",
-    "policy_reason",
+    "keeper_reason",
+    "REASON_CODES",
 ]

@@ -14,9 +14,18 @@ from __future__ import annotations
 import fnmatch
 from collections.abc import Sequence
 
-__all__ = ["keeper_sort_key", "choose_keeper", "policy_reason"]
+__all__ = ["keeper_sort_key", "choose_keeper", "keeper_reason", "POLICY_REASONS", "KEEPER_REASON_CODES"]
 
 _MISSING = float("inf")
+# Reason code of the keeper chosen by each policy alone.
+POLICY_REASONS = {
+    "longest": "most-text",
+    "newest": "newest",
+    "oldest": "oldest",
+    "shortest-path": "shortest-path",
+}
+# Every reason code `keeper_reason` gives.
+KEEPER_REASON_CODES = (*POLICY_REASONS.values(), "preferred-path")
 
 
 def _glob_rank(doc_id: str, prefer: Sequence[str]) -> int:
@@ -61,15 +70,21 @@ def choose_keeper(
     return min(members, key=lambda m: keeper_sort_key(ids[m], lengths[m], dates[m], policy, prefer))
 
 
-def policy_reason(doc_id: str, policy: str, prefer: Sequence[str]) -> str:
-    """Why this document is the keeper, in words."""
+def keeper_reason(doc_id: str, policy: str, prefer: Sequence[str]) -> tuple[str, dict]:
+    """Why this document is the keeper, as data: a reason code and its figures.
+
+    The code is the policy's (`POLICY_REASONS`), or ``"preferred-path"`` when the
+    document matches one of ``prefer``; then the figures name the first matching
+    ``glob`` and the policy's code that chose among the matches (``then``). Words for
+    these are made by the report. Cost O(len(prefer)) pattern matches.
+
+    >>> keeper_reason("a/x", "longest", [])
+    ('most-text', {})
+    >>> keeper_reason("a/x", "newest", ["b/*", "a/*"])
+    ('preferred-path', {'glob': 'a/*', 'then': 'newest'})
+    """
     rank = _glob_rank(doc_id, prefer)
-    policy_words = {
-        "longest": "it has the most text",
-        "newest": "it is the newest",
-        "oldest": "it is the oldest",
-        "shortest-path": "it has the shortest path",
-    }[policy]
+    code = POLICY_REASONS[policy]
     if rank < len(prefer):
-        return f"matches preferred path {prefer[rank]!r}; among those, {policy_words}"
-    return policy_words
+        return "preferred-path", {"glob": prefer[rank], "then": code}
+    return code, {}

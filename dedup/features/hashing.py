@@ -3,7 +3,9 @@
 Python's ``hash()`` changes from process to process, so every hash here is our own:
 FNV-1a over the UTF-8 bytes of a token, finished with the MurmurHash3 64-bit
 finalizer (``fmix64``) so that nearby inputs land far apart. The same bytes give the
-same hash on every machine, in every process, forever; tests pin a few values.
+same hash on every machine, in every process, forever; tests pin a few values. The hash
+of bytes itself lives in `dedup.kernels.hash64` (normalize uses it too) and is
+re-exported here.
 
 All kernels take a whole corpus at once as one byte buffer with document offsets
 (``buf[doc_offsets[d]:doc_offsets[d + 1]]`` is document ``d``), so no Python code runs
@@ -16,12 +18,14 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
+from ..kernels.hash64 import FNV_OFFSET, FNV_PRIME, fmix64, hash_bytes
 from .segment_sort import sort_segments_count_unique
 
 __all__ = [
     "FNV_OFFSET",
     "FNV_PRIME",
     "fmix64",
+    "hash_bytes",
     "count_tokens",
     "token_hashes",
     "shingle_counts",
@@ -34,34 +38,9 @@ __all__ = [
     "sort_segments_count_unique",
 ]
 
-# FNV-1a 64-bit parameters (Fowler, Noll, Vo; the published offset basis and prime).
-FNV_OFFSET = np.uint64(0xCBF29CE484222325)
-FNV_PRIME = np.uint64(0x100000001B3)
-# MurmurHash3 fmix64 constants (Appleby, MurmurHash3 reference implementation).
-_M1 = np.uint64(0xFF51AFD7ED558CCD)
-_M2 = np.uint64(0xC4CEB9FE1A85EC53)
-_S33 = np.uint64(33)
 _SPACE = np.uint8(0x20)
-
-
-@njit(cache=True, inline="always")
-def fmix64(h: np.uint64) -> np.uint64:
-    """MurmurHash3 64-bit finalizer: a bijection on 64-bit integers that avalanches."""
-    h ^= h >> _S33
-    h *= _M1
-    h ^= h >> _S33
-    h *= _M2
-    h ^= h >> _S33
-    return h
-
-
-@njit(cache=True, inline="always")
-def _hash_bytes(buf: np.ndarray, start: int, stop: int) -> np.uint64:
-    h = FNV_OFFSET
-    for i in range(start, stop):
-        h ^= np.uint64(buf[i])
-        h *= FNV_PRIME
-    return fmix64(h)
+# The old private name of `hash_bytes`, for code that still uses it.
+_hash_bytes = hash_bytes
 
 
 @njit(cache=True, parallel=True, nogil=True)
@@ -102,7 +81,7 @@ def token_hashes(buf: np.ndarray, doc_offsets: np.ndarray, token_offsets: np.nda
             start = i
             while i < stop and buf[i] > _SPACE:
                 i += 1
-            out[t] = _hash_bytes(buf, start, i)
+            out[t] = hash_bytes(buf, start, i)
             t += 1
     return out
 
@@ -218,7 +197,7 @@ def char_ngrams(buf: np.ndarray, doc_offsets: np.ndarray, gram_offsets: np.ndarr
         m = gram_offsets[d + 1] - g0
         width = min(n, chars)
         for g in range(m):
-            out[g0 + g] = _hash_bytes(buf, starts[g], starts[g + width])
+            out[g0 + g] = hash_bytes(buf, starts[g], starts[g + width])
     return out
 
 

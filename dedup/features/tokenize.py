@@ -3,9 +3,9 @@
 A word is a maximal run of letters and digits: exactly the characters for which Python's
 ``str.isalnum()`` is true (the same class as the regular expression ``[^\\W_]``), so the
 words are the tokens of `dedup.normalize.token_text`, without building that string. The
-kernel decodes UTF-8 itself and looks each code point up in a table made once from
-``str.isalnum``; a word's hash is FNV-1a + fmix64 of its UTF-8 bytes, as in
-`dedup.features.hashing`. Cost O(bytes), in parallel over documents.
+kernel decodes UTF-8 itself (`dedup.kernels.utf8`) and looks each code point up in a
+table made once from ``str.isalnum``; a word's hash is FNV-1a + fmix64 of its UTF-8
+bytes, as in `dedup.features.hashing`. Cost O(bytes), in parallel over documents.
 """
 
 from __future__ import annotations
@@ -16,6 +16,7 @@ from functools import lru_cache
 import numpy as np
 from numba import njit, prange
 
+from ..kernels.utf8 import decode_code_point
 from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
 
 __all__ = [
@@ -37,22 +38,8 @@ def word_table() -> np.ndarray:
     )
 
 
-@njit(cache=True, inline="always")
-def _decode(buf, i, stop):
-    # One UTF-8 code point at buf[i]: (code point, byte length). Invalid bytes count as one
-    # non-word byte, though canonical text is always valid UTF-8.
-    b0 = np.int64(buf[i])
-    if b0 < 0x80:
-        return b0, 1
-    if b0 >= 0xF0 and i + 3 < stop:
-        return ((b0 & 0x07) << 18) | ((np.int64(buf[i + 1]) & 0x3F) << 12) | (
-            (np.int64(buf[i + 2]) & 0x3F) << 6
-        ) | (np.int64(buf[i + 3]) & 0x3F), 4
-    if b0 >= 0xE0 and i + 2 < stop:
-        return ((b0 & 0x0F) << 12) | ((np.int64(buf[i + 1]) & 0x3F) << 6) | (np.int64(buf[i + 2]) & 0x3F), 3
-    if b0 >= 0xC0 and i + 1 < stop:
-        return ((b0 & 0x1F) << 6) | (np.int64(buf[i + 1]) & 0x3F), 2
-    return -1, 1
+# The old private name of `decode_code_point`, for code that still uses it.
+_decode = decode_code_point
 
 
 @njit(cache=True, parallel=True, nogil=True)
@@ -64,7 +51,7 @@ def has_words(buf: np.ndarray, doc_offsets: np.ndarray, table: np.ndarray) -> np
         i = doc_offsets[d]
         stop = doc_offsets[d + 1]
         while i < stop:
-            cp, length = _decode(buf, i, stop)
+            cp, length = decode_code_point(buf, i, stop)
             if cp >= 0 and cp < table.shape[0] and table[cp] == 1:
                 found[d] = True
                 break
@@ -103,7 +90,7 @@ def _hash_words(buf, i, stop, table, out, w):
             at += _ONE
             continue
         a = np.int64(at)
-        cp, length = _decode(buf, a, stop)
+        cp, length = decode_code_point(buf, a, stop)
         word = cp >= 0 and cp < table.shape[0] and table[cp] == 1
         if word:
             if in_word == 0:

@@ -1,7 +1,7 @@
 """Review decisions kept in the index, and how they apply to a new audit.
 
 `import_decisions` stores the decisions file the HTML report exports (schema in
-`dedup.report.decisions`). `apply_decisions` marks a fresh audit with them.
+`dedup.index.decisions_file`). `apply_decisions` marks a fresh audit with them.
 
 Rule: decisions are about *texts*. A decision names documents with the content hashes
 they had when it was made; it covers a pair of current documents when both their
@@ -33,6 +33,7 @@ import json
 from collections import Counter
 from datetime import datetime, timezone
 
+from .decisions_file import validate_decisions
 from .store import Index, utc_now
 
 __all__ = ["DecisionsFileError", "load_decisions_file", "import_decisions", "apply_decisions", "SETTLING"]
@@ -54,8 +55,6 @@ def load_decisions_file(path: str) -> dict:
         raise DecisionsFileError(f"cannot read {path}: {err.strerror}") from err
     except (UnicodeDecodeError, json.JSONDecodeError) as err:
         raise DecisionsFileError(f"{path} is not a JSON file: {err}") from err
-    from ..report.decisions import validate_decisions  # the report package is heavy: load it only here
-
     problems = validate_decisions(data)
     if problems:
         more = f" (and {len(problems) - 3} more)" if len(problems) > 3 else ""
@@ -76,7 +75,7 @@ def import_decisions(index: Index, data: dict) -> dict:
     ----------
     index : Index
     data : dict
-        The parsed file (see `dedup.report.decisions`); it is validated again here.
+        The parsed file (see `dedup.index.decisions_file`); it is validated again here.
 
     Returns
     -------
@@ -89,8 +88,6 @@ def import_decisions(index: Index, data: dict) -> dict:
     DecisionsFileError
         The data does not follow the schema.
     """
-    from ..report.decisions import validate_decisions
-
     problems = validate_decisions(data)
     if problems:
         raise DecisionsFileError(f"not a decisions file: {'; '.join(problems[:3])}")

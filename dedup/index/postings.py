@@ -30,7 +30,7 @@ import numpy as np
 import scipy.sparse as sp
 from numba import njit
 
-from ..sketch.tfidf import _term_counts
+from ..sketch import tfidf
 from .blobs import BlobError, pack_array, pack_sorted, pack_uints, unpack_array, unpack_sorted, unpack_uints
 
 __all__ = [
@@ -57,7 +57,7 @@ def term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features:
     The same counting as `dedup.sketch.fit_tfidf`, so the index's rows equal the audit's.
     Cost O(tokens log tokens per text), compiled.
     """
-    return _term_counts(token_hashes, token_offsets, n_features)
+    return tfidf.term_counts(token_hashes, token_offsets, n_features)
 
 
 def term_frequency(counts: np.ndarray, sublinear: bool) -> np.ndarray:

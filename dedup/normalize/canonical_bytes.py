@@ -29,7 +29,7 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
-from ..features.tokenize import _decode
+from ..kernels.utf8 import decode_code_point
 
 # Code points below this have a place in the case-folding table.
 _FOLD_LIMIT = 0x20000
@@ -173,7 +173,7 @@ def _canonical_one(buf, a, b, out, start, fold, nfkc, line_separator):
             continue
         at = np.int64(i)
         to = np.int64(w)
-        cp, n = _decode(buf, at, b)
+        cp, n = decode_code_point(buf, at, b)
         if nfkc.shape[0] > 0:
             if cp < 0 or cp >= nfkc.shape[0] or nfkc[cp] < 0:
                 return to - start, chars, 2

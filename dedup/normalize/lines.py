@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from ..features.hashing import _hash_bytes
+from ..kernels.hash64 import hash_bytes
 
 __all__ = ["line_spans", "line_hashes", "line_characters", "join_kept_lines"]
 
@@ -76,7 +76,7 @@ def line_hashes(buf: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.nd
     """Stable 64-bit hash of the bytes of every span (equal lines, equal hashes)."""
     out = np.empty(starts.shape[0], dtype=np.uint64)
     for k in prange(starts.shape[0]):
-        out[k] = _hash_bytes(buf, starts[k], stops[k])
+        out[k] = hash_bytes(buf, starts[k], stops[k])
     return out
 
 

@@ -27,7 +27,14 @@ from ..features.hashing import sort_segments_count_unique
 from ..features.segment_sort import sorted_distinct
 from .distinct import DistinctSet
 
-__all__ = ["TfidfModel", "fit_tfidf", "pair_cosines", "collision_stats", "DocumentFrequency"]
+__all__ = [
+    "TfidfModel",
+    "fit_tfidf",
+    "pair_cosines",
+    "collision_stats",
+    "DocumentFrequency",
+    "term_counts",
+]
 
 # Up to this many columns document frequencies are counted in a dense array (8 bytes each).
 DENSE_DF_LIMIT = 2**24
@@ -75,7 +82,7 @@ class TfidfModel:
 
     def transform(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> sp.csr_matrix:
         """Rows for new texts with the fitted idf (e.g. a search query)."""
-        counts = _term_counts(token_hashes, token_offsets, self.n_features)
+        counts = term_counts(token_hashes, token_offsets, self.n_features)
         entry_idf = self.idf(counts.indices)
         return _weight(counts, entry_idf, np.arange(entry_idf.shape[0]), self.sublinear_tf)
 
@@ -117,8 +124,12 @@ def hashed_columns(token_hashes: np.ndarray, n_features: int) -> np.ndarray:
     return (token_hashes % np.uint64(n_features)).astype(np.int64)
 
 
-def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features: int) -> sp.csr_matrix:
-    """Term counts per document as CSR with sorted columns, built in compiled code: O(tokens log)."""
+def term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features: int) -> sp.csr_matrix:
+    """Term counts per document as CSR with sorted columns, built in compiled code: O(tokens log).
+
+    Rows count every hashed column (`hashed_columns`) of a document's tokens, as floats.
+    Public because the index counts its texts the same way, so its rows equal the audit's.
+    """
     n_docs = token_offsets.shape[0] - 1
     columns = hashed_columns(token_hashes, n_features)
     offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
@@ -131,6 +142,10 @@ def _term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features
     data = np.empty(indptr[-1], dtype=np.float64)
     _fill_counts(columns, offsets, indptr, indices, data)
     return sp.csr_matrix((data, indices, indptr), shape=(n_docs, n_features))
+
+
+# The old private name of `term_counts`, for code that still uses it.
+_term_counts = term_counts
 
 
 @njit(cache=True, parallel=True, nogil=True)
@@ -190,7 +205,7 @@ def fit_tfidf(
     >>> round(float(m.rows[1].multiply(m.rows[1]).sum()), 6)
     1.0
     """
-    counts = _term_counts(token_hashes, token_offsets, n_features)
+    counts = term_counts(token_hashes, token_offsets, n_features)
     n_docs = counts.shape[0]
     if n_features <= DENSE_DF_LIMIT:
         df = np.bincount(counts.indices, minlength=n_features)
@@ -398,7 +413,7 @@ class DocumentFrequency:
     def counts(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> sp.csr_matrix:
         """Term counts of the given texts, rows with sorted columns: what `weigh` turns into
         TF-IDF rows once every text has been counted."""
-        return _term_counts(token_hashes, token_offsets, self.n_features)
+        return term_counts(token_hashes, token_offsets, self.n_features)
 
     def weigh(self, counts: sp.csr_matrix) -> TfidfModel:
         """The fitted idf with the unit-length rows of term counts made by `counts` (whose
