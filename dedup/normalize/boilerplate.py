@@ -113,6 +113,14 @@ class BoilerplateCounter:
         self._sets.append(distinct)
         self.texts += int(offsets.shape[0] - 1)
 
+    def merge(self, other: BoilerplateCounter) -> BoilerplateCounter:
+        """Add the counts of ``other`` (texts counted elsewhere, e.g. another partition);
+        returns self. The texts of the two must be distinct from each other. O(1): the
+        parts are joined only by `find`."""
+        self._sets.extend(other._sets)
+        self.texts += other.texts
+        return self
+
     def find(self, *, share: float, min_texts: int, known: Iterable[str] = ()) -> Boilerplate:
         """The boilerplate: lines in at least ``max(min_texts, ceil(share * n))`` texts, and
         every known line (as `find_boilerplate` does for strings)."""

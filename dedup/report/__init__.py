@@ -22,8 +22,9 @@ __all__ = ["write_outputs", "render_html", "RECORD_LISTS"]
 RECORD_LISTS = ("ledger", "documents", "exact_groups", "pairs", "clusters", "actions")
 
 
-def write_outputs(result, out_dir: str, progress=None) -> dict[str, str]:
-    """Write all outputs of an audit into ``out_dir`` (created if needed)."""
+def write_outputs(result, out_dir: str, progress=None, report: bool = True) -> dict[str, str]:
+    """Write all outputs of an audit into ``out_dir`` (created if needed); ``report=False``
+    leaves out report.html (for pipelines that only read the data files)."""
     from ..progress import Progress
 
     progress = progress or Progress.silent()
@@ -36,8 +37,8 @@ def write_outputs(result, out_dir: str, progress=None) -> dict[str, str]:
             "clusters.csv",
             "actions.csv",
             "ledger.csv",
-            "report.html",
             "run.json",
+            *(("report.html",) if report else ()),
         )
     }
     progress.start("writing")
@@ -48,7 +49,8 @@ def write_outputs(result, out_dir: str, progress=None) -> dict[str, str]:
     write_csv(paths["actions.csv"], result.actions, ACTION_COLUMNS)
     write_csv(paths["ledger.csv"], (e.to_dict() for e in result.ledger), LEDGER_COLUMNS)
     write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
-    with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
-        handle.writelines(iter_html(result, progress))
+    if report:
+        with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:
+            handle.writelines(iter_html(result, progress))
     progress.done()
     return paths

@@ -1,4 +1,9 @@
-"""How the audit asks the system for memory: reuse what it freed, no huge pages.
+"""Opt-in process tuning for the local engine: reuse freed memory, no huge pages, no cyclic GC.
+
+Nothing here runs unless asked for: ``dedup.audit(..., tune_process=True)`` or the CLI
+(which owns its process) turn it on for the duration of one audit and its writing, and
+put every setting back as it was afterwards. A library host (a notebook, a web service,
+a Spark executor) gets none of it by default.
 
 The audit works chunk by chunk: each chunk allocates arrays of tens to hundreds of
 megabytes (word hashes, shingles, room reserved for the most a text can hold), frees

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 import dedup
-from dedup import heap
+from dedup.engines import tuning as heap
 
 
 def _numpy_advice() -> bool:
@@ -44,24 +44,30 @@ def test_arrays_allocated_inside_are_usable_after():
     assert int(kept.sum()) == 4_000_000 * 3_999_999 // 2
 
 
-def test_audit_outputs_do_not_depend_on_it(tmp_path, monkeypatch):
-    import contextlib
-
-    import dedup.api as api
-
+def test_audit_outputs_do_not_depend_on_it(tmp_path):
     folder = tmp_path / "docs"
     folder.mkdir()
     base = " ".join(f"word{i}" for i in range(300))
     for i in range(12):
         (folder / f"d{i}.txt").write_text(base + f" tail{i % 4} end{i}")
 
-    def run() -> str:
-        result = dedup.audit([str(folder)], dedup.AuditSettings(candidates="lsh"))
+    def run(tune: bool) -> str:
+        result = dedup.audit([str(folder)], dedup.AuditSettings(candidates="lsh"), tune_process=tune)
         return json.dumps([result.pairs, result.clusters], sort_keys=True)
 
-    with_lean = run()
-    monkeypatch.setattr(api, "lean_allocation", contextlib.nullcontext)
-    assert run() == with_lean
+    assert run(True) == run(False)
+
+
+def test_the_library_leaves_the_process_alone_by_default(tmp_path, monkeypatch):
+    """No tuning unless asked for: the collector and the C library's settings are untouched."""
+    import gc
+
+    calls = []
+    monkeypatch.setattr(heap, "_glibc", lambda: calls.append("glibc"))
+    (tmp_path / "a.txt").write_text("one two three four five six seven")
+    assert gc.isenabled()
+    dedup.audit([str(tmp_path)])
+    assert calls == [] and gc.isenabled() and heap._state["depth"] == 0
 
 
 @pytest.mark.parametrize("enabled_before", [True, False])
@@ -142,6 +148,6 @@ def test_the_work_array_is_freed_before_the_heap_defaults_come_back(write_corpus
         real()
 
     monkeypatch.setattr(tokenize, "release_scratch", recording)
-    dedup.audit([str(root)])
+    dedup.audit([str(root)], tune_process=True)
     assert depths == [1]
     assert getattr(tokenize._SCRATCH, "array", None) is None

@@ -1,4 +1,4 @@
-"""The streaming passes give the same audit however the corpus is cut into chunks.
+"""The local engine gives the same audit however the corpus is cut into chunks or threads.
 
 The reference for each check is the one-shot computation over the whole corpus at once
 (`fit_tfidf`, `find_boilerplate` / `without_boilerplate` over Python strings, MinHash over
@@ -18,8 +18,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import dedup
-from dedup import AuditSettings, streaming
+from dedup import AuditSettings
+from dedup.engines import local, reading, sketching, threads
 from dedup.features.shingles import features_from_buffer, pack_bytes, pack_texts
+from dedup.normalize import batch as normalize_batch
 from dedup.normalize.boilerplate import BoilerplateCounter, find_boilerplate, without_boilerplate
 from dedup.sketch import fit_tfidf, minhash_signatures
 from dedup.sketch.tfidf import DocumentFrequency
@@ -68,8 +70,14 @@ def test_tiny_chunks_give_byte_identical_outputs(write_corpus, tmp_path, monkeyp
     root = write_corpus(_corpus(3))
     s = AuditSettings(candidates=candidates, threshold=0.7, boilerplate_min_texts=3)
     whole = dedup.audit([str(root)], s).write(str(tmp_path / "whole"))
-    for name, value in [("BATCH_DOCUMENTS", 2), ("CHUNK_TEXTS", 3), ("CHUNK_BYTES", 50)]:
-        monkeypatch.setattr(streaming, name, value)
+    for module, name, value in [
+        (reading, "BATCH_DOCUMENTS", 2),
+        (reading, "CHUNK_TEXTS", 3),
+        (reading, "CHUNK_BYTES", 50),
+        (sketching, "CHUNK_TEXTS", 3),
+        (sketching, "CHUNK_BYTES", 50),
+    ]:
+        monkeypatch.setattr(module, name, value)
     cut = dedup.audit([str(root)], s).write(str(tmp_path / "cut"))
     for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
         assert _bytes(whole[name]) == _bytes(cut[name]), name
@@ -148,11 +156,15 @@ def test_minhash_of_repeated_shingles_equals_minhash_of_the_set():
     st.floats(0.3, 0.7),
 )
 def test_compiled_boilerplate_equals_the_string_rules(texts, chunk, max_share):
-    """Reference: `find_boilerplate` and `without_boilerplate` over Python strings."""
+    """Reference: `find_boilerplate` and `without_boilerplate` over Python strings.
+
+    The chunks are counted in two counters by turns (two partitions), then merged."""
     ref, limit = find_boilerplate(texts, share=0.05, min_texts=2, known=["x", "never seen"])
-    counter = BoilerplateCounter()
-    for start in range(0, len(texts), chunk):
-        counter.add(*pack_bytes(["\n".join(t).encode() for t in texts[start : start + chunk]]))
+    counters = [BoilerplateCounter(), BoilerplateCounter()]
+    for k, start in enumerate(range(0, len(texts), chunk)):
+        counters[k % 2].add(*pack_bytes(["\n".join(t).encode() for t in texts[start : start + chunk]]))
+    counter = counters[0].merge(counters[1])
+    assert counter.texts == len(texts)
     found = counter.find(share=0.05, min_texts=2, known=["x", "never seen"])
     out, out_offsets, discounted, _ = found.strip(
         *pack_bytes(["\n".join(t).encode() for t in texts]), max_share
@@ -224,14 +236,12 @@ def test_workers_with_many_small_windows_keep_walk_order(write_corpus, tmp_path,
 
 def test_kept_word_hashes_give_the_same_audit_as_reading_the_texts_again(write_corpus, tmp_path, monkeypatch):
     # The reference is the audit that tokenizes the compared texts a second time.
-    import dedup.api
-
     root = write_corpus(_corpus(9, 60))
     for candidates in ("lsh", "exhaustive"):
         s = AuditSettings(candidates=candidates, threshold=0.6)
         kept = dedup.audit([str(root)], s).write(str(tmp_path / f"kept-{candidates}"))
         with monkeypatch.context() as m:
-            m.setattr(dedup.api, "from_word_hashes", lambda settings: False)
+            m.setattr(local, "from_word_hashes", lambda settings: False)
             again = dedup.audit([str(root)], s).write(str(tmp_path / f"again-{candidates}"))
         for name in ("audit.json", "pairs.csv", "clusters.csv"):
             assert _bytes(kept[name]) == _bytes(again[name]), (candidates, name)
@@ -248,24 +258,22 @@ def test_sketching_while_reading_gives_byte_identical_outputs(
     Tiny chunks make many hand-overs to the sketching thread (and make it wait); the
     sets limit keeps every text's sets, none, or gives them up halfway.
     """
-    import dedup.api
-
     root = write_corpus(_corpus(5, 90))
     s = AuditSettings(candidates=candidates, threshold=0.6, boilerplate=False)
     with monkeypatch.context() as m:
-        m.setattr(dedup.api, "OVERLAP_SKETCH", False)
+        m.setattr(local, "OVERLAP_SKETCH", False)
         after = dedup.audit([str(root)], s).write(str(tmp_path / "after"))
-    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_TEXTS", 4)
-    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_BYTES", 500)
-    monkeypatch.setattr(dedup.api, "KEEP_SETS_TEXT_BYTES", sets_limit)
+    monkeypatch.setattr(reading, "OVERLAP_CHUNK_TEXTS", 4)
+    monkeypatch.setattr(reading, "OVERLAP_CHUNK_BYTES", 500)
+    monkeypatch.setattr(local, "KEEP_SETS_TEXT_BYTES", sets_limit)
     made = []
-    real = streaming.ChunkSketcher.compute
+    real = sketching.ChunkSketcher.compute
 
     def counted(self, buf, offsets, release=None):
         made.append(offsets.shape[0] - 1)
         return real(self, buf, offsets, release)
 
-    monkeypatch.setattr(streaming.ChunkSketcher, "compute", counted)
+    monkeypatch.setattr(sketching.ChunkSketcher, "compute", counted)
     during = dedup.audit([str(root)], s).write(str(tmp_path / "during"))
     assert len(made) > 10 and max(made) <= 4  # the texts went over in many small chunks
     for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
@@ -292,8 +300,8 @@ def test_an_error_while_sketching_reaches_the_caller(write_corpus, monkeypatch):
     import threading
 
     root = write_corpus(_corpus(6, 60))
-    monkeypatch.setattr(streaming, "OVERLAP_CHUNK_TEXTS", 4)
-    _fail_third_call(monkeypatch, streaming.ChunkSketcher, "compute", "sketch failed")
+    monkeypatch.setattr(reading, "OVERLAP_CHUNK_TEXTS", 4)
+    _fail_third_call(monkeypatch, sketching.ChunkSketcher, "compute", "sketch failed")
     with pytest.raises(RuntimeError, match="sketch failed"):
         dedup.audit([str(root)], AuditSettings(boilerplate=False))
     assert not [t for t in threading.enumerate() if t.name.startswith("dedup-sketch")]
@@ -318,7 +326,7 @@ def _gated_background(fail_at=None):
             gate.set()
         return x
 
-    background = streaming._Background(compute, committed.append)
+    background = threads.Background(compute, committed.append)
     background.submit(0)
     assert started.wait(timeout=30)
     background.submit(1)
@@ -372,9 +380,10 @@ def test_without_a_thread_safe_kernel_layer_the_sketch_waits_for_the_reading(wri
 
     root = write_corpus(_corpus(7, 60))
     code = (
-        "import sys, dedup, dedup.streaming as s\n"
-        "assert not s.kernels_thread_safe()\n"
-        "s.OVERLAP_CHUNK_TEXTS = 4\n"
+        "import sys, dedup\n"
+        "from dedup.engines import reading, threads\n"
+        "assert not threads.kernels_thread_safe()\n"
+        "reading.OVERLAP_CHUNK_TEXTS = 4\n"
         "r = dedup.audit([sys.argv[1]], dedup.AuditSettings(boilerplate=False, threshold=0.6))\n"
         "print(len(r.pairs))\n"
     )
@@ -407,7 +416,7 @@ def test_growing_array_equals_the_joined_parts():
     """Reference: numpy.concatenate of the same parts (empty ones and ones larger than the room too)."""
     rng = np.random.default_rng(9)
     parts = [rng.integers(0, 2**63, int(n), dtype=np.uint64) for n in (0, 5, 70_000, 0, 1, 200_000, 3)]
-    grown = streaming._Growing(np.uint64)
+    grown = sketching.Growing(np.uint64)
     for k, part in enumerate(parts):
         grown.append(part)
         assert np.array_equal(grown.array(), np.concatenate(parts[: k + 1]))
@@ -426,8 +435,6 @@ def test_normalizing_in_a_thread_gives_byte_identical_outputs(
     """
     import threading
 
-    import dedup.api
-
     files = _corpus(7, 60)
     files["kb/fold.txt"] = "Die STRASSE und die Straße: ﬁle ﬂow " * 5
     files["kb/compose.txt"] = "Cafe\u0301 au lait, cafe\u0301 noir " * 5
@@ -435,17 +442,17 @@ def test_normalizing_in_a_thread_gives_byte_identical_outputs(
     root = write_corpus(files)
     s = AuditSettings(threshold=0.6, boilerplate=boilerplate, boilerplate_min_texts=3)
     with monkeypatch.context() as m:
-        m.setattr(dedup.api, "OVERLAP_SKETCH", False)
+        m.setattr(local, "OVERLAP_SKETCH", False)
         alone = dedup.audit([str(root)], s).write(str(tmp_path / "alone"))
-    monkeypatch.setattr(streaming, "BATCH_DOCUMENTS", 3)
+    monkeypatch.setattr(reading, "BATCH_DOCUMENTS", 3)
     threads = []
-    real = streaming.PreparedBatch.compiled
+    real = normalize_batch.PreparedBatch.compiled
 
     def recorded(self, *args):
         threads.append(threading.current_thread().name)
         return real(self, *args)
 
-    monkeypatch.setattr(streaming.PreparedBatch, "compiled", recorded)
+    monkeypatch.setattr(normalize_batch.PreparedBatch, "compiled", recorded)
     threaded = dedup.audit([str(root)], s).write(str(tmp_path / "threaded"))
     assert len(threads) > 15 and all(name.startswith("dedup-normalize") for name in threads)
     for name in ("audit.json", "pairs.csv", "clusters.csv", "actions.csv", "ledger.csv"):
@@ -457,8 +464,8 @@ def test_an_error_while_normalizing_reaches_the_caller(write_corpus, monkeypatch
     import threading
 
     root = write_corpus(_corpus(8, 60))
-    monkeypatch.setattr(streaming, "BATCH_DOCUMENTS", 4)
-    calls = _fail_third_call(monkeypatch, streaming.PreparedBatch, "compiled", "normalizing failed")
+    monkeypatch.setattr(reading, "BATCH_DOCUMENTS", 4)
+    calls = _fail_third_call(monkeypatch, normalize_batch.PreparedBatch, "compiled", "normalizing failed")
     for boilerplate in (True, False):
         calls.clear()
         with pytest.raises(RuntimeError, match="normalizing failed"):

@@ -1,0 +1,486 @@
+"""The local engine: runs the plan (`dedup.plan`) on one machine, in bounded memory.
+
+1. **read** — documents streamed once: normalized a batch at a time (a thread runs the
+   compiled pass while the next batch is read), records kept, original and distinct
+   canonical texts appended to stores in the work folder, template lines counted.
+   Without template lines to strip, the stored texts are the texts to shingle: they are
+   sketched in a thread of their own as they are stored.
+2. **exact** — documents grouped by content hash; each distinct text is one row.
+3. **sketch** — otherwise the distinct texts are read back chunk by chunk and sketched.
+4. **candidates** — band keys bucketed (or every pair, for a small corpus); then the
+   shingle sets and TF-IDF rows of the compared texts are built.
+5. **verify**, **cluster**, **records** — pairs ruled out early or scored in full; the
+   confirmed pairs and exact groups grouped into clusters; the records assembled.
+
+Indices: documents are numbered in id order among those with words ("kept"); distinct
+texts by their first document (`DistinctTexts`); store slots and the compared sets'
+local numbers stay inside this module.
+"""
+
+from __future__ import annotations
+
+import functools
+import hashlib
+import json
+import resource
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..candidates import exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
+from ..cluster import build_clusters
+from ..cluster.actions import ClusterInputs
+from ..features.segment_sort import sorted_distinct
+from ..features.shingles import from_word_hashes
+from ..ingest import LedgerEntry, iter_documents, summarize
+from ..normalize import exact_groups
+from ..normalize.batch import prepare_documents
+from ..normalize.boilerplate import Boilerplate
+from ..plan import Plan
+from ..progress import Progress
+from ..report import records
+from ..report.wording import describe_roles
+from ..result import AuditResult
+from ..verify import PairScores, deciding_score, may_reach, score_pairs
+from ..workdir import WorkFolder
+from .compared import ComparedSets, SlotRows, compared_sets
+from .reading import ReadResult, read_pass
+from .sketching import ChunkSketcher, SketchResult, sketch_pass, text_order
+from .threads import kernels_thread_safe
+
+__all__ = ["run_audit", "DistinctTexts"]
+
+# Sketch the texts while they are read, when there are no template lines to strip first.
+OVERLAP_SKETCH = True
+# Up to this many bytes of distinct text, sketching while reading also makes the shingle
+# sets and term counts of every text (about 3 bytes per byte of text), so the compared
+# texts are only picked out of them; beyond, the compared texts are tokenized again.
+KEEP_SETS_TEXT_BYTES = 64 * 2**20
+# Up to this many bytes of distinct text, the sketch pass keeps the word hashes of every
+# text (8 bytes a word, about 1.3 times the text): cheaper to read back than to tokenize
+# again. Beyond, the work folder would more than double, and the compared texts are a
+# small share, cheaper to tokenize again than to write all words for.
+KEEP_WORDS_TEXT_BYTES = 64 * 2**20
+
+
+class Stopwatch:
+    """Seconds of each step, and the peak memory of the process when each step ended."""
+
+    def __init__(self) -> None:
+        self.stages: dict[str, float] = {}
+        self.peaks: dict[str, float] = {}
+        self._t = time.perf_counter()
+
+    def split(self, first: str, first_seconds: float, rest: str) -> None:
+        """End two interleaved steps: ``first`` took ``first_seconds`` of the time since the last lap."""
+        now = time.perf_counter()
+        total = now - self._t
+        self.stages[first] = round(first_seconds, 4)
+        self.stages[rest] = round(max(total - first_seconds, 0.0), 4)
+        self.peaks[first] = self.peaks[rest] = peak_rss_mb()
+        self._t = now
+
+    def lap(self, stage: str) -> None:
+        now = time.perf_counter()
+        self.stages[stage] = round(now - self._t, 4)
+        self.peaks[stage] = peak_rss_mb()
+        self._t = now
+
+    def run_block(self) -> dict:
+        """What ``run.json`` records of this run."""
+        return {
+            "stages_seconds": self.stages,
+            "total_seconds": round(sum(self.stages.values()), 4),
+            "peak_rss_mb": peak_rss_mb(),
+            "peak_rss_mb_by_stage": self.peaks,
+            "started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+        }
+
+
+def peak_rss_mb() -> float:
+    # ru_maxrss is in kilobytes on Linux.
+    return round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0, 1)
+
+
+@dataclass
+class DistinctTexts:
+    """Documents with words (``kept``, in id order) and their distinct texts.
+
+    Distinct text ``t`` is the text of kept document ``first_doc[t]``; kept document ``d``
+    has text ``text_of_doc[d]``; ``slots[t]`` is where the text lies in the canonical store.
+    """
+
+    kept: list[dict]
+    groups: list[list[int]]
+    representative: np.ndarray
+    first_doc: np.ndarray
+    text_of_doc: np.ndarray
+    slots: np.ndarray
+
+    @classmethod
+    def of(cls, kept: list[dict], canonical_slot: dict[str, int]) -> DistinctTexts:
+        hashes = [rec["content_hash"] for rec in kept]
+        representative, groups = exact_groups(hashes)
+        first_doc = np.flatnonzero(representative == np.arange(len(kept)))
+        position = np.full(len(kept), -1, dtype=np.int64)
+        position[first_doc] = np.arange(first_doc.shape[0])
+        text_of_doc = position[representative] if len(kept) else np.zeros(0, np.int64)
+        slots = np.asarray([canonical_slot[hashes[i]] for i in first_doc.tolist()], dtype=np.int64)
+        return cls(kept, groups, representative, first_doc, text_of_doc, slots)
+
+    @property
+    def n(self) -> int:
+        return int(self.first_doc.shape[0])
+
+    @functools.cached_property
+    def ids(self) -> list[str]:
+        return [rec["id"] for rec in self.kept]
+
+    @functools.cached_property
+    def text_ids(self) -> list[str]:
+        """The id of each distinct text's first document."""
+        ids = self.ids
+        return [ids[i] for i in self.first_doc.tolist()]
+
+
+def mark_empty(documents: list[dict], wordless: set[str], ledger: list[LedgerEntry]) -> list[dict]:
+    """Documents without words become ``empty`` (record and ledger, with the reason); the
+    others are returned, in id order."""
+    kept, empty_reason = [], {}
+    for record in documents:
+        if record["characters"] and record["content_hash"] not in wordless:
+            kept.append(record)
+            continue
+        record["status"] = "empty"
+        empty_reason[record["id"]] = (
+            "no text" if record["characters"] == 0 else "no words after normalization"
+        )
+    if empty_reason:
+        for entry in ledger:
+            reason = empty_reason.get(entry.document_id) if entry.document_id else None
+            if reason is not None:
+                entry.status = "empty"
+                entry.reason = reason
+    return kept
+
+
+@dataclass
+class _Verified:
+    confirmed: PairScores  # left/right are distinct-text numbers
+    decided: np.ndarray
+    candidates: int
+
+
+class _Run:
+    """One audit on this machine: the plan's steps in order, sharing the work folder."""
+
+    def __init__(self, plan: Plan, work: WorkFolder, progress: Progress, workers: int) -> None:
+        self.plan, self.settings, self.work = plan, plan.settings, work
+        self.progress, self.workers = progress, workers
+        self.watch = Stopwatch()
+        self.originals, self.canonicals = work.store("originals"), work.store("canonical")
+        self.threaded = OVERLAP_SKETCH and kernels_thread_safe()
+        self.word_store = None
+
+    def read(
+        self, paths: Sequence[str], ledger: list[LedgerEntry]
+    ) -> tuple[ReadResult, ChunkSketcher | None]:
+        """The read step (with the sketch step overlapped when nothing is to be stripped)."""
+        s = self.settings
+        self.progress.start("reading")
+        documents_in = iter_documents(
+            paths,
+            id_field=s.id_field,
+            text_fields=s.text_fields,
+            max_file_bytes=s.max_file_bytes,
+            include_hidden=s.include_hidden,
+            ledger=ledger,
+            max_text_chars=s.max_text_chars,
+            max_archive_ratio=s.max_archive_ratio,
+            max_archive_bytes=s.max_archive_bytes,
+            html_keep_all=s.html_keep_all,
+            include=s.include,
+            exclude=s.exclude,
+            include_vcs=s.include_vcs,
+            workers=self.workers,
+            prepare=functools.partial(prepare_documents, lines=s.boilerplate),
+        )
+        early = None
+        if not s.boilerplate and self.threaded:
+            early = ChunkSketcher(
+                s,
+                lsh=self.plan.lsh if self.plan.may_need_lsh() else None,
+                signature_path=self.work.file("signatures.u32"),
+                sets_text_limit=KEEP_SETS_TEXT_BYTES,
+            )
+        try:
+            read = read_pass(
+                documents_in,
+                s,
+                self.originals,
+                self.canonicals,
+                self.progress,
+                sketcher=early,
+                threaded=self.threaded,
+            )
+        finally:
+            if early is not None:
+                early.close()
+        self.progress.done(f"{len(read.documents):,} documents")
+        self.watch.split("ingest", read.read_seconds, "normalize")
+        return read, early
+
+    def sketch(self, texts: DistinctTexts, early, boilerplate, method: str) -> SketchResult:
+        """The sketch step over the distinct texts (or the end of the one overlapped)."""
+        self.progress.start("shingling", texts.n)
+        if early is not None:
+            # Sketched during the read pass, in store order; the slots are the texts' own.
+            sketch = early.finish(text_order(texts.slots))
+            self.progress.advance(texts.n)
+        else:
+            keep_words = from_word_hashes(self.settings) and self.canonicals.size <= KEEP_WORDS_TEXT_BYTES
+            self.word_store = self.work.store("words") if keep_words else None
+            sketch = sketch_pass(
+                texts.slots,
+                self.canonicals,
+                boilerplate,
+                self.settings,
+                lsh=self.plan.lsh if method == "lsh" else None,
+                signature_path=self.work.file("signatures.u32"),
+                progress=self.progress,
+                word_store=self.word_store,
+            )
+        self.progress.done()
+        self.watch.lap("features")
+        return sketch
+
+    def candidates(
+        self, texts: DistinctTexts, sketch: SketchResult, boilerplate, method: str
+    ) -> tuple[np.ndarray, np.ndarray, list[dict], ComparedSets]:
+        """The candidates step: candidate pairs of distinct texts, oversize buckets, and the
+        sets of the texts compared."""
+        settings, n = self.settings, texts.n
+        exact_texts = np.asarray([texts.text_of_doc[g[0]] for g in texts.groups], dtype=np.int64)
+        self.progress.start("candidates")
+        compared_of = functools.partial(
+            compared_sets,
+            n_texts=n,
+            slots=texts.slots,
+            canonicals=self.canonicals,
+            boilerplate=boilerplate,
+            frequencies=sketch.frequencies,
+            settings=settings,
+            word_store=self.word_store,
+            kept=sketch.sets,
+        )
+        oversize: list[dict] = []
+        if method == "lsh":
+            # Signatures were spilled in store order; only members of oversize buckets are read back.
+            signatures = SlotRows(
+                np.memmap(sketch.signature_file, dtype=np.uint32, mode="r", shape=(n, settings.num_perm))
+                if n
+                else np.zeros((0, settings.num_perm), np.uint32),
+                texts.slots,
+            )
+            left, right, oversize = lsh_candidate_pairs(
+                signatures, self.plan.bands, self.plan.rows, settings.bucket_limit, keys=sketch.keys
+            )
+            del signatures
+            compared = compared_of(sorted_distinct(np.concatenate([left, right, exact_texts])), in_place=True)
+        else:
+            compared = compared_of(np.arange(n))
+            cosine_extra = settings.threshold if settings.measure == "cosine" else None
+            left, right = exhaustive_candidate_pairs(
+                compared.shingles, compared.shingle_offsets, compared.model.rows, cosine_extra
+            )
+        self.progress.done(f"{left.shape[0]:,} pairs")
+        self.watch.lap("candidates")
+        return left, right, oversize, compared
+
+    def verify(self, left: np.ndarray, right: np.ndarray, compared: ComparedSets) -> _Verified:
+        """The verify step: most candidates fall well short of the threshold; they are ruled
+        out first, by a merge that stops as soon as they cannot reach it; the rest are
+        scored in full."""
+        settings = self.settings
+        self.progress.start("verifying", int(left.shape[0]))
+        reach = may_reach(
+            compared.shingles,
+            compared.shingle_offsets,
+            compared.of(left),
+            compared.of(right),
+            settings.measure,
+            settings.threshold,
+        )
+        n_candidates = int(left.shape[0])
+        left, right = left[reach], right[reach]
+        scores = score_pairs(
+            compared.shingles,
+            compared.shingle_offsets,
+            compared.model.rows,
+            compared.of(left),
+            compared.of(right),
+        )
+        scores = _with_ends(scores, left, right)
+        decided = deciding_score(scores, settings.measure) if len(scores) else np.zeros(0)
+        sure = decided >= settings.threshold
+        self.progress.done(f"{int(sure.sum()):,} confirmed")
+        self.watch.lap("verify")
+        return _Verified(scores.select(sure), decided[sure], n_candidates)
+
+    def cluster(self, texts: DistinctTexts, verified: _Verified, compared: ComparedSets):
+        """The cluster step over confirmed near pairs and exact groups (kept-document numbers)."""
+        first_doc = texts.first_doc
+        near_left, near_right = first_doc[verified.confirmed.left], first_doc[verified.confirmed.right]
+        edge_score: dict[tuple[int, int], float] = {}
+        for a, b, s in zip(near_left.tolist(), near_right.tolist(), verified.decided.tolist()):
+            edge_score[(min(a, b), max(a, b))] = float(s)
+        exact_left, exact_right = _exact_edges(texts.groups, edge_score)
+        all_left = np.concatenate([near_left, np.asarray(exact_left, np.int64)])
+        all_right = np.concatenate([near_right, np.asarray(exact_right, np.int64)])
+
+        def score_against(members: np.ndarray, keepers: np.ndarray) -> PairScores:
+            of = compared.of
+            rows = compared.model.rows
+            return score_pairs(
+                compared.shingles,
+                compared.shingle_offsets,
+                rows,
+                of(texts.text_of_doc[members]),
+                of(texts.text_of_doc[keepers]),
+            )
+
+        kept = texts.kept
+        cluster_inputs = ClusterInputs(
+            ids=texts.ids,
+            lengths=[rec["characters"] for rec in kept],
+            sizes=[rec["bytes"] for rec in kept],
+            dates=[rec.get("date") for rec in kept],
+            representative=texts.representative,
+        )
+        clusters, roles = build_clusters(
+            cluster_inputs, all_left, all_right, edge_score, score_against, self.settings
+        )
+        self.watch.lap("cluster")
+        return clusters, roles, list(zip(exact_left, exact_right))
+
+
+def _with_ends(scores: PairScores, left: np.ndarray, right: np.ndarray) -> PairScores:
+    import dataclasses
+
+    return dataclasses.replace(scores, left=left, right=right)
+
+
+def _exact_edges(groups: list[list[int]], edge_score: dict) -> tuple[list[int], list[int]]:
+    """Each exact group as edges from its first member (score 1)."""
+    exact_left, exact_right = [], []
+    for group in groups:
+        for member in group[1:]:
+            exact_left.append(group[0])
+            exact_right.append(member)
+            edge_score[(group[0], member)] = 1.0
+    return exact_left, exact_right
+
+
+def _pair_records(
+    texts: DistinctTexts, verified: _Verified, exact_edges, compared: ComparedSets
+) -> list[dict]:
+    """Confirmed near pairs and exact pairs, highest score first."""
+    pairs = records.near_pair_records(texts.text_ids, verified.confirmed, verified.decided)
+    sizes = np.diff(compared.shingle_offsets)
+    ids = texts.ids
+    for a, b in exact_edges:
+        shingles = int(sizes[compared.of(texts.text_of_doc[a])])
+        pairs.append(records.exact_pair_record(ids[a], ids[b], shingles))
+    pairs.sort(key=lambda p: (-p["deciding_score"], p["left"], p["right"]))
+    return pairs
+
+
+def _audit_id(settings, documents: list[dict]) -> str:
+    digest = hashlib.blake2b(digest_size=8)
+    digest.update(json.dumps(settings.to_dict(), sort_keys=True).encode())
+    for rec in documents:
+        digest.update(f"{rec['id']}\0{rec['content_hash']}\n".encode())
+    return digest.hexdigest()
+
+
+def _clustered_texts(documents, original_slot, clusters, originals) -> dict[str, str]:
+    """Original texts of clustered documents only: the report's evidence needs them."""
+    clustered = {m["document_id"] for c in clusters for m in c["members"]}
+    return {
+        rec["id"]: originals.get(slot).decode("utf-8", "surrogatepass")
+        for rec, slot in zip(documents, original_slot)
+        if rec["id"] in clustered
+    }
+
+
+def run_audit(
+    plan: Plan,
+    paths: Sequence[str],
+    *,
+    known_boilerplate: list[str],
+    work: WorkFolder,
+    progress: Progress,
+    workers: int = 1,
+) -> AuditResult:
+    """Run the plan's steps on this machine (see the module notes)."""
+    settings = plan.settings
+    run = _Run(plan, work, progress, workers)
+    ledger: list[LedgerEntry] = []
+    read, early = run.read(paths, ledger)
+    documents = read.documents
+    texts = DistinctTexts.of(mark_empty(documents, read.wordless, ledger), read.canonical_slot)
+    boilerplate: Boilerplate | None = None
+    if read.counter is not None:
+        boilerplate = read.counter.find(
+            share=settings.boilerplate_share,
+            min_texts=settings.boilerplate_min_texts,
+            known=known_boilerplate,
+        )
+    method = plan.candidate_method(texts.n)
+    sketch = run.sketch(texts, early, boilerplate, method)
+    tfidf = sketch.frequencies.collision_stats()
+    tfidf["sublinear_tf"] = settings.sublinear_tf
+    tfidf["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
+    left, right, oversize, compared = run.candidates(texts, sketch, boilerplate, method)
+    recall = recall_statement(settings.effective_candidate_threshold, plan.bands, plan.rows)
+    candidates = records.candidates_block(method, texts.n, plan, recall, int(left.shape[0]), len(oversize))
+    verified = run.verify(left, right, compared)
+    clusters, roles, exact_edges = run.cluster(texts, verified, compared)
+    describe_roles(roles)  # reasons as data become sentences for the outputs
+    pairs = _pair_records(texts, verified, exact_edges, compared)
+    kept_index = {rec["id"]: i for i, rec in enumerate(texts.kept)}
+    actions = records.action_records(documents, kept_index, roles)
+    counts = {
+        "candidate_pairs": verified.candidates,
+        "confirmed_pairs": len(pairs),
+        "near_pairs": len(verified.confirmed),
+    }
+    summary = records.summary_block(
+        summarize(ledger), documents, len(texts.kept), texts.n, texts.groups, counts, clusters, roles, actions
+    )
+    result = AuditResult(
+        settings=settings,
+        inputs=list(paths),
+        ledger=ledger,
+        documents=documents,
+        exact_groups=records.exact_group_records(
+            texts.groups, texts.ids, [rec["content_hash"] for rec in texts.kept]
+        ),
+        pairs=pairs,
+        clusters=clusters,
+        actions=actions,
+        candidates=candidates,
+        tfidf=tfidf,
+        boilerplate=records.boilerplate_block(
+            settings, boilerplate, sketch.texts_affected, sketch.texts_compared_whole
+        ),
+        warnings=records.warning_records(oversize, texts.text_ids, tfidf, settings),
+        summary=summary,
+        audit_id=_audit_id(settings, documents),
+        texts=_clustered_texts(documents, read.original_slot, clusters, run.originals),
+    )
+    run.watch.lap("records")
+    result.run = run.watch.run_block()
+    return result

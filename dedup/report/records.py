@@ -1,0 +1,190 @@
+"""The records of ``audit.json`` and the CSV exports, made from the stages' arrays.
+
+Everything here turns data into the output's records and wording; nothing decides.
+Cost: O(documents + pairs + clusters).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from ..verify import PairScores
+
+__all__ = [
+    "near_pair_records",
+    "exact_pair_record",
+    "exact_group_records",
+    "action_records",
+    "warning_records",
+    "candidates_block",
+    "boilerplate_block",
+    "summary_block",
+    "COLLISION_WARNING_SHARE",
+]
+
+# A hashed feature space where more than this share of terms collide gets a warning.
+COLLISION_WARNING_SHARE = 0.05
+
+
+def near_pair_records(ids: Sequence[str], scores: PairScores, decided: np.ndarray) -> list[dict]:
+    """One record per confirmed near pair (``scores.left/right`` index ``ids``)."""
+    return [
+        {
+            "left": ids[int(scores.left[i])],
+            "right": ids[int(scores.right[i])],
+            "kind": "near",
+            "deciding_score": float(decided[i]),
+            "jaccard": float(scores.jaccard[i]),
+            "containment_left_in_right": float(scores.containment_left_in_right[i]),
+            "containment_right_in_left": float(scores.containment_right_in_left[i]),
+            "cosine": float(scores.cosine[i]),
+            "shared_shingles": int(scores.shared[i]),
+        }
+        for i in range(len(scores))
+    ]
+
+
+def exact_pair_record(left: str, right: str, shingles: int) -> dict:
+    """The record of two documents with the same canonical text (``shingles`` each)."""
+    return {
+        "left": left,
+        "right": right,
+        "kind": "exact",
+        "deciding_score": 1.0,
+        "jaccard": 1.0,
+        "containment_left_in_right": 1.0,
+        "containment_right_in_left": 1.0,
+        "cosine": 1.0,
+        "shared_shingles": shingles,
+    }
+
+
+def exact_group_records(groups: list[list[int]], ids: Sequence[str], hashes: Sequence[str]) -> list[dict]:
+    return [{"content_hash": hashes[g[0]], "size": len(g), "members": [ids[m] for m in g]} for g in groups]
+
+
+def _action(doc_id: str, action: str, favour: str | None, cluster: str | None, reason: str) -> dict:
+    return {
+        "document_id": doc_id,
+        "action": action,
+        "in_favour_of": favour,
+        "cluster_id": cluster,
+        "reason": reason,
+    }
+
+
+def action_records(documents: list[dict], kept_index: dict[str, int], roles: dict[int, dict]) -> list[dict]:
+    """One proposed action per document, in id order: its role in a cluster, else keep
+    (or review, for a document without text)."""
+    actions = []
+    for rec in documents:
+        i = kept_index.get(rec["id"])
+        if rec["status"] == "empty":
+            actions.append(_action(rec["id"], "review", None, None, "document has no text"))
+        elif i in roles:
+            role = roles[i]
+            actions.append(
+                _action(rec["id"], role["action"], role["in_favour_of"], role["cluster_id"], role["reason"])
+            )
+        else:
+            actions.append(_action(rec["id"], "keep", None, None, "no duplicate found at the threshold"))
+    return actions
+
+
+def warning_records(oversize: list[dict], text_ids: Sequence[str], tfidf: dict, settings) -> list[dict]:
+    """Warnings: band buckets too large to pair in full, a crowded TF-IDF space."""
+    warnings = []
+    for bucket in oversize:
+        members = [text_ids[m] for m in bucket["members"][:5].tolist()]
+        warnings.append(
+            {
+                "kind": "oversize-bucket",
+                "message": (
+                    f"{bucket['size']} documents share a band bucket in {len(bucket['bands'])} band(s), "
+                    f"probably shared boilerplate; only neighbouring members were compared"
+                ),
+                "size": int(bucket["size"]),
+                "bands": [int(b) for b in bucket["bands"]],
+                "sample": members,
+            }
+        )
+    if tfidf["expected_colliding_share"] > COLLISION_WARNING_SHARE:
+        warnings.append(
+            {
+                "kind": "tfidf-collisions",
+                "message": (
+                    f"{tfidf['expected_colliding_share']:.1%} of the {tfidf['vocabulary_size']:,} terms are "
+                    f"expected to share a TF-IDF column; raise --tfidf-features above {settings.tfidf_features:,}"
+                ),
+            }
+        )
+    return warnings
+
+
+def candidates_block(
+    method: str, n_texts: int, plan, recall: dict, candidate_pairs: int, oversize: int
+) -> dict:
+    """How candidates were found, and the recall to expect."""
+    block = {
+        "method": method,
+        "reason": (
+            f"{n_texts} distinct texts: every pair sharing a shingle is compared exactly (no pair is missed)"
+            if method == "exhaustive"
+            else f"{n_texts} distinct texts: MinHash LSH with {plan.bands} bands x {plan.rows} rows"
+        ),
+        "lsh_threshold": plan.settings.effective_candidate_threshold,
+        "bands": plan.bands,
+        "rows": plan.rows,
+        "expected_recall": recall,
+        "candidate_pairs": candidate_pairs,
+        "oversize_buckets": oversize,
+    }
+    if method == "exhaustive":
+        block["expected_recall"]["note"] = (
+            "exhaustive comparison: recall is 1.0; the probabilities are what LSH would give at this size"
+        )
+    return block
+
+
+def boilerplate_block(settings, boilerplate, affected: int, whole: int) -> dict:
+    return {
+        "enabled": settings.boilerplate,
+        "limit_texts": boilerplate.limit if boilerplate is not None else None,
+        "lines": len(boilerplate) if boilerplate is not None else 0,
+        "texts_affected": affected,
+        "texts_compared_whole": whole,
+        "top": boilerplate.top(100) if boilerplate is not None else [],
+    }
+
+
+def summary_block(
+    ledger_counts: dict,
+    documents: list[dict],
+    kept: int,
+    n_texts: int,
+    groups: list[list[int]],
+    counts: dict,
+    clusters: list[dict],
+    roles: dict[int, dict],
+    actions: list[dict],
+) -> dict:
+    """The audit's figures in one block (``counts``: candidate_pairs, confirmed_pairs, near_pairs)."""
+    return {
+        "inputs": ledger_counts,
+        "documents": len(documents),
+        "documents_with_text": kept,
+        "distinct_texts": n_texts,
+        "exact_groups": len(groups),
+        "documents_in_exact_groups": sum(len(g) for g in groups),
+        "candidate_pairs": counts["candidate_pairs"],
+        "confirmed_pairs": counts["confirmed_pairs"],
+        "near_pairs": counts["near_pairs"],
+        "clusters": len(clusters),
+        "documents_in_clusters": sum(c["size"] for c in clusters),
+        "linked_through": sum(1 for r in roles.values() if r["role"] == "linked-through"),
+        "retire_documents": sum(1 for a in actions if a["action"] == "retire"),
+        "retire_bytes": sum(c["retire_bytes"] for c in clusters),
+        "review_documents": sum(1 for a in actions if a["action"] == "review"),
+    }

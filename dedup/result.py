@@ -1,0 +1,106 @@
+"""What an audit found: `AuditResult`, the content of ``audit.json`` and the exports."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from . import __version__
+from .ingest import LedgerEntry
+from .progress import Progress
+from .settings import AuditSettings
+
+__all__ = ["AuditResult", "SCHEMA_VERSION", "NOTICE"]
+
+SCHEMA_VERSION = "1.0"
+
+
+@dataclass
+class AuditResult:
+    """Everything an audit found, ready to be written as JSON, CSV and HTML.
+
+    Attributes
+    ----------
+    settings : AuditSettings
+    inputs : list of str
+        The paths as given.
+    ledger : list of LedgerEntry
+        One entry per input (file or record).
+    documents : list of dict
+        Every document read (including empty ones), in id order.
+    exact_groups : list of dict
+    pairs : list of dict
+        Confirmed pairs with all scores.
+    clusters : list of dict
+    actions : list of dict
+        One proposed action per document.
+    candidates : dict
+        How candidates were found and the expected recall.
+    tfidf : dict
+        Hashed feature space and its collisions.
+    warnings : list of dict
+    run : dict
+        Timings and peak memory of this run; not part of ``audit.json`` (which must
+        be byte-identical between runs) but written to ``run.json``.
+    texts : dict
+        Original text of every clustered document, for the report's evidence view.
+    delta : dict or None
+        With an index: what changed since the last audit (see `dedup.index`).
+    """
+
+    settings: AuditSettings
+    inputs: list[str]
+    ledger: list[LedgerEntry]
+    documents: list[dict]
+    exact_groups: list[dict]
+    pairs: list[dict]
+    clusters: list[dict]
+    actions: list[dict]
+    candidates: dict
+    tfidf: dict
+    warnings: list[dict]
+    summary: dict
+    boilerplate: dict
+    audit_id: str
+    run: dict = field(default_factory=dict)
+    texts: dict = field(default_factory=dict)
+    delta: dict | None = None
+
+    def to_dict(self, lazy: bool = False) -> dict:
+        """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path).
+
+        With ``lazy`` the ledger is a generator of records (for writing, not keeping).
+        """
+        return {
+            "schema_version": SCHEMA_VERSION,
+            "tool": {"name": "dedup", "version": __version__},
+            "audit_id": self.audit_id,
+            "notice": NOTICE,
+            "inputs": self.inputs,
+            "settings": self.settings.to_dict(),
+            "summary": self.summary,
+            "candidates": self.candidates,
+            "tfidf": self.tfidf,
+            "boilerplate": self.boilerplate,
+            "warnings": self.warnings,
+            "ledger": (e.to_dict() for e in self.ledger) if lazy else [e.to_dict() for e in self.ledger],
+            "documents": self.documents,
+            "exact_groups": self.exact_groups,
+            "pairs": self.pairs,
+            "clusters": self.clusters,
+            "actions": self.actions,
+            **({"delta": self.delta} if self.delta is not None else {}),
+        }
+
+    def write(self, out_dir: str, progress: Progress | None = None, report: bool = True) -> dict[str, str]:
+        """Write every output file into ``out_dir`` (``report=False``: all but report.html);
+        returns name → path."""
+        from .report import write_outputs
+
+        return write_outputs(self, out_dir, progress=progress, report=report)
+
+
+NOTICE = (
+    "Similarity is evidence for a person to review, not a verdict: quotations, citations, shared "
+    "templates and common phrasing match too. This tool only reads its inputs; the actions are "
+    "proposals and no file has been changed, moved or deleted."
+)
