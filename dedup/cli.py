@@ -1,5 +1,9 @@
 """Command line: a thin layer over `dedup.audit`.
 
+The options of the audit settings are not written here: `add_setting_options` generates
+them from the `Option` each `AuditSettings` field declares, and `settings_from_args`
+maps the parsed arguments back, for ``dedup audit`` and the index commands alike.
+
 Exit codes
 ----------
 0  the audit ran (whatever it found)
@@ -15,13 +19,16 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+from collections.abc import Iterable
 
 from . import __version__
-from .settings import CANDIDATE_METHODS, HASH_SCHEMES, KEEPER_POLICIES, MEASURES, AuditSettings, SettingsError
+from .settings import GROUPS, AuditSettings, Option, SettingsError, setting_options
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "add_setting_options", "settings_from_args", "FAIL_ON"]
 
 EXIT_OK, EXIT_FOUND, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
+# When ``dedup audit`` exits with code 1 (``--fail-on``); the same names as `dedup.index.history.FAIL_ON`.
+FAIL_ON = ("none", "any", "new", "grown")
 
 CAUTION = (
     "A similarity flag is evidence for a person to review, not a verdict: quotations, citations, "
@@ -37,6 +44,7 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The whole command line: ``audit`` (its settings generated from `AuditSettings`) and the index commands."""
     parser = _Parser(
         prog="dedup",
         description="Find exact copies, near-copies and shared passages in a body of text, and propose what to keep.",
@@ -57,207 +65,17 @@ def build_parser() -> argparse.ArgumentParser:
         ),
         epilog=CAUTION
         + " Exit codes: 0 ran, 1 --fail-on was met, 2 usage error (or an unusable index), 3 internal error.",
-        formatter_class=argparse.ArgumentDefaultsHelpFormatter,
     )
-    d = AuditSettings()
     p.add_argument("paths", nargs="+", metavar="PATH", help="files and folders to read (folders recursively)")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
-    g = p.add_argument_group("what counts as a duplicate")
-    g.add_argument(
-        "--threshold",
-        type=float,
-        default=d.threshold,
-        help="score at or above which a pair is a near-duplicate",
-    )
-    g.add_argument("--measure", choices=MEASURES, default=d.measure, help="the exact score that decides")
-    g.add_argument("--shingle-size", type=int, default=d.shingle_size, metavar="K", help="words per shingle")
-    g.add_argument(
-        "--char-ngrams",
-        type=int,
-        default=None,
-        metavar="N",
-        help="use character N-grams instead of word shingles (for text without spaces)",
-    )
-    g = p.add_argument_group("candidate search (MinHash LSH)")
-    g.add_argument(
-        "--candidates",
-        choices=CANDIDATE_METHODS,
-        default=d.candidates,
-        help="how candidate pairs are found; auto compares all pairs exactly for small inputs",
-    )
-    g.add_argument(
-        "--exhaustive-max-docs",
-        type=int,
-        default=d.exhaustive_max_docs,
-        metavar="N",
-        help="largest number of distinct texts for which auto compares all pairs",
-    )
-    g.add_argument(
-        "--candidate-threshold",
-        type=float,
-        default=None,
-        metavar="J",
-        help="Jaccard level the LSH bands are tuned for (default: the threshold for jaccard, 0.5 otherwise)",
-    )
-    g.add_argument("--num-perm", type=int, default=d.num_perm, metavar="N", help="MinHash permutations")
-    g.add_argument("--seed", type=int, default=d.seed, help="seed of the MinHash permutations")
-    g.add_argument(
-        "--bands", type=int, default=None, help="LSH bands (with --rows; default: chosen from the threshold)"
-    )
-    g.add_argument("--rows", type=int, default=None, help="rows per LSH band (with --bands)")
-    g.add_argument(
-        "--bucket-limit",
-        type=int,
-        default=d.bucket_limit,
-        metavar="N",
-        help="band buckets larger than this are reported and only partly compared",
-    )
-    g.add_argument(
-        "--hash-scheme",
-        choices=HASH_SCHEMES,
-        default=d.hash_scheme,
-        help="MinHash hashing: stable64 (one hash function per permutation), binned "
-        "(one hash split into bins, several times faster), datasketch-sha1 (reproduces datasketch's MinHash, slow)",
-    )
-    g = p.add_argument_group("TF-IDF cosine")
-    g.add_argument(
-        "--tfidf-features",
-        type=int,
-        default=d.tfidf_features,
-        metavar="N",
-        help="size of the hashed feature space",
-    )
-    g.add_argument("--sublinear-tf", action="store_true", help="use 1 + ln(tf) for term frequency")
-    g = p.add_argument_group("what to keep")
-    g.add_argument(
-        "--keeper",
-        choices=KEEPER_POLICIES,
-        default=d.keeper_policy,
-        help="how the document to keep is chosen in each cluster",
-    )
-    g.add_argument(
-        "--prefer",
-        action="append",
-        default=[],
-        metavar="GLOB",
-        help="path pattern that wins as keeper, in the order given (repeatable), e.g. 'current/**'",
-    )
-    g.add_argument(
-        "--date-field",
-        default=None,
-        metavar="FIELD",
-        help="record field with a date for --keeper newest/oldest (else file modification time)",
-    )
-    g.add_argument(
-        "--retire-coverage",
-        type=float,
-        default=d.retire_coverage,
-        metavar="SHARE",
-        help="propose retiring a near-duplicate only if this share of it is in the keeper",
-    )
-    g = p.add_argument_group("boilerplate")
-    g.add_argument(
-        "--keep-boilerplate", action="store_true", help="do not leave out lines shared by many documents"
-    )
-    g.add_argument(
-        "--boilerplate-share",
-        type=float,
-        default=d.boilerplate_share,
-        metavar="SHARE",
-        help="a line in at least this share of the distinct texts is boilerplate",
-    )
-    g.add_argument(
-        "--boilerplate-min-texts",
-        type=int,
-        default=d.boilerplate_min_texts,
-        metavar="N",
-        help="... and in at least this many",
-    )
-    g.add_argument(
-        "--boilerplate-max-text-share",
-        type=float,
-        default=d.boilerplate_max_text_share,
-        metavar="SHARE",
-        help="a text that would lose more than this share to boilerplate is compared whole",
-    )
-    g.add_argument(
-        "--ignore-text",
-        default=None,
-        metavar="FILE",
-        help="a file of known shared text (one line per notice, footer, …) always left out",
-    )
-    g = p.add_argument_group("inputs")
-    g.add_argument(
-        "--id-field",
-        default=None,
-        metavar="FIELD",
-        help="record field holding the document id (.jsonl/.csv); default: the line or row number",
-    )
-    g.add_argument(
-        "--text-field",
-        action="append",
-        default=None,
-        metavar="FIELD",
-        help="record field(s) holding the text (repeatable; joined); default: text",
-    )
-    g.add_argument(
-        "--max-file-bytes",
-        type=int,
-        default=d.max_file_bytes,
-        metavar="N",
-        help="skip files larger than this",
-    )
-    g.add_argument("--include-hidden", action="store_true", help="also read hidden files and folders")
-    g.add_argument(
-        "--include-vcs", action="store_true", help="also read version-control folders (.git, .hg, .svn, …)"
-    )
-    g.add_argument(
-        "--include",
-        action="append",
-        default=[],
-        metavar="GLOB",
-        help="read only paths matching this glob (repeatable)",
-    )
-    g.add_argument(
-        "--exclude",
-        action="append",
-        default=[],
-        metavar="GLOB",
-        help="do not read paths matching this glob (repeatable)",
-    )
-    g.add_argument(
-        "--max-text-chars",
-        type=int,
-        default=d.max_text_chars,
-        metavar="N",
-        help="cut longer texts to this many characters (marked truncated)",
-    )
-    g.add_argument(
-        "--max-archive-ratio",
-        type=float,
-        default=d.max_archive_ratio,
-        metavar="R",
-        help="refuse archive members that expand more than R times",
-    )
-    g.add_argument(
-        "--max-archive-bytes",
-        type=int,
-        default=d.max_archive_bytes,
-        metavar="N",
-        help="stop expanding an archive beyond N bytes in all",
-    )
-    g.add_argument(
-        "--html-keep-all",
-        action="store_true",
-        help="keep navigation, headers, footers and asides of HTML pages",
-    )
+    add_setting_options(p)
     g = p.add_argument_group("running")
     g.add_argument(
         "--fail-on",
-        choices=("none", "any", "new", "grown"),
+        choices=FAIL_ON,
         default="none",
         help="exit with code 1 when any cluster is found (any), or, with --index, when a cluster is new (new) "
-        "or new or grown (grown) since the last audit; reviewed clusters never count",
+        "or new or grown (grown) since the last audit; reviewed clusters never count (default: none)",
     )
     g.add_argument(
         "--index",
@@ -266,6 +84,11 @@ def build_parser() -> argparse.ArgumentParser:
         help="index file: apply remembered review decisions, compare with the last audit, record this one",
     )
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    g.add_argument(
+        "--no-report",
+        action="store_true",
+        help="write the data files (JSON, CSV) but not report.html, for pipelines that only read the data",
+    )
     g.add_argument(
         "--work-dir",
         default=argparse.SUPPRESS,
@@ -290,45 +113,97 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _settings_from(args: argparse.Namespace) -> AuditSettings:
-    return AuditSettings(
-        threshold=args.threshold,
-        measure=args.measure,
-        candidate_threshold=args.candidate_threshold,
-        shingle_size=args.shingle_size,
-        char_ngrams=args.char_ngrams,
-        num_perm=args.num_perm,
-        seed=args.seed,
-        hash_scheme=args.hash_scheme,
-        bands=args.bands,
-        rows=args.rows,
-        bucket_limit=args.bucket_limit,
-        candidates=args.candidates,
-        exhaustive_max_docs=args.exhaustive_max_docs,
-        tfidf_features=args.tfidf_features,
-        sublinear_tf=args.sublinear_tf,
-        keeper_policy=args.keeper,
-        prefer=tuple(args.prefer),
-        date_field=args.date_field,
-        retire_coverage=args.retire_coverage,
-        id_field=args.id_field,
-        text_fields=tuple(args.text_field) if args.text_field else ("text",),
-        boilerplate=not args.keep_boilerplate,
-        boilerplate_share=args.boilerplate_share,
-        boilerplate_min_texts=args.boilerplate_min_texts,
-        boilerplate_max_text_share=args.boilerplate_max_text_share,
-        ignore_text_file=args.ignore_text,
-        max_file_bytes=args.max_file_bytes,
-        include_hidden=args.include_hidden,
-        include_vcs=args.include_vcs,
-        include=tuple(args.include),
-        exclude=tuple(args.exclude),
-        max_text_chars=args.max_text_chars,
-        max_archive_ratio=args.max_archive_ratio,
-        max_archive_bytes=args.max_archive_bytes,
-        html_keep_all=args.html_keep_all,
-        fail_on=args.fail_on,
-    )
+def add_setting_options(
+    parser: argparse.ArgumentParser,
+    names: Iterable[str] | None = None,
+    *,
+    title: str | None = None,
+    stored: bool = False,
+) -> None:
+    """Add the options of settings to ``parser``, generated from their declaration in `AuditSettings`.
+
+    Each option stores its value under the setting's own name, which `settings_from_args` reads back,
+    so a new setting needs no change here.
+
+    Parameters
+    ----------
+    names : iterable of str, optional
+        The settings to offer (default: every setting with an `Option`), shown in declaration order.
+    title : str, optional
+        One help section for all of them instead of each option's own group.
+    stored : bool
+        The defaults are those recorded elsewhere (an index): an option not given is left out of
+        the parsed arguments, and the help says "as the index records".
+    """
+    offered = setting_options()
+    if names is not None:
+        wanted = set(names)
+        unknown = wanted - {name for name, _ in offered}
+        if unknown:
+            raise ValueError(f"no command-line option for the settings {sorted(unknown)}")
+        offered = tuple((name, option) for name, option in offered if name in wanted)
+    defaults = AuditSettings()
+    sections: dict[str, argparse._ArgumentGroup] = {}
+    # A stable sort keeps the declaration order inside each section.
+    for name, option in sorted(offered, key=lambda item: 0 if title else GROUPS.index(item[1].group)):
+        heading = title or option.group
+        if heading not in sections:
+            sections[heading] = parser.add_argument_group(heading)
+        _add_setting_option(sections[heading], name, option, getattr(defaults, name), stored)
+
+
+def _add_setting_option(
+    group: argparse._ArgumentGroup, name: str, option: Option, default: object, stored: bool
+) -> None:
+    """One generated option: its argparse action, default and help (with the default where it says something)."""
+    kwargs: dict[str, object] = {"dest": name, "help": option.help + _default_note(option, default, stored)}
+    if option.form in ("switch", "inverse"):
+        kwargs.update(action="store_const", const=option.form == "switch", default=default)
+    else:
+        kwargs.update(type=option.parse, choices=option.choices, metavar=option.metavar)
+        if option.form == "many":
+            # Never a list default: argparse would append to it (and repeat it in the help).
+            kwargs.update(action="append", default=None)
+        else:
+            kwargs["default"] = default
+    if stored:
+        kwargs["default"] = argparse.SUPPRESS
+    group.add_argument(*option.flags, **kwargs)
+
+
+def _default_note(option: Option, default: object, stored: bool) -> str:
+    """`` (default: …)`` where the default means something to the reader, else nothing.
+
+    Switches (off unless given), repeatable options (none unless given) and values whose
+    default is None say nothing, unless their `Option` words the default itself.
+    """
+    if stored:
+        return " (default: as the index records)"
+    if option.default_text is not None:
+        return f" (default: {option.default_text})"
+    if option.form == "value" and default is not None:
+        return f" (default: {default})"
+    return ""
+
+
+def settings_from_args(args: argparse.Namespace, base: AuditSettings | None = None) -> AuditSettings:
+    """The settings given by parsed arguments (options made by `add_setting_options`) over ``base``.
+
+    A setting whose option was not added, or (``stored``) not given, keeps its value in ``base``
+    (default: `AuditSettings`' defaults). Repeated options become tuples. Not validated.
+    """
+    given = vars(args)
+    changes = {}
+    for name, option in setting_options():
+        if name not in given:
+            continue
+        value = given[name]
+        if option.form == "many":
+            if value is None:
+                continue
+            value = tuple(value)
+        changes[name] = value
+    return (base or AuditSettings()).replace(**changes)
 
 
 def _summary_lines(result, paths: dict[str, str]) -> list[str]:
@@ -355,7 +230,10 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
         ),
     ]
     lines += [f"warning: {w['message']}" for w in result.warnings]
-    lines.append(f"report: {paths['report.html']}")
+    if "report.html" in paths:
+        lines.append(f"report: {paths['report.html']}")
+    else:
+        lines.append(f"outputs: {os.path.dirname(paths['audit.json']) or '.'} (no report.html: --no-report)")
     lines.append("note: flags are evidence for review, not verdicts; no file was changed.")
     return lines
 
@@ -376,21 +254,22 @@ WORK_FOLDER = ".dedup-work"
 
 def _run_audit(args: argparse.Namespace) -> int:
     from .api import audit
+    from .engines.tuning import lean_allocation
     from .ingest import InputError
     from .progress import Progress, StderrProgress
 
     try:
-        settings = _settings_from(args).validate()
+        settings = settings_from_args(args).validate()
     except SettingsError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
         return EXIT_USAGE
-    for path in args.paths + ([args.ignore_text] if args.ignore_text else []):
+    for path in args.paths + ([settings.ignore_text_file] if settings.ignore_text_file else []):
         if path != "-" and not os.path.exists(path):
             print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
             return EXIT_USAGE
-    if settings.fail_on in ("new", "grown") and not args.index:
+    if args.fail_on in ("new", "grown") and not args.index:
         print(
-            f"dedup: error: --fail-on {settings.fail_on} compares with the last audit: give --index FILE",
+            f"dedup: error: --fail-on {args.fail_on} compares with the last audit: give --index FILE",
             file=sys.stderr,
         )
         return EXIT_USAGE
@@ -423,6 +302,7 @@ def _run_audit(args: argparse.Namespace) -> int:
             work_dir=getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER),
             keep_work=args.keep_work,
             workers=args.workers,
+            tune_process=True,  # the command owns its process; put back as it was afterwards
         )
     except InputError as err:
         print(f"dedup: error: {err}", file=sys.stderr)
@@ -432,17 +312,18 @@ def _run_audit(args: argparse.Namespace) -> int:
         where = getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER)
         print(f"dedup: error: cannot use the work folder {where}: {err.strerror or err}", file=sys.stderr)
         return EXIT_USAGE
-    code = EXIT_FOUND if settings.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK
+    code = EXIT_FOUND if args.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK
     delta = None
     if args.index:
         from .cli_index import audit_with_index, delta_lines
 
-        delta, code = audit_with_index(args.index, result, settings.fail_on)
+        delta, code = audit_with_index(args.index, result, args.fail_on)
         if code == EXIT_USAGE:
             return EXIT_USAGE
         result.delta = delta
     try:
-        paths = result.write(out, progress)
+        with lean_allocation():
+            paths = result.write(out, progress, report=not args.no_report)
     except OSError as err:
         print(f"dedup: error: cannot write the outputs into {out}: {err}", file=sys.stderr)
         return EXIT_USAGE

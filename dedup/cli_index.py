@@ -28,103 +28,38 @@ import argparse
 import json
 import sys
 
-from .settings import HASH_SCHEMES, AuditSettings, SettingsError
+from .cli import add_setting_options, settings_from_args
+from .settings import INPUTS, SettingsError, setting_options
 
 __all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines"]
 
 COMMANDS = ("index", "decisions", "similar")
 EXIT_OK, EXIT_FOUND, EXIT_USAGE = 0, 1, 2
 
-# Option name -> AuditSettings field, for the options that shape sketches and reading.
-_SKETCH_OPTIONS = {
-    "shingle_size": "shingle_size",
-    "char_ngrams": "char_ngrams",
-    "num_perm": "num_perm",
-    "seed": "seed",
-    "hash_scheme": "hash_scheme",
-    "tfidf_features": "tfidf_features",
-    "sublinear_tf": "sublinear_tf",
-}
-_READ_OPTIONS = {
-    "id_field": "id_field",
-    "text_field": "text_fields",
-    "max_file_bytes": "max_file_bytes",
-    "include_hidden": "include_hidden",
-}
+# The settings that decide what a stored sketch is: the same names as `dedup.index.store.SKETCH_KEYS`,
+# written here so that building the parser does not load the index code (a test keeps them equal).
+SKETCH_SETTINGS = (
+    "shingle_size",
+    "char_ngrams",
+    "hash_scheme",
+    "num_perm",
+    "seed",
+    "tfidf_features",
+    "sublinear_tf",
+)
+SKETCHES_TITLE = "sketches (recorded in the index; an update cannot change them)"
+
+
+def _reading_settings() -> tuple[str, ...]:
+    """The settings of the "inputs" section: how documents are read, all of them recorded in the index."""
+    return tuple(name for name, option in setting_options() if option.group == INPUTS)
 
 
 def _add_settings_options(p: argparse.ArgumentParser, stored: bool) -> None:
-    """Sketch and reading options; with ``stored`` every default is "as the index records"."""
-    d = AuditSettings()
-
-    def default(value):
-        return None if stored else value
-
-    suffix = " (default: as the index records)" if stored else ""
-    g = p.add_argument_group("sketches (recorded in the index; an update cannot change them)")
-    g.add_argument(
-        "--shingle-size",
-        type=int,
-        default=default(d.shingle_size),
-        metavar="K",
-        help="words per shingle" + suffix,
-    )
-    g.add_argument(
-        "--char-ngrams",
-        type=int,
-        default=None,
-        metavar="N",
-        help="character N-grams instead of word shingles",
-    )
-    g.add_argument(
-        "--num-perm", type=int, default=default(d.num_perm), metavar="N", help="MinHash permutations" + suffix
-    )
-    g.add_argument(
-        "--seed", type=int, default=default(d.seed), help="seed of the MinHash permutations" + suffix
-    )
-    g.add_argument(
-        "--hash-scheme",
-        choices=HASH_SCHEMES,
-        default=default(d.hash_scheme),
-        help="shingle hashing" + suffix,
-    )
-    g.add_argument(
-        "--tfidf-features",
-        type=int,
-        default=default(d.tfidf_features),
-        metavar="N",
-        help="size of the hashed TF-IDF feature space" + suffix,
-    )
-    g.add_argument(
-        "--sublinear-tf",
-        action="store_const",
-        const=True,
-        default=default(False),
-        help="use 1 + ln(tf) for term frequency",
-    )
-    g = p.add_argument_group("inputs")
-    g.add_argument("--id-field", default=None, metavar="FIELD", help="record field holding the document id")
-    g.add_argument(
-        "--text-field",
-        action="append",
-        default=None,
-        metavar="FIELD",
-        help="record field(s) holding the text",
-    )
-    g.add_argument(
-        "--max-file-bytes",
-        type=int,
-        default=default(d.max_file_bytes),
-        metavar="N",
-        help="skip larger files" + suffix,
-    )
-    g.add_argument(
-        "--include-hidden",
-        action="store_const",
-        const=True,
-        default=default(False),
-        help="also read hidden files and folders",
-    )
+    """Sketch and reading options, generated as for ``dedup audit``; with ``stored`` every default is
+    "as the index records" and only the options given change the recorded settings."""
+    add_setting_options(p, SKETCH_SETTINGS, title=SKETCHES_TITLE, stored=stored)
+    add_setting_options(p, _reading_settings(), stored=stored)
 
 
 def register(commands: argparse._SubParsersAction) -> None:
@@ -212,15 +147,6 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress and no summary")
 
 
-def _given_settings(args: argparse.Namespace) -> dict:
-    given = {}
-    for option, name in {**_SKETCH_OPTIONS, **_READ_OPTIONS}.items():
-        value = getattr(args, option, None)
-        if value is not None:
-            given[name] = tuple(value) if isinstance(value, list) else value
-    return given
-
-
 def _error(message: str) -> int:
     print(f"dedup: error: {message}", file=sys.stderr)
     return EXIT_USAGE
@@ -263,12 +189,11 @@ def _progress(args: argparse.Namespace):
 def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
     from .index import build, open_index, update
 
-    given = _given_settings(args)
     if action == "build":
-        summary = build(args.paths, args.index, AuditSettings(**given).validate(), progress=_progress(args))
+        summary = build(args.paths, args.index, settings_from_args(args).validate(), progress=_progress(args))
     else:
         with open_index(args.index) as index:
-            settings = index.settings.replace(**given).validate()
+            settings = settings_from_args(args, index.settings).validate()
         summary = update(args.paths, args.index, settings, progress=_progress(args))
     if args.json:
         print(json.dumps(summary.to_dict(), indent=1, sort_keys=True))

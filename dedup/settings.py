@@ -3,25 +3,112 @@
 The settings are echoed into every output (``audit.json``) so that an audit can be
 reproduced exactly. The same parameter name means the same thing everywhere in the
 package.
+
+A setting the command line offers carries its `Option` (flag, help, help section, how
+the words given become the value) in its field's metadata, so it is declared once:
+`dedup.cli` generates the options and the mapping back to `AuditSettings` from
+`setting_options`.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import math
-from dataclasses import dataclass, field
+from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["AuditSettings", "SettingsError", "MEASURES", "KEEPER_POLICIES", "CANDIDATE_METHODS"]
+__all__ = [
+    "AuditSettings",
+    "SettingsError",
+    "Option",
+    "setting_options",
+    "GROUPS",
+    "MEASURES",
+    "KEEPER_POLICIES",
+    "CANDIDATE_METHODS",
+]
 
 MEASURES = ("jaccard", "containment", "cosine")
 KEEPER_POLICIES = ("longest", "newest", "oldest", "shortest-path")
 CANDIDATE_METHODS = ("auto", "lsh", "exhaustive")
 HASH_SCHEMES = ("stable64", "binned", "datasketch-sha1")
 
+# Sections of the command-line help, in the order they are shown.
+GROUPS = (
+    "what counts as a duplicate",
+    "candidate search (MinHash LSH)",
+    "TF-IDF cosine",
+    "what to keep",
+    "boilerplate",
+    "inputs",
+)
+DUPLICATE, CANDIDATES, TFIDF, KEEP, BOILERPLATE, INPUTS = GROUPS
+# How the words given on the command line become the value of a setting (see `Option.form`).
+FORMS = ("value", "many", "switch", "inverse")
+_OPTION = "option"  # the metadata key of a field's `Option`
+
 
 class SettingsError(ValueError):
     """A setting has a value the audit cannot work with; the message says which and why."""
+
+
+@dataclass(frozen=True)
+class Option:
+    """How one setting is given on the command line, declared with the setting itself.
+
+    Attributes
+    ----------
+    flags : tuple of str
+        The option strings, e.g. ``("--keeper",)``.
+    help : str
+        What the option does, without its default (the command line adds that).
+    group : str
+        The help section (one of `GROUPS`).
+    metavar : str or None
+        Name of the value in the help; None lets the choices show.
+    parse : callable or None
+        Turns the words given into the value (``int``, ``float``); None keeps them as text.
+    choices : tuple of str or None
+        The only values accepted.
+    form : {"value", "many", "switch", "inverse"}
+        ``value``: one value. ``many``: repeatable, the values collected into a tuple in
+        the order given. ``switch``: the flag alone sets True. ``inverse``: the flag alone
+        sets False (``--keep-boilerplate`` turns ``boilerplate`` off).
+    default_text : str or None
+        Words for a default that is not a plain value ("chosen from the threshold");
+        without them the help shows the default of a ``value`` option unless it is None.
+    """
+
+    flags: tuple[str, ...]
+    help: str
+    group: str
+    metavar: str | None = None
+    parse: Callable[[str], Any] | None = None
+    choices: tuple[str, ...] | None = None
+    form: str = "value"
+    default_text: str | None = None
+
+    def __post_init__(self) -> None:
+        # Checked when the settings class is defined, so a mistyped declaration fails at import.
+        if self.group not in GROUPS:
+            raise ValueError(f"option group must be one of {GROUPS}, got {self.group!r}")
+        if self.form not in FORMS:
+            raise ValueError(f"option form must be one of {FORMS}, got {self.form!r}")
+        if not self.flags or not all(flag.startswith("--") for flag in self.flags):
+            raise ValueError(f"option flags must start with '--', got {self.flags!r}")
+
+
+def _setting(default: Any, *flags: str, **option: Any) -> Any:
+    """A settings field with ``default`` whose command-line `Option` has ``flags`` and ``option``."""
+    return dataclasses.field(default=default, metadata={_OPTION: Option(flags=flags, **option)})
+
+
+def setting_options() -> tuple[tuple[str, Option], ...]:
+    """``(field name, Option)`` of every setting the command line offers, in declaration order."""
+    return tuple(
+        (f.name, f.metadata[_OPTION]) for f in dataclasses.fields(AuditSettings) if _OPTION in f.metadata
+    )
 
 
 @dataclass(frozen=True)
@@ -121,48 +208,254 @@ class AuditSettings:
         Read hidden files and folders (names starting with a dot) too.
     include_vcs : bool
         Read version-control folders (.git, .hg, .svn, …) too.
-    fail_on : {"none", "any", "new", "grown"}
-        ``any``: the CLI exits with code 1 when any cluster is found; ``new`` / ``grown``
-        (with an index): when a cluster is new, or new or grown, since the last audit.
+
+    Every field but ``false_positive_weight`` holds its command-line `Option` in its
+    metadata. When to exit with an error code is a choice of the command line
+    (``--fail-on``), not a setting of the audit, so it is not here.
     """
 
-    threshold: float = 0.8
-    measure: str = "jaccard"
-    candidate_threshold: float | None = None
-    shingle_size: int = 5
-    char_ngrams: int | None = None
-    num_perm: int = 128
-    seed: int = 1
-    hash_scheme: str = "binned"
-    bands: int | None = None
-    rows: int | None = None
-    false_positive_weight: float = 0.05
-    bucket_limit: int = 200
-    candidates: str = "auto"
-    exhaustive_max_docs: int = 2000
-    tfidf_features: int = 2**20
-    sublinear_tf: bool = False
-    keeper_policy: str = "longest"
-    prefer: tuple[str, ...] = field(default_factory=tuple)
-    date_field: str | None = None
-    retire_coverage: float = 0.8
-    id_field: str | None = None
-    text_fields: tuple[str, ...] = ("text",)
-    boilerplate: bool = True
-    boilerplate_share: float = 0.05
-    boilerplate_min_texts: int = 3
-    boilerplate_max_text_share: float = 0.5
-    ignore_text_file: str | None = None
-    max_file_bytes: int = 50_000_000
-    max_text_chars: int = 10_000_000
-    max_archive_ratio: float = 200.0
-    max_archive_bytes: int = 2_000_000_000
-    html_keep_all: bool = False
-    include: tuple[str, ...] = field(default_factory=tuple)
-    exclude: tuple[str, ...] = field(default_factory=tuple)
-    include_hidden: bool = False
-    include_vcs: bool = False
-    fail_on: str = "none"
+    threshold: float = _setting(
+        0.8,
+        "--threshold",
+        group=DUPLICATE,
+        parse=float,
+        metavar="THRESHOLD",
+        help="score at or above which a pair is a near-duplicate",
+    )
+    measure: str = _setting(
+        "jaccard", "--measure", group=DUPLICATE, choices=MEASURES, help="the exact score that decides"
+    )
+    candidate_threshold: float | None = _setting(
+        None,
+        "--candidate-threshold",
+        group=CANDIDATES,
+        parse=float,
+        metavar="J",
+        help="Jaccard level the LSH bands are tuned for",
+        default_text="the threshold for jaccard, 0.5 otherwise",
+    )
+    shingle_size: int = _setting(
+        5, "--shingle-size", group=DUPLICATE, parse=int, metavar="K", help="words per shingle"
+    )
+    char_ngrams: int | None = _setting(
+        None,
+        "--char-ngrams",
+        group=DUPLICATE,
+        parse=int,
+        metavar="N",
+        help="use character N-grams instead of word shingles (for text without spaces)",
+    )
+    num_perm: int = _setting(
+        128, "--num-perm", group=CANDIDATES, parse=int, metavar="N", help="MinHash permutations"
+    )
+    seed: int = _setting(
+        1, "--seed", group=CANDIDATES, parse=int, metavar="SEED", help="seed of the MinHash permutations"
+    )
+    hash_scheme: str = _setting(
+        "binned",
+        "--hash-scheme",
+        group=CANDIDATES,
+        choices=HASH_SCHEMES,
+        help="MinHash hashing: stable64 (one hash function per permutation), binned "
+        "(one hash split into bins, several times faster), datasketch-sha1 (reproduces datasketch's MinHash, slow)",
+    )
+    bands: int | None = _setting(
+        None,
+        "--bands",
+        group=CANDIDATES,
+        parse=int,
+        metavar="BANDS",
+        help="LSH bands (with --rows)",
+        default_text="chosen from the threshold",
+    )
+    rows: int | None = _setting(
+        None, "--rows", group=CANDIDATES, parse=int, metavar="ROWS", help="rows per LSH band (with --bands)"
+    )
+    false_positive_weight: float = 0.05  # not offered on the command line
+    bucket_limit: int = _setting(
+        200,
+        "--bucket-limit",
+        group=CANDIDATES,
+        parse=int,
+        metavar="N",
+        help="band buckets larger than this are reported and only partly compared",
+    )
+    candidates: str = _setting(
+        "auto",
+        "--candidates",
+        group=CANDIDATES,
+        choices=CANDIDATE_METHODS,
+        help="how candidate pairs are found; auto compares all pairs exactly for small inputs",
+    )
+    exhaustive_max_docs: int = _setting(
+        2000,
+        "--exhaustive-max-docs",
+        group=CANDIDATES,
+        parse=int,
+        metavar="N",
+        help="largest number of distinct texts for which auto compares all pairs",
+    )
+    tfidf_features: int = _setting(
+        2**20,
+        "--tfidf-features",
+        group=TFIDF,
+        parse=int,
+        metavar="N",
+        help="size of the hashed feature space",
+    )
+    sublinear_tf: bool = _setting(
+        False, "--sublinear-tf", group=TFIDF, form="switch", help="use 1 + ln(tf) for term frequency"
+    )
+    keeper_policy: str = _setting(
+        "longest",
+        "--keeper",
+        group=KEEP,
+        choices=KEEPER_POLICIES,
+        help="how the document to keep is chosen in each cluster",
+    )
+    prefer: tuple[str, ...] = _setting(
+        (),
+        "--prefer",
+        group=KEEP,
+        form="many",
+        metavar="GLOB",
+        help="path pattern that wins as keeper, in the order given (repeatable), e.g. 'current/**'",
+    )
+    date_field: str | None = _setting(
+        None,
+        "--date-field",
+        group=KEEP,
+        metavar="FIELD",
+        help="record field with a date for --keeper newest/oldest (else file modification time)",
+    )
+    retire_coverage: float = _setting(
+        0.8,
+        "--retire-coverage",
+        group=KEEP,
+        parse=float,
+        metavar="SHARE",
+        help="propose retiring a near-duplicate only if this share of it is in the keeper",
+    )
+    id_field: str | None = _setting(
+        None,
+        "--id-field",
+        group=INPUTS,
+        metavar="FIELD",
+        help="record field holding the document id (.jsonl/.csv)",
+        default_text="the line or row number",
+    )
+    text_fields: tuple[str, ...] = _setting(
+        ("text",),
+        "--text-field",
+        group=INPUTS,
+        form="many",
+        metavar="FIELD",
+        help="record field(s) holding the text (repeatable; joined)",
+        default_text="text",
+    )
+    boilerplate: bool = _setting(
+        True,
+        "--keep-boilerplate",
+        group=BOILERPLATE,
+        form="inverse",
+        help="do not leave out lines shared by many documents",
+    )
+    boilerplate_share: float = _setting(
+        0.05,
+        "--boilerplate-share",
+        group=BOILERPLATE,
+        parse=float,
+        metavar="SHARE",
+        help="a line in at least this share of the distinct texts is boilerplate",
+    )
+    boilerplate_min_texts: int = _setting(
+        3,
+        "--boilerplate-min-texts",
+        group=BOILERPLATE,
+        parse=int,
+        metavar="N",
+        help="... and in at least this many",
+    )
+    boilerplate_max_text_share: float = _setting(
+        0.5,
+        "--boilerplate-max-text-share",
+        group=BOILERPLATE,
+        parse=float,
+        metavar="SHARE",
+        help="a text that would lose more than this share to boilerplate is compared whole",
+    )
+    ignore_text_file: str | None = _setting(
+        None,
+        "--ignore-text",
+        group=BOILERPLATE,
+        metavar="FILE",
+        help="a file of known shared text (one line per notice, footer, …) always left out",
+    )
+    max_file_bytes: int = _setting(
+        50_000_000,
+        "--max-file-bytes",
+        group=INPUTS,
+        parse=int,
+        metavar="N",
+        help="skip files larger than this",
+    )
+    max_text_chars: int = _setting(
+        10_000_000,
+        "--max-text-chars",
+        group=INPUTS,
+        parse=int,
+        metavar="N",
+        help="cut longer texts to this many characters (marked truncated)",
+    )
+    max_archive_ratio: float = _setting(
+        200.0,
+        "--max-archive-ratio",
+        group=INPUTS,
+        parse=float,
+        metavar="R",
+        help="refuse archive members that expand more than R times",
+    )
+    max_archive_bytes: int = _setting(
+        2_000_000_000,
+        "--max-archive-bytes",
+        group=INPUTS,
+        parse=int,
+        metavar="N",
+        help="stop expanding an archive beyond N bytes in all",
+    )
+    html_keep_all: bool = _setting(
+        False,
+        "--html-keep-all",
+        group=INPUTS,
+        form="switch",
+        help="keep navigation, headers, footers and asides of HTML pages",
+    )
+    include: tuple[str, ...] = _setting(
+        (),
+        "--include",
+        group=INPUTS,
+        form="many",
+        metavar="GLOB",
+        help="read only paths matching this glob (repeatable)",
+    )
+    exclude: tuple[str, ...] = _setting(
+        (),
+        "--exclude",
+        group=INPUTS,
+        form="many",
+        metavar="GLOB",
+        help="do not read paths matching this glob (repeatable)",
+    )
+    include_hidden: bool = _setting(
+        False, "--include-hidden", group=INPUTS, form="switch", help="also read hidden files and folders"
+    )
+    include_vcs: bool = _setting(
+        False,
+        "--include-vcs",
+        group=INPUTS,
+        form="switch",
+        help="also read version-control folders (.git, .hg, .svn, …)",
+    )
 
     def __post_init__(self) -> None:
         # Lists given by callers become tuples so the object stays hashable and frozen.
@@ -232,8 +525,6 @@ class AuditSettings:
             fail(f"candidates must be one of {', '.join(CANDIDATE_METHODS)}, got {self.candidates!r}")
         if self.hash_scheme not in HASH_SCHEMES:
             fail(f"hash_scheme must be one of {', '.join(HASH_SCHEMES)}, got {self.hash_scheme!r}")
-        if self.fail_on not in ("none", "any", "new", "grown"):
-            fail(f"fail_on must be one of none, any, new, grown, got {self.fail_on!r}")
         positive = {
             "shingle_size": self.shingle_size,
             "num_perm": self.num_perm,
