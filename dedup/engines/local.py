@@ -20,32 +20,36 @@ local numbers stay inside this module.
 from __future__ import annotations
 
 import functools
-import hashlib
-import json
 import resource
 import time
 from collections.abc import Sequence
-from dataclasses import dataclass
 
 import numpy as np
 
-from ..candidates import exhaustive_candidate_pairs, lsh_candidate_pairs, recall_statement
-from ..cluster import build_clusters
-from ..cluster.actions import ClusterInputs
+from ..candidates import exhaustive_candidate_pairs, lsh_candidate_pairs
 from ..features.segment_sort import sorted_distinct
 from ..features.shingles import from_word_hashes
-from ..ingest import LedgerEntry, iter_documents, summarize
-from ..normalize import exact_groups
+from ..ingest import LedgerEntry, iter_documents
 from ..normalize.batch import prepare_documents
 from ..normalize.boilerplate import Boilerplate
 from ..plan import Plan
 from ..progress import Progress
 from ..report import records
-from ..report.wording import describe_roles
 from ..result import AuditResult
 from ..verify import PairScores, deciding_score, may_reach, score_pairs
 from ..workdir import WorkFolder
 from .compared import ComparedSets, SlotRows, compared_sets
+from .driver import (
+    DistinctTexts,
+    Findings,
+    Verified,
+    assemble,
+    candidates_block,
+    cluster_step,
+    mark_empty,
+    pair_records,
+    tfidf_block,
+)
 from .reading import ReadResult, read_pass
 from .sketching import ChunkSketcher, SketchResult, sketch_pass, text_order
 from .threads import kernels_thread_safe
@@ -102,75 +106,6 @@ class Stopwatch:
 def peak_rss_mb() -> float:
     # ru_maxrss is in kilobytes on Linux.
     return round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0, 1)
-
-
-@dataclass
-class DistinctTexts:
-    """Documents with words (``kept``, in id order) and their distinct texts.
-
-    Distinct text ``t`` is the text of kept document ``first_doc[t]``; kept document ``d``
-    has text ``text_of_doc[d]``; ``slots[t]`` is where the text lies in the canonical store.
-    """
-
-    kept: list[dict]
-    groups: list[list[int]]
-    representative: np.ndarray
-    first_doc: np.ndarray
-    text_of_doc: np.ndarray
-    slots: np.ndarray
-
-    @classmethod
-    def of(cls, kept: list[dict], canonical_slot: dict[str, int]) -> DistinctTexts:
-        hashes = [rec["content_hash"] for rec in kept]
-        representative, groups = exact_groups(hashes)
-        first_doc = np.flatnonzero(representative == np.arange(len(kept)))
-        position = np.full(len(kept), -1, dtype=np.int64)
-        position[first_doc] = np.arange(first_doc.shape[0])
-        text_of_doc = position[representative] if len(kept) else np.zeros(0, np.int64)
-        slots = np.asarray([canonical_slot[hashes[i]] for i in first_doc.tolist()], dtype=np.int64)
-        return cls(kept, groups, representative, first_doc, text_of_doc, slots)
-
-    @property
-    def n(self) -> int:
-        return int(self.first_doc.shape[0])
-
-    @functools.cached_property
-    def ids(self) -> list[str]:
-        return [rec["id"] for rec in self.kept]
-
-    @functools.cached_property
-    def text_ids(self) -> list[str]:
-        """The id of each distinct text's first document."""
-        ids = self.ids
-        return [ids[i] for i in self.first_doc.tolist()]
-
-
-def mark_empty(documents: list[dict], wordless: set[str], ledger: list[LedgerEntry]) -> list[dict]:
-    """Documents without words become ``empty`` (record and ledger, with the reason); the
-    others are returned, in id order."""
-    kept, empty_reason = [], {}
-    for record in documents:
-        if record["characters"] and record["content_hash"] not in wordless:
-            kept.append(record)
-            continue
-        record["status"] = "empty"
-        empty_reason[record["id"]] = (
-            "no text" if record["characters"] == 0 else "no words after normalization"
-        )
-    if empty_reason:
-        for entry in ledger:
-            reason = empty_reason.get(entry.document_id) if entry.document_id else None
-            if reason is not None:
-                entry.status = "empty"
-                entry.reason = reason
-    return kept
-
-
-@dataclass
-class _Verified:
-    confirmed: PairScores  # left/right are distinct-text numbers
-    decided: np.ndarray
-    candidates: int
 
 
 class _Run:
@@ -299,7 +234,7 @@ class _Run:
         self.watch.lap("candidates")
         return left, right, oversize, compared
 
-    def verify(self, left: np.ndarray, right: np.ndarray, compared: ComparedSets) -> _Verified:
+    def verify(self, left: np.ndarray, right: np.ndarray, compared: ComparedSets) -> Verified:
         """The verify step: most candidates fall well short of the threshold; they are ruled
         out first, by a merge that stops as soon as they cannot reach it; the rest are
         scored in full."""
@@ -327,82 +262,29 @@ class _Run:
         sure = decided >= settings.threshold
         self.progress.done(f"{int(sure.sum()):,} confirmed")
         self.watch.lap("verify")
-        return _Verified(scores.select(sure), decided[sure], n_candidates)
+        return Verified(scores.select(sure), decided[sure], n_candidates)
 
-    def cluster(self, texts: DistinctTexts, verified: _Verified, compared: ComparedSets):
-        """The cluster step over confirmed near pairs and exact groups (kept-document numbers)."""
-        first_doc = texts.first_doc
-        near_left, near_right = first_doc[verified.confirmed.left], first_doc[verified.confirmed.right]
-        edge_score: dict[tuple[int, int], float] = {}
-        for a, b, s in zip(near_left.tolist(), near_right.tolist(), verified.decided.tolist()):
-            edge_score[(min(a, b), max(a, b))] = float(s)
-        exact_left, exact_right = _exact_edges(texts.groups, edge_score)
-        all_left = np.concatenate([near_left, np.asarray(exact_left, np.int64)])
-        all_right = np.concatenate([near_right, np.asarray(exact_right, np.int64)])
+    def cluster(self, texts: DistinctTexts, verified: Verified, compared: ComparedSets):
+        """The cluster step (`driver.cluster_step`), members scored from the compared sets."""
 
         def score_against(members: np.ndarray, keepers: np.ndarray) -> PairScores:
-            of = compared.of
-            rows = compared.model.rows
             return score_pairs(
                 compared.shingles,
                 compared.shingle_offsets,
-                rows,
-                of(texts.text_of_doc[members]),
-                of(texts.text_of_doc[keepers]),
+                compared.model.rows,
+                compared.of(texts.text_of_doc[members]),
+                compared.of(texts.text_of_doc[keepers]),
             )
 
-        kept = texts.kept
-        cluster_inputs = ClusterInputs(
-            ids=texts.ids,
-            lengths=[rec["characters"] for rec in kept],
-            sizes=[rec["bytes"] for rec in kept],
-            dates=[rec.get("date") for rec in kept],
-            representative=texts.representative,
-        )
-        clusters, roles = build_clusters(
-            cluster_inputs, all_left, all_right, edge_score, score_against, self.settings
-        )
+        clustered = cluster_step(texts, verified, score_against, self.settings)
         self.watch.lap("cluster")
-        return clusters, roles, list(zip(exact_left, exact_right))
+        return clustered
 
 
 def _with_ends(scores: PairScores, left: np.ndarray, right: np.ndarray) -> PairScores:
     import dataclasses
 
     return dataclasses.replace(scores, left=left, right=right)
-
-
-def _exact_edges(groups: list[list[int]], edge_score: dict) -> tuple[list[int], list[int]]:
-    """Each exact group as edges from its first member (score 1)."""
-    exact_left, exact_right = [], []
-    for group in groups:
-        for member in group[1:]:
-            exact_left.append(group[0])
-            exact_right.append(member)
-            edge_score[(group[0], member)] = 1.0
-    return exact_left, exact_right
-
-
-def _pair_records(
-    texts: DistinctTexts, verified: _Verified, exact_edges, compared: ComparedSets
-) -> list[dict]:
-    """Confirmed near pairs and exact pairs, highest score first."""
-    pairs = records.near_pair_records(texts.text_ids, verified.confirmed, verified.decided)
-    sizes = np.diff(compared.shingle_offsets)
-    ids = texts.ids
-    for a, b in exact_edges:
-        shingles = int(sizes[compared.of(texts.text_of_doc[a])])
-        pairs.append(records.exact_pair_record(ids[a], ids[b], shingles))
-    pairs.sort(key=lambda p: (-p["deciding_score"], p["left"], p["right"]))
-    return pairs
-
-
-def _audit_id(settings, documents: list[dict]) -> str:
-    digest = hashlib.blake2b(digest_size=8)
-    digest.update(json.dumps(settings.to_dict(), sort_keys=True).encode())
-    for rec in documents:
-        digest.update(f"{rec['id']}\0{rec['content_hash']}\n".encode())
-    return digest.hexdigest()
 
 
 def _clustered_texts(documents, original_slot, clusters, originals) -> dict[str, str]:
@@ -429,8 +311,7 @@ def run_audit(
     run = _Run(plan, work, progress, workers)
     ledger: list[LedgerEntry] = []
     read, early = run.read(paths, ledger)
-    documents = read.documents
-    texts = DistinctTexts.of(mark_empty(documents, read.wordless, ledger), read.canonical_slot)
+    texts = DistinctTexts.of(mark_empty(read.documents, read.wordless, ledger), read.canonical_slot)
     boilerplate: Boilerplate | None = None
     if read.counter is not None:
         boilerplate = read.counter.find(
@@ -440,47 +321,27 @@ def run_audit(
         )
     method = plan.candidate_method(texts.n)
     sketch = run.sketch(texts, early, boilerplate, method)
-    tfidf = sketch.frequencies.collision_stats()
-    tfidf["sublinear_tf"] = settings.sublinear_tf
-    tfidf["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
     left, right, oversize, compared = run.candidates(texts, sketch, boilerplate, method)
-    recall = recall_statement(settings.effective_candidate_threshold, plan.bands, plan.rows)
-    candidates = records.candidates_block(method, texts.n, plan, recall, int(left.shape[0]), len(oversize))
     verified = run.verify(left, right, compared)
     clusters, roles, exact_edges = run.cluster(texts, verified, compared)
-    describe_roles(roles)  # reasons as data become sentences for the outputs
-    pairs = _pair_records(texts, verified, exact_edges, compared)
-    kept_index = {rec["id"]: i for i, rec in enumerate(texts.kept)}
-    actions = records.action_records(documents, kept_index, roles)
-    counts = {
-        "candidate_pairs": verified.candidates,
-        "confirmed_pairs": len(pairs),
-        "near_pairs": len(verified.confirmed),
-    }
-    summary = records.summary_block(
-        summarize(ledger), documents, len(texts.kept), texts.n, texts.groups, counts, clusters, roles, actions
-    )
-    result = AuditResult(
-        settings=settings,
-        inputs=list(paths),
+    sizes = np.diff(compared.shingle_offsets)
+    found = Findings(
         ledger=ledger,
-        documents=documents,
-        exact_groups=records.exact_group_records(
-            texts.groups, texts.ids, [rec["content_hash"] for rec in texts.kept]
-        ),
-        pairs=pairs,
-        clusters=clusters,
-        actions=actions,
-        candidates=candidates,
-        tfidf=tfidf,
+        documents=read.documents,
+        texts=texts,
         boilerplate=records.boilerplate_block(
             settings, boilerplate, sketch.texts_affected, sketch.texts_compared_whole
         ),
-        warnings=records.warning_records(oversize, texts.text_ids, tfidf, settings),
-        summary=summary,
-        audit_id=_audit_id(settings, documents),
-        texts=_clustered_texts(documents, read.original_slot, clusters, run.originals),
+        tfidf=tfidf_block(sketch.frequencies, settings),
+        candidates=candidates_block(plan, method, texts.n, int(left.shape[0]), len(oversize)),
+        oversize=oversize,
+        verified=verified,
+        clusters=clusters,
+        roles=roles,
+        pairs=pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)]),
+        original_texts=_clustered_texts(read.documents, read.original_slot, clusters, run.originals),
     )
+    result = assemble(plan, paths, found)
     run.watch.lap("records")
     result.run = run.watch.run_block()
     return result

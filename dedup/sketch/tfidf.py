@@ -378,6 +378,42 @@ class DocumentFrequency:
         self._count_tokens(token_hashes)
         self.n_docs += n
 
+    def merge(self, other: DocumentFrequency) -> DocumentFrequency:
+        """Add the counts of ``other`` (other documents, e.g. another partition's); returns
+        self. Both must have the same feature space and tf rule. O(n_features) dense, else
+        O(1) (the parts are joined when the model is made).
+
+        >>> a, b, whole = DocumentFrequency(8), DocumentFrequency(8), DocumentFrequency(8)
+        >>> tokens, offsets = np.array([1, 2, 1, 3], np.uint64), np.array([0, 2, 4])
+        >>> a.add(tokens[:2], offsets[:2]); b.add(tokens[2:], offsets[:2]); whole.add(tokens, offsets)
+        >>> merged = a.merge(b)
+        >>> [x.tolist() for x in merged._columns_and_df()] == [x.tolist() for x in whole._columns_and_df()]
+        True
+        """
+        if (self.n_features, self.sublinear_tf) != (other.n_features, other.sublinear_tf):
+            raise ValueError(
+                "cannot merge document frequencies of different feature spaces: "
+                f"{self.n_features} features (sublinear {self.sublinear_tf}) and "
+                f"{other.n_features} (sublinear {other.sublinear_tf})"
+            )
+        if self._dense:
+            self._df += other._df
+            # Document numbers of ``other`` are all below the merged count: they never
+            # equal a later document's number, so the last-seen marks stay valid.
+        else:
+            self._parts.extend(other._parts)
+        if self._vocabulary is not None and other._vocabulary is not None:
+            self.tokens += other.tokens
+            if self.tokens <= EXACT_VOCABULARY_LIMIT:
+                self._vocabulary.add(other._vocabulary.values())
+            else:
+                self._vocabulary = None
+        else:
+            self.tokens += other.tokens
+            self._vocabulary = None
+        self.n_docs += other.n_docs
+        return self
+
     def _count_tokens(self, token_hashes: np.ndarray) -> None:
         self.tokens += int(token_hashes.shape[0])
         if self._vocabulary is not None:

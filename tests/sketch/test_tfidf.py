@@ -12,6 +12,7 @@ from sklearn.metrics.pairwise import cosine_similarity
 from dedup.features import build_features, tokens_of
 from dedup.normalize import canonical_text, token_text
 from dedup.sketch import collision_stats, fit_tfidf, pair_cosines
+from dedup.sketch.tfidf import DocumentFrequency
 
 TEXTS = [
     "Reset your VPN password from the self-service portal before it expires.",
@@ -115,3 +116,27 @@ def test_term_counts_equal_scipy_summing_repeated_entries(docs, n_features):
     assert np.array_equal(got.indptr, expected.indptr)
     assert np.array_equal(got.indices, expected.indices)
     assert np.array_equal(got.data, expected.data)
+
+
+@pytest.mark.parametrize("n_features", [64, 2**30])
+def test_merged_frequencies_equal_one_count_over_all(n_features):
+    """Reference: one `DocumentFrequency` fed every chunk in order (partitions merged must agree)."""
+    rng = np.random.default_rng(11)
+    hashes = rng.integers(0, 70, 2000).astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15)
+    offsets = np.array([0, 300, 300, 900, 1400, 2000])
+    whole, left, right = (DocumentFrequency(n_features) for _ in range(3))
+    whole.add(hashes, offsets)
+    left.add(hashes[:900], offsets[:4])
+    right.add(hashes[900:], offsets[3:] - 900)
+    merged = left.merge(right)
+    for x, y in zip(whole._columns_and_df(), merged._columns_and_df()):
+        assert x.tolist() == y.tolist()
+    assert (merged.n_docs, merged.tokens) == (whole.n_docs, whole.tokens) == (5, 2000)
+    assert merged.collision_stats() == whole.collision_stats()
+    query = hashes[300:900], np.array([0, 600])
+    assert abs(merged.model(*query).rows - whole.model(*query).rows).max() < 1e-15
+
+
+def test_frequencies_of_different_spaces_do_not_merge():
+    with pytest.raises(ValueError, match="different feature spaces"):
+        DocumentFrequency(64).merge(DocumentFrequency(128))

@@ -1,0 +1,251 @@
+"""Driver steps every engine shares: documents and their distinct texts, clusters, records.
+
+These steps run on one machine over the (small) results of the map and shuffle steps:
+which documents have words, exact groups by content hash, the graph of confirmed pairs
+grouped into clusters, and the records of ``audit.json``. An engine supplies the
+scores it computed; the same inputs give byte-identical records on any engine.
+"""
+
+from __future__ import annotations
+
+import functools
+import hashlib
+import json
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..candidates import recall_statement
+from ..cluster import build_clusters
+from ..cluster.actions import ClusterInputs
+from ..ingest import LedgerEntry, summarize
+from ..normalize import exact_groups
+from ..report import records
+from ..report.wording import describe_roles
+from ..result import AuditResult
+from ..verify import PairScores
+
+__all__ = [
+    "DistinctTexts",
+    "Verified",
+    "mark_empty",
+    "cluster_step",
+    "pair_records",
+    "audit_id_of",
+    "Findings",
+    "assemble",
+    "tfidf_block",
+    "candidates_block",
+]
+
+
+@dataclass
+class DistinctTexts:
+    """Documents with words (``kept``, in id order) and their distinct texts.
+
+    Distinct text ``t`` is the text of kept document ``first_doc[t]``; kept document ``d``
+    has text ``text_of_doc[d]``; ``slots[t]`` is where the text lies in the canonical store.
+    """
+
+    kept: list[dict]
+    groups: list[list[int]]
+    representative: np.ndarray
+    first_doc: np.ndarray
+    text_of_doc: np.ndarray
+    slots: np.ndarray
+
+    @classmethod
+    def of(cls, kept: list[dict], canonical_slot: dict[str, int]) -> DistinctTexts:
+        hashes = [rec["content_hash"] for rec in kept]
+        representative, groups = exact_groups(hashes)
+        first_doc = np.flatnonzero(representative == np.arange(len(kept)))
+        position = np.full(len(kept), -1, dtype=np.int64)
+        position[first_doc] = np.arange(first_doc.shape[0])
+        text_of_doc = position[representative] if len(kept) else np.zeros(0, np.int64)
+        slots = np.asarray([canonical_slot[hashes[i]] for i in first_doc.tolist()], dtype=np.int64)
+        return cls(kept, groups, representative, first_doc, text_of_doc, slots)
+
+    @property
+    def n(self) -> int:
+        return int(self.first_doc.shape[0])
+
+    @functools.cached_property
+    def ids(self) -> list[str]:
+        return [rec["id"] for rec in self.kept]
+
+    @functools.cached_property
+    def text_ids(self) -> list[str]:
+        """The id of each distinct text's first document."""
+        ids = self.ids
+        return [ids[i] for i in self.first_doc.tolist()]
+
+
+def mark_empty(documents: list[dict], wordless: set[str], ledger: list[LedgerEntry]) -> list[dict]:
+    """Documents without words become ``empty`` (record and ledger, with the reason); the
+    others are returned, in id order."""
+    kept, empty_reason = [], {}
+    for record in documents:
+        if record["characters"] and record["content_hash"] not in wordless:
+            kept.append(record)
+            continue
+        record["status"] = "empty"
+        empty_reason[record["id"]] = (
+            "no text" if record["characters"] == 0 else "no words after normalization"
+        )
+    if empty_reason:
+        for entry in ledger:
+            reason = empty_reason.get(entry.document_id) if entry.document_id else None
+            if reason is not None:
+                entry.status = "empty"
+                entry.reason = reason
+    return kept
+
+
+@dataclass
+class Verified:
+    confirmed: PairScores  # left/right are distinct-text numbers
+    decided: np.ndarray
+    candidates: int
+
+
+def exact_edges_of(groups: list[list[int]], edge_score: dict) -> tuple[list[int], list[int]]:
+    """Each exact group as edges from its first member (score 1)."""
+    exact_left, exact_right = [], []
+    for group in groups:
+        for member in group[1:]:
+            exact_left.append(group[0])
+            exact_right.append(member)
+            edge_score[(group[0], member)] = 1.0
+    return exact_left, exact_right
+
+
+def pair_records(
+    texts: DistinctTexts, verified: Verified, exact_edges, shingles_of: Callable[[np.ndarray], np.ndarray]
+) -> list[dict]:
+    """Confirmed near pairs and exact pairs, highest score first (``shingles_of`` gives
+    the shingle count of distinct texts)."""
+    pairs = records.near_pair_records(texts.text_ids, verified.confirmed, verified.decided)
+    ids = texts.ids
+    firsts = np.asarray([a for a, _ in exact_edges], dtype=np.int64)
+    counts = shingles_of(texts.text_of_doc[firsts]).tolist() if len(firsts) else []
+    for (a, b), shingles in zip(exact_edges, counts):
+        pairs.append(records.exact_pair_record(ids[a], ids[b], int(shingles)))
+    pairs.sort(key=lambda p: (-p["deciding_score"], p["left"], p["right"]))
+    return pairs
+
+
+def audit_id_of(settings, documents: list[dict]) -> str:
+    digest = hashlib.blake2b(digest_size=8)
+    digest.update(json.dumps(settings.to_dict(), sort_keys=True).encode())
+    for rec in documents:
+        digest.update(f"{rec['id']}\0{rec['content_hash']}\n".encode())
+    return digest.hexdigest()
+
+
+def cluster_step(
+    texts: DistinctTexts,
+    verified: Verified,
+    score_against: Callable[[np.ndarray, np.ndarray], PairScores],
+    settings,
+) -> tuple[list[dict], dict[int, dict], list[tuple[int, int]]]:
+    """The cluster step over confirmed near pairs and exact groups (kept-document numbers).
+
+    ``score_against(members, keepers)`` scores kept documents against their keepers.
+    Returns the clusters, the role of each clustered document (reasons worded), and the
+    exact edges (first member → member).
+    """
+    first_doc = texts.first_doc
+    near_left, near_right = first_doc[verified.confirmed.left], first_doc[verified.confirmed.right]
+    edge_score: dict[tuple[int, int], float] = {}
+    for a, b, s in zip(near_left.tolist(), near_right.tolist(), verified.decided.tolist()):
+        edge_score[(min(a, b), max(a, b))] = float(s)
+    exact_left, exact_right = exact_edges_of(texts.groups, edge_score)
+    all_left = np.concatenate([near_left, np.asarray(exact_left, np.int64)])
+    all_right = np.concatenate([near_right, np.asarray(exact_right, np.int64)])
+    kept = texts.kept
+    cluster_inputs = ClusterInputs(
+        ids=texts.ids,
+        lengths=[rec["characters"] for rec in kept],
+        sizes=[rec["bytes"] for rec in kept],
+        dates=[rec.get("date") for rec in kept],
+        representative=texts.representative,
+    )
+    clusters, roles = build_clusters(cluster_inputs, all_left, all_right, edge_score, score_against, settings)
+    describe_roles(roles)  # reasons as data become sentences for the outputs
+    return clusters, roles, list(zip(exact_left, exact_right))
+
+
+@dataclass
+class Findings:
+    """What an engine's steps found, for `assemble`."""
+
+    ledger: list[LedgerEntry]
+    documents: list[dict]
+    texts: DistinctTexts
+    boilerplate: dict
+    tfidf: dict
+    candidates: dict
+    oversize: list[dict]
+    verified: Verified
+    clusters: list[dict]
+    roles: dict[int, dict]
+    pairs: list[dict]
+    original_texts: dict[str, str]
+
+
+def assemble(plan, paths: Sequence[str], found: Findings) -> AuditResult:
+    """The records step: every record of ``audit.json`` from what the steps found."""
+    settings, texts = plan.settings, found.texts
+    kept_index = {rec["id"]: i for i, rec in enumerate(texts.kept)}
+    actions = records.action_records(found.documents, kept_index, found.roles)
+    counts = {
+        "candidate_pairs": found.verified.candidates,
+        "confirmed_pairs": len(found.pairs),
+        "near_pairs": len(found.verified.confirmed),
+    }
+    summary = records.summary_block(
+        summarize(found.ledger),
+        found.documents,
+        len(texts.kept),
+        texts.n,
+        texts.groups,
+        counts,
+        found.clusters,
+        found.roles,
+        actions,
+    )
+    return AuditResult(
+        settings=settings,
+        inputs=list(paths),
+        ledger=found.ledger,
+        documents=found.documents,
+        exact_groups=records.exact_group_records(
+            texts.groups, texts.ids, [r["content_hash"] for r in texts.kept]
+        ),
+        pairs=found.pairs,
+        clusters=found.clusters,
+        actions=actions,
+        candidates=found.candidates,
+        tfidf=found.tfidf,
+        boilerplate=found.boilerplate,
+        warnings=records.warning_records(found.oversize, texts.text_ids, found.tfidf, settings),
+        summary=summary,
+        audit_id=audit_id_of(settings, found.documents),
+        texts=found.original_texts,
+    )
+
+
+def tfidf_block(frequencies, settings) -> dict:
+    """The hashed TF-IDF space and its collisions, with the weighting used."""
+    block = frequencies.collision_stats()
+    block["sublinear_tf"] = settings.sublinear_tf
+    block["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
+    return block
+
+
+def candidates_block(plan, method: str, n_texts: int, candidate_pairs: int, oversize: int) -> dict:
+    """How candidates were found, and the recall to expect at the plan's bands."""
+    settings = plan.settings
+    recall = recall_statement(settings.effective_candidate_threshold, plan.bands, plan.rows)
+    return records.candidates_block(method, n_texts, plan, recall, candidate_pairs, oversize)
