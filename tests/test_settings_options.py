@@ -17,7 +17,9 @@ from dedup.cli import FAIL_ON, add_setting_options, build_parser, main, settings
 from dedup.cli_index import SKETCH_SETTINGS
 from dedup.settings import AuditSettings, Option, setting_options
 
-# `dedup audit` before the options were generated, in the order they were declared.
+# `dedup audit` before the options were generated, in the order they were declared, and
+# the command-line options added since (they are no settings).
+ADDED_RUN_FLAGS = ["--no-report"]
 AUDIT_FLAGS = [
     "--out",
     "--threshold",
@@ -61,9 +63,19 @@ AUDIT_FLAGS = [
     "--work-dir",
     "--keep-work",
     "--workers",
+    *ADDED_RUN_FLAGS,
 ]
 # Options of `dedup audit` that are about the run, not the audit: not settings.
-AUDIT_RUN_FLAGS = {"--out", "--fail-on", "--index", "--quiet", "--work-dir", "--keep-work", "--workers"}
+AUDIT_RUN_FLAGS = {
+    "--out",
+    "--fail-on",
+    "--index",
+    "--quiet",
+    "--work-dir",
+    "--keep-work",
+    "--workers",
+    *ADDED_RUN_FLAGS,
+}
 # `dedup index build` / `update` before, and the reading options they take since.
 INDEX_FLAGS = [
     "--index",
