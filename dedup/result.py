@@ -41,6 +41,9 @@ class AuditResult:
     run : dict
         Timings and peak memory of this run; not part of ``audit.json`` (which must
         be byte-identical between runs) but written to ``run.json``.
+    passages : list of dict
+        Shared passages of the confirmed pairs and of each cluster member with its keeper
+        (character offsets into the texts as read; see `dedup.report.records.passage_records`).
     texts : dict
         Original text of every clustered document, for the report's evidence view.
     delta : dict or None
@@ -62,6 +65,7 @@ class AuditResult:
     boilerplate: dict
     audit_id: str
     run: dict = field(default_factory=dict)
+    passages: list[dict] = field(default_factory=list)
     texts: dict = field(default_factory=dict)
     delta: dict | None = None
 
@@ -88,6 +92,7 @@ class AuditResult:
             "pairs": self.pairs,
             "clusters": self.clusters,
             "actions": self.actions,
+            "passages": self.passages,
             **({"delta": self.delta} if self.delta is not None else {}),
         }
 

@@ -179,6 +179,9 @@ class AuditSettings:
         A member is proposed for retirement only when at least this share of its
         shingles is also in the keeper; otherwise it is sent to review, because
         retiring it would lose text the keeper lacks.
+    passage_min_words : int
+        Fewest words (in each text) of a shared passage reported in ``passages.csv`` and
+        the report (default 15: a few common phrases in a row match in unrelated texts).
     id_field, text_fields : str or None, tuple of str
         Record fields for ``.jsonl`` / ``.csv`` inputs. Several text fields are
         joined with a blank line.
@@ -335,6 +338,14 @@ class AuditSettings:
         parse=float,
         metavar="SHARE",
         help="propose retiring a near-duplicate only if this share of it is in the keeper",
+    )
+    passage_min_words: int = _setting(
+        15,
+        "--min-passage-words",
+        group=DUPLICATE,
+        parse=int,
+        metavar="N",
+        help="fewest words of a shared passage reported as evidence (shorter shared runs are left out)",
     )
     id_field: str | None = _setting(
         None,
@@ -527,6 +538,7 @@ class AuditSettings:
             fail(f"hash_scheme must be one of {', '.join(HASH_SCHEMES)}, got {self.hash_scheme!r}")
         positive = {
             "shingle_size": self.shingle_size,
+            "passage_min_words": self.passage_min_words,
             "num_perm": self.num_perm,
             "bucket_limit": self.bucket_limit,
             "tfidf_features": self.tfidf_features,

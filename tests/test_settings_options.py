@@ -20,6 +20,7 @@ from dedup.settings import AuditSettings, Option, setting_options
 # `dedup audit` before the options were generated, in the order they were declared, and
 # the command-line options added since (they are no settings).
 ADDED_RUN_FLAGS = ["--no-report"]
+ADDED_SETTING_FLAGS = ["--min-passage-words"]
 AUDIT_FLAGS = [
     "--out",
     "--threshold",
@@ -64,6 +65,7 @@ AUDIT_FLAGS = [
     "--keep-work",
     "--workers",
     *ADDED_RUN_FLAGS,
+    *ADDED_SETTING_FLAGS,
 ]
 # Options of `dedup audit` that are about the run, not the audit: not settings.
 AUDIT_RUN_FLAGS = {
@@ -126,6 +128,7 @@ FLAG_CASES = [
     (["--prefer", "current/**", "--prefer", "docs/**"], "prefer", ("current/**", "docs/**")),
     (["--date-field", "updated"], "date_field", "updated"),
     (["--retire-coverage", "0.5"], "retire_coverage", 0.5),
+    (["--min-passage-words", "25"], "passage_min_words", 25),
     (["--keep-boilerplate"], "boilerplate", False),
     (["--boilerplate-share", "0.1"], "boilerplate_share", 0.1),
     (["--boilerplate-min-texts", "4"], "boilerplate_min_texts", 4),

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..align import AlignSettings, align_pairs, word_spans
 from ..candidates import recall_statement
 from ..cluster import build_clusters
 from ..cluster.actions import ClusterInputs
@@ -37,6 +38,8 @@ __all__ = [
     "assemble",
     "tfidf_block",
     "candidates_block",
+    "evidence_pairs",
+    "align_step",
 ]
 
 
@@ -191,6 +194,7 @@ class Findings:
     clusters: list[dict]
     roles: dict[int, dict]
     pairs: list[dict]
+    passages: list[dict]
     original_texts: dict[str, str]
 
 
@@ -232,6 +236,7 @@ def assemble(plan, paths: Sequence[str], found: Findings) -> AuditResult:
         warnings=records.warning_records(found.oversize, texts.text_ids, found.tfidf, settings),
         summary=summary,
         audit_id=audit_id_of(settings, found.documents),
+        passages=found.passages,
         texts=found.original_texts,
     )
 
@@ -249,3 +254,43 @@ def candidates_block(plan, method: str, n_texts: int, candidate_pairs: int, over
     settings = plan.settings
     recall = recall_statement(settings.effective_candidate_threshold, plan.bands, plan.rows)
     return records.candidates_block(method, n_texts, plan, recall, candidate_pairs, oversize)
+
+
+def evidence_pairs(pairs: list[dict], clusters: list[dict]) -> list[tuple[str, str]]:
+    """The pairs whose shared passages are reported: every confirmed pair (as oriented in
+    ``pairs``) and each cluster member with its keeper, once each, in a fixed order."""
+    chosen: dict[tuple[str, str], tuple[str, str]] = {}
+    for p in pairs:
+        chosen.setdefault(tuple(sorted((p["left"], p["right"]))), (p["left"], p["right"]))
+    for c in clusters:
+        for m in c["members"]:
+            if m["document_id"] != c["keeper"]:
+                key = tuple(sorted((m["document_id"], c["keeper"])))
+                chosen.setdefault(key, (m["document_id"], c["keeper"]))
+    return [chosen[key] for key in sorted(chosen)]
+
+
+def align_step(
+    pairs: list[dict], clusters: list[dict], texts: dict[str, str], settings, workers: int = 1
+) -> list[dict]:
+    """The align step: shared passages of the evidence pairs (`evidence_pairs`), as records;
+    each record of ``pairs`` gains ``left_covered`` / ``right_covered``, the share of each
+    text's words in shared passages. Cost: O(words of the clustered texts) to find words,
+    then O(words of both texts) per pair, compiled (`dedup.align`)."""
+    chosen = evidence_pairs(pairs, clusters)
+    ids = sorted({doc for pair in chosen for doc in pair})
+    number = {doc: i for i, doc in enumerate(ids)}
+    words = word_spans([texts[doc] for doc in ids])
+    left = np.asarray([number[a] for a, _ in chosen], dtype=np.int64)
+    right = np.asarray([number[b] for _, b in chosen], dtype=np.int64)
+    alignment = align_pairs(
+        words, left, right, AlignSettings(min_words=settings.passage_min_words), workers=workers
+    )
+    share = {
+        pair: (float(ls), float(rs))
+        for pair, ls, rs in zip(chosen, alignment.left_share.tolist(), alignment.right_share.tolist())
+    }
+    for p in pairs:
+        left_share, right_share = share[(p["left"], p["right"])]
+        p["left_covered"], p["right_covered"] = round(left_share, 6), round(right_share, 6)
+    return records.passage_records([a for a, _ in chosen], [b for _, b in chosen], alignment)

@@ -43,6 +43,7 @@ from .driver import (
     DistinctTexts,
     Findings,
     Verified,
+    align_step,
     assemble,
     candidates_block,
     cluster_step,
@@ -280,6 +281,14 @@ class _Run:
         self.watch.lap("cluster")
         return clustered
 
+    def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]) -> list[dict]:
+        """The align step (`driver.align_step`), in two threads where kernels may share them."""
+        self.progress.start("aligning passages")
+        passages = align_step(pairs, clusters, originals, self.settings, workers=2 if self.threaded else 1)
+        self.progress.done(f"{len(passages):,} passages")
+        self.watch.lap("align")
+        return passages
+
 
 def _with_ends(scores: PairScores, left: np.ndarray, right: np.ndarray) -> PairScores:
     import dataclasses
@@ -325,6 +334,9 @@ def run_audit(
     verified = run.verify(left, right, compared)
     clusters, roles, exact_edges = run.cluster(texts, verified, compared)
     sizes = np.diff(compared.shingle_offsets)
+    pairs = pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)])
+    originals = _clustered_texts(read.documents, read.original_slot, clusters, run.originals)
+    passages = run.align(pairs, clusters, originals)
     found = Findings(
         ledger=ledger,
         documents=read.documents,
@@ -338,8 +350,9 @@ def run_audit(
         verified=verified,
         clusters=clusters,
         roles=roles,
-        pairs=pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)]),
-        original_texts=_clustered_texts(read.documents, read.original_slot, clusters, run.originals),
+        pairs=pairs,
+        passages=passages,
+        original_texts=originals,
     )
     result = assemble(plan, paths, found)
     run.watch.lap("records")

@@ -15,11 +15,12 @@ from .files import (
     write_json,
 )
 from .html import iter_html, render_html
+from .records import PASSAGE_COLUMNS
 
 __all__ = ["write_outputs", "render_html", "RECORD_LISTS"]
 
 # Lists of audit.json written one record per line.
-RECORD_LISTS = ("ledger", "documents", "exact_groups", "pairs", "clusters", "actions")
+RECORD_LISTS = ("ledger", "documents", "exact_groups", "pairs", "clusters", "actions", "passages")
 
 
 def write_outputs(result, out_dir: str, progress=None, report: bool = True) -> dict[str, str]:
@@ -37,6 +38,7 @@ def write_outputs(result, out_dir: str, progress=None, report: bool = True) -> d
             "clusters.csv",
             "actions.csv",
             "ledger.csv",
+            "passages.csv",
             "run.json",
             *(("report.html",) if report else ()),
         )
@@ -48,6 +50,7 @@ def write_outputs(result, out_dir: str, progress=None, report: bool = True) -> d
     write_csv(paths["clusters.csv"], cluster_rows(result.clusters), CLUSTER_COLUMNS)
     write_csv(paths["actions.csv"], result.actions, ACTION_COLUMNS)
     write_csv(paths["ledger.csv"], (e.to_dict() for e in result.ledger), LEDGER_COLUMNS)
+    write_csv(paths["passages.csv"], result.passages, PASSAGE_COLUMNS)
     write_json(paths["run.json"], {"audit_id": result.audit_id, **result.run})
     if report:
         with open(paths["report.html"], "w", encoding="utf-8", newline="\n") as handle:

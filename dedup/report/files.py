@@ -34,6 +34,8 @@ PAIR_COLUMNS = [
     "containment_right_in_left",
     "cosine",
     "shared_shingles",
+    "left_covered",
+    "right_covered",
 ]
 CLUSTER_COLUMNS = [
     "cluster_id",

@@ -21,6 +21,8 @@ __all__ = [
     "candidates_block",
     "boilerplate_block",
     "summary_block",
+    "passage_records",
+    "PASSAGE_COLUMNS",
     "COLLISION_WARNING_SHARE",
 ]
 
@@ -188,3 +190,51 @@ def summary_block(
         "retire_bytes": sum(c["retire_bytes"] for c in clusters),
         "review_documents": sum(1 for a in actions if a["action"] == "review"),
     }
+
+
+PASSAGE_COLUMNS = [
+    "left",
+    "right",
+    "left_start",
+    "left_end",
+    "right_start",
+    "right_end",
+    "words",
+    "right_words",
+    "similarity",
+    "moved",
+]
+
+
+def passage_records(left_ids: Sequence[str], right_ids: Sequence[str], alignment) -> list[dict]:
+    """One record per shared passage of the pairs ``(left_ids[p], right_ids[p])``, sorted by
+    (left, right, left_start). Offsets are characters of the texts as read, 0-based, end
+    exclusive; ``words`` counts the left side's words, ``right_words`` the right's."""
+    columns = [
+        alignment.pair.tolist(),
+        alignment.left_start.tolist(),
+        alignment.left_end.tolist(),
+        alignment.right_start.tolist(),
+        alignment.right_end.tolist(),
+        alignment.left_words.tolist(),
+        alignment.right_words.tolist(),
+        alignment.similarity.tolist(),
+        alignment.moved.tolist(),
+    ]
+    rows = [
+        {
+            "left": left_ids[p],
+            "right": right_ids[p],
+            "left_start": ls,
+            "left_end": le,
+            "right_start": rs,
+            "right_end": re_,
+            "words": lw,
+            "right_words": rw,
+            "similarity": round(sim, 6),
+            "moved": bool(moved),
+        }
+        for p, ls, le, rs, re_, lw, rw, sim, moved in zip(*columns)
+    ]
+    rows.sort(key=lambda r: (r["left"], r["right"], r["left_start"]))
+    return rows
