@@ -19,7 +19,8 @@ An audit is a fixed sequence of steps over plain arrays and tables. Each step is
     candidates      shuffle  candidates.lsh_candidate_pairs (or exhaustive on small corpora)
     verify          map      verify.may_reach, verify.score_pairs (over pairs)
     cluster         driver   cluster.build_clusters (components, keepers, actions as data)
-    records         driver   result.assemble (pairs, actions, summary, warnings)
+    align           map      align.align_pairs over confirmed pairs and member-keeper pairs
+    records         driver   engines.driver.assemble (pairs, actions, passages, summary, warnings)
 
 `Plan` fixes the values every engine must agree on (bands and rows, the candidate
 method once the corpus size is known), so the local engine (`dedup.engines.local`) and
@@ -51,6 +52,7 @@ STEPS = (
     ("candidates", "shuffle"),
     ("verify", "map"),
     ("cluster", "driver"),
+    ("align", "map"),
     ("records", "driver"),
 )
 
