@@ -16,6 +16,7 @@ from functools import lru_cache
 import numpy as np
 from numba import njit, prange
 
+from ..kernels.tables import stored_table
 from ..kernels.utf8 import decode_code_point
 from .hashing import FNV_OFFSET, FNV_PRIME, fmix64
 
@@ -32,7 +33,12 @@ _MAX_CODE_POINT = 0x110000
 
 @lru_cache(maxsize=1)
 def word_table() -> np.ndarray:
-    """1 for every code point that is a letter or digit (``str.isalnum``), else 0."""
+    """1 for every code point that is a letter or digit (``str.isalnum``), else 0 (kept on
+    disk between runs: `dedup.kernels.tables`)."""
+    return stored_table("word-table", 1, _build_word_table)
+
+
+def _build_word_table() -> np.ndarray:
     return np.fromiter(
         (chr(c).isalnum() for c in range(_MAX_CODE_POINT)), dtype=np.uint8, count=_MAX_CODE_POINT
     )

@@ -6,4 +6,5 @@ to reach into another's private helpers or import a stage that runs after it.
 
     utf8     one UTF-8 code point from a byte buffer
     hash64   the project's stable 64-bit hash of bytes (FNV-1a, then fmix64)
+    tables   character tables kept on disk between runs
 """

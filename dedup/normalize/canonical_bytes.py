@@ -29,6 +29,7 @@ import numpy as np
 from numba import njit, prange
 
 from ..features.shingles import pack_bytes
+from ..kernels.tables import stored_table
 from ..kernels.utf8 import decode_code_point
 
 # Code points below this have a place in the case-folding table.
@@ -38,7 +39,11 @@ _FOLD_LIMIT = 0x20000
 @lru_cache(maxsize=1)
 def fold_table() -> np.ndarray:
     """``ord(chr(c).casefold())`` for every code point below `_FOLD_LIMIT`; -1 where the
-    fold is several code points."""
+    fold is several code points (kept on disk between runs: `dedup.kernels.tables`)."""
+    return stored_table("fold-table", 1, _build_fold_table)
+
+
+def _build_fold_table() -> np.ndarray:
     folds = [chr(c).casefold() for c in range(_FOLD_LIMIT)]
     return np.array([ord(f) if len(f) == 1 else -1 for f in folds], dtype=np.int32)
 
@@ -59,7 +64,12 @@ def nfkc_table() -> np.ndarray:
     start no reordering, so a text made only of them is its own NFKC form (UAX #15). A
     code point c maps to q when ``NFKC(c) == q`` and q is settled: c and q have the same
     compatibility decomposition, so the text with q in place of c has the same NFKC form.
+    Kept on disk between runs (`dedup.kernels.tables`).
     """
+    return stored_table("nfkc-table", 1, _build_nfkc_table)
+
+
+def _build_nfkc_table() -> np.ndarray:
     seconds = {c for block in _HANGUL_SECONDS for c in block}
     for c in range(0x80, 0x30000):  # every canonical decomposition lies below U+30000
         parts = unicodedata.decomposition(chr(c)).split()

@@ -20,11 +20,14 @@ def test_s_curve_matches_the_published_table_for_20_bands_of_5(s, expected):
     assert round(float(catch_probability(s, 20, 5)), decimals) == expected
 
 
-@pytest.mark.parametrize("threshold", [0.5, 0.7, 0.8, 0.9])
+@pytest.mark.parametrize("threshold", [0.3, 0.5, 0.6, 0.7, 0.75, 0.8, 0.85, 0.9, 0.95])
+@pytest.mark.parametrize("num_perm", [64, 128])
 @pytest.mark.parametrize("fp_weight", [0.5, 0.05])
-def test_choice_of_bands_equals_datasketch(threshold, fp_weight):
-    """Reference: datasketch.lsh._optimal_param, which minimises the same weighted areas."""
-    assert choose_bands(threshold, 128, fp_weight) == _optimal_param(threshold, 128, fp_weight, 1 - fp_weight)
+def test_choice_of_bands_equals_datasketch(threshold, num_perm, fp_weight):
+    """Reference: datasketch.lsh._optimal_param, which minimises the same weighted areas with
+    scipy's adaptive quadrature (ours integrates the polynomials exactly by Gauss-Legendre)."""
+    expected = _optimal_param(threshold, num_perm, fp_weight, 1 - fp_weight)
+    assert choose_bands(threshold, num_perm, fp_weight) == expected
 
 
 def test_default_weights_catch_pairs_at_the_threshold_with_high_probability():
