@@ -1,0 +1,89 @@
+"""What a check reads: submissions, references and templates, each with its ledger.
+
+An input is a path (file, folder or archive, read by `dedup.ingest.iter_documents` with
+its limits and its ledger) or an ``(id, text)`` pair given in memory. Every input ends in
+the ledger with its role (``submission``, ``reference``, ``template``), so nothing is
+left out without a trace; a document without a single word is recorded as empty.
+
+Cost: that of reading; texts are yielded one at a time (references are never all held).
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Iterator, Sequence
+from typing import Any
+
+from ..ingest import LedgerEntry, iter_documents
+from .settings import CheckSettings
+
+__all__ = ["Input", "read_texts", "ledger_rows", "is_path"]
+
+# An input: a path, or an (id, text) pair.
+Input = Any
+
+
+def is_path(item: Input) -> bool:
+    """Whether ``item`` is a path (``str`` or ``os.PathLike``) rather than an (id, text) pair."""
+    return isinstance(item, (str, os.PathLike))
+
+
+def _has_words(text: str) -> bool:
+    return any(ch.isalnum() for ch in text)
+
+
+def read_texts(
+    items: Iterable[Input], settings: CheckSettings, role: str, ledger: list[tuple[str, LedgerEntry]]
+) -> Iterator[tuple[str, str]]:
+    """``(id, text)`` of every document of ``items``, in order; each input's entry goes to ``ledger``.
+
+    Paths are read with `iter_documents` (in runs of consecutive paths, so ids stay relative to
+    their common folder); pairs are taken as given. Raises `dedup.InputError` for a path that
+    does not exist.
+    """
+    run: list[str] = []
+    for item in items:
+        if is_path(item):
+            run.append(os.fspath(item))
+            continue
+        yield from _read_paths(run, settings, role, ledger)
+        run = []
+        ident, text = item
+        ident, text = str(ident), str(text)
+        if _has_words(text):
+            ledger.append((role, LedgerEntry(ident, "read", "", "record", len(text), "", "", ident)))
+            yield ident, text
+        else:
+            ledger.append((role, LedgerEntry(ident, "empty", "no words", "record", len(text), "", "", "")))
+    yield from _read_paths(run, settings, role, ledger)
+
+
+def _read_paths(
+    paths: Sequence[str], settings: CheckSettings, role: str, ledger: list[tuple[str, LedgerEntry]]
+) -> Iterator[tuple[str, str]]:
+    if not paths:
+        return
+    entries: list[LedgerEntry] = []
+    taken = 0
+    for doc in iter_documents(
+        paths,
+        id_field=settings.id_field,
+        text_fields=settings.text_fields,
+        max_file_bytes=settings.max_file_bytes,
+        max_text_chars=settings.max_text_chars,
+        include=settings.include,
+        exclude=settings.exclude,
+        ledger=entries,
+    ):
+        ledger.extend((role, e) for e in entries[taken:])
+        taken = len(entries)
+        if _has_words(doc.text):
+            yield doc.id, doc.text
+        elif entries and entries[-1].document_id == doc.id and entries[-1].status == "read":
+            entries[-1].status, entries[-1].reason = "empty", "no words"
+    ledger.extend((role, e) for e in entries[taken:])
+
+
+def ledger_rows(ledger: Sequence[tuple[str, LedgerEntry]]) -> list[dict]:
+    """The ledger as rows: the role, then the fields of each entry."""
+    return [{"role": role, **entry.to_dict()} for role, entry in ledger]
