@@ -6,6 +6,10 @@ statistics, the settings the sketches were built with, every audit recorded with
 and the review decisions imported from reports. The tables are described in
 `dedup.index.schema`.
 
+Texts are normalized, stripped of template lines and sketched by the audit's own steps
+(`dedup.index.indexing`, `dedup.index.templates`, `dedup.index.texts`), so content
+hashes, shingle sets and term counts are those `dedup.audit` gives the same corpus.
+
 Use::
 
     from dedup.index import build, update, open_index, similar

@@ -166,6 +166,38 @@ def _review(d: dict, status: str, changed: list[str] | None = None) -> dict:
     return review
 
 
+class _Lookup:
+    """The stored decisions by the content hashes and by the document ids they name."""
+
+    def __init__(self, decisions: list[dict]) -> None:
+        self.decisions = decisions
+        self.by_hash: dict[str, list[int]] = {}
+        self.by_id: dict[str, list[int]] = {}
+        for n, d in enumerate(decisions):
+            for h in d["hashes"]:
+                self.by_hash.setdefault(h, []).append(n)
+            for doc_id in d["ids"]:
+                self.by_id.setdefault(doc_id, []).append(n)
+
+    def pair_review(self, left: str, right: str, hl: str | None, hr: str | None) -> dict | None:
+        """The review of a pair of documents with current texts ``hl`` and ``hr``: from the
+        latest decision that holds for it, else the latest that lapsed, else None."""
+        holding = []
+        for n in set(self.by_hash.get(hl, ())) & set(self.by_hash.get(hr, ())):
+            counts = self.decisions[n]["hashes"]
+            if hl != hr or counts[hl] >= 2:
+                holding.append(self.decisions[n])
+        if holding:
+            best = max(holding, key=lambda d: d["order"])
+            return _review(best, _status(best["decision"]))
+        named = [self.decisions[n] for n in set(self.by_id.get(left, ())) & set(self.by_id.get(right, ()))]
+        if named:
+            best = max(named, key=lambda d: d["order"])
+            changed = sorted(x for x, h in ((left, hl), (right, hr)) if best["ids"][x] != h)
+            return _review(best, "lapsed", changed)
+        return None
+
+
 def apply_decisions(index: Index, result) -> dict:
     """Mark a fresh audit's pairs and clusters with the stored decisions (in place).
 
@@ -185,78 +217,71 @@ def apply_decisions(index: Index, result) -> dict:
     Cost O(pairs x decisions naming their texts) with dictionaries.
     """
     decisions = _load(index)
-    by_hash: dict[str, list[int]] = {}
-    by_id: dict[str, list[int]] = {}
-    for n, d in enumerate(decisions):
-        for h in d["hashes"]:
-            by_hash.setdefault(h, []).append(n)
-        for doc_id in d["ids"]:
-            by_id.setdefault(doc_id, []).append(n)
+    lookup = _Lookup(decisions)
     hash_of = {doc["id"]: doc["content_hash"] for doc in result.documents}
-
-    def pair_review(left: str, right: str) -> dict | None:
-        hl, hr = hash_of.get(left), hash_of.get(right)
-        holding = []
-        for n in set(by_hash.get(hl, ())) & set(by_hash.get(hr, ())):
-            counts = decisions[n]["hashes"]
-            if hl != hr or counts[hl] >= 2:
-                holding.append(decisions[n])
-        if holding:
-            best = max(holding, key=lambda d: d["order"])
-            return _review(best, _status(best["decision"]))
-        named = [decisions[n] for n in set(by_id.get(left, ())) & set(by_id.get(right, ()))]
-        if named:
-            best = max(named, key=lambda d: d["order"])
-            changed = sorted(x for x, h in ((left, hl), (right, hr)) if best["ids"][x] != h)
-            return _review(best, "lapsed", changed)
-        return None
-
-    pair_of: dict[str, list[dict]] = {}
     tally: Counter[str] = Counter()
     for pair in result.pairs:
-        pair["review"] = pair_review(pair["left"], pair["right"]) if decisions else None
+        left, right = pair["left"], pair["right"]
+        pair["review"] = (
+            lookup.pair_review(left, right, hash_of.get(left), hash_of.get(right)) if decisions else None
+        )
         if pair["review"]:
             tally[f"pairs_{pair['review']['status']}"] += 1
-    cluster_of = {m["document_id"]: c["id"] for c in result.clusters for m in c["members"]}
-    for pair in result.pairs:
-        cluster_id = cluster_of.get(pair["left"])
-        if cluster_id is not None and cluster_of.get(pair["right"]) == cluster_id:
-            pair_of.setdefault(cluster_id, []).append(pair)
-
     actions = {a["document_id"]: a for a in result.actions}
-    for cluster in result.clusters:
-        reviews = [p["review"] for p in pair_of.get(cluster["id"], [])]
-        cluster["review"] = _cluster_review(reviews) if decisions else None
+    for cluster, pairs in _pairs_by_cluster(result):
+        cluster["review"] = _cluster_review([p["review"] for p in pairs]) if decisions else None
         if cluster["review"] is None:
             continue
         tally[f"clusters_{cluster['review']['status']}"] += 1
-        if cluster["review"]["status"] != "reviewed":
-            continue
-        r = cluster["review"]
-        comment = f" ({r['comment']})" if r["comment"] else ""
-        reason = f"reviewed on {r['decided_at'][:10]}: {r['decision']}{comment}; not raised again while the texts are unchanged"
-        for member in cluster["members"]:
-            member.update(action="keep", in_favour_of=None, reason=reason)
-            if member["document_id"] in actions:
-                actions[member["document_id"]].update(action="keep", in_favour_of=None, reason=reason)
-        for key in ("retire_documents", "retire_bytes"):
-            if key in cluster:
-                cluster[key] = 0
-
-    summary = result.summary
-    summary["reviewed_clusters"] = tally["clusters_reviewed"]
-    if "retire_documents" in summary:
-        summary["retire_documents"] = sum(1 for a in result.actions if a["action"] == "retire")
-    if "review_documents" in summary:
-        summary["review_documents"] = sum(1 for a in result.actions if a["action"] == "review")
-    if "retire_bytes" in summary:
-        summary["retire_bytes"] = sum(c.get("retire_bytes", 0) for c in result.clusters)
+        if cluster["review"]["status"] == "reviewed":
+            _settle(cluster, actions)
+    _recount(result, tally["clusters_reviewed"])
     statuses = ("reviewed", "confirmed", "commented", "lapsed", "partly-reviewed")
     return {
         "decisions": len(decisions),
         "clusters": {s: tally[f"clusters_{s}"] for s in statuses},
         "pairs": {s: tally[f"pairs_{s}"] for s in statuses if s != "partly-reviewed"},
     }
+
+
+def _pairs_by_cluster(result) -> list[tuple[dict, list[dict]]]:
+    """Each cluster with the pairs inside it (every confirmed pair lies inside one cluster)."""
+    cluster_of = {m["document_id"]: c["id"] for c in result.clusters for m in c["members"]}
+    pair_of: dict[str, list[dict]] = {}
+    for pair in result.pairs:
+        cluster_id = cluster_of.get(pair["left"])
+        if cluster_id is not None and cluster_of.get(pair["right"]) == cluster_id:
+            pair_of.setdefault(cluster_id, []).append(pair)
+    return [(cluster, pair_of.get(cluster["id"], [])) for cluster in result.clusters]
+
+
+def _settle(cluster: dict, actions: dict[str, dict]) -> None:
+    """A reviewed cluster is not raised again: every member is kept, nothing is retired."""
+    r = cluster["review"]
+    comment = f" ({r['comment']})" if r["comment"] else ""
+    reason = (
+        f"reviewed on {r['decided_at'][:10]}: {r['decision']}{comment}; "
+        "not raised again while the texts are unchanged"
+    )
+    for member in cluster["members"]:
+        member.update(action="keep", in_favour_of=None, reason=reason)
+        if member["document_id"] in actions:
+            actions[member["document_id"]].update(action="keep", in_favour_of=None, reason=reason)
+    for key in ("retire_documents", "retire_bytes"):
+        if key in cluster:
+            cluster[key] = 0
+
+
+def _recount(result, reviewed_clusters: int) -> None:
+    """The summary's counts of retired and reviewed documents after clusters were settled."""
+    summary = result.summary
+    summary["reviewed_clusters"] = reviewed_clusters
+    if "retire_documents" in summary:
+        summary["retire_documents"] = sum(1 for a in result.actions if a["action"] == "retire")
+    if "review_documents" in summary:
+        summary["review_documents"] = sum(1 for a in result.actions if a["action"] == "review")
+    if "retire_bytes" in summary:
+        summary["retire_bytes"] = sum(c.get("retire_bytes", 0) for c in result.clusters)
 
 
 def _cluster_review(reviews: list[dict | None]) -> dict | None:

@@ -58,19 +58,13 @@ def _cluster_record(cluster: dict, hash_of: dict[str, str]) -> dict:
     }
 
 
-def compare_clusters(previous: list[dict], current: list[dict]) -> list[dict]:
-    """Delta entries for clusters stored as by `record_audit` (see the matching rule above).
+def _where(clusters: list[dict]) -> dict[str, int]:
+    """Document id -> the position of the cluster it is a member of."""
+    return {doc_id: k for k, cluster in enumerate(clusters) for doc_id, _, _ in cluster["members"]}
 
-    Returns current clusters in their order, then resolved ones in the previous order.
-    """
-    where_before: dict[str, int] = {}
-    for j, cluster in enumerate(previous):
-        for doc_id, _, _ in cluster["members"]:
-            where_before[doc_id] = j
-    where_now: dict[str, int] = {}
-    for i, cluster in enumerate(current):
-        for doc_id, _, _ in cluster["members"]:
-            where_now[doc_id] = i
+
+def _partners(previous: list[dict], current: list[dict], where_before: dict[str, int]) -> dict[int, int]:
+    """Current cluster -> the previous cluster it is paired with (rule 1 of the matching rule)."""
     shared: Counter[tuple[int, int]] = Counter()
     for i, cluster in enumerate(current):
         for doc_id, _, _ in cluster["members"]:
@@ -78,68 +72,82 @@ def compare_clusters(previous: list[dict], current: list[dict]) -> list[dict]:
                 shared[(i, where_before[doc_id])] += 1
     order = sorted(shared.items(), key=lambda item: (-item[1], item[0][1], item[0][0]))
     partner_of_current: dict[int, int] = {}
-    partner_of_previous: dict[int, int] = {}
+    taken: set[int] = set()
     for (i, j), _ in order:
-        if i not in partner_of_current and j not in partner_of_previous:
+        if i not in partner_of_current and j not in taken:
             partner_of_current[i] = j
-            partner_of_previous[j] = i
+            taken.add(j)
+    return partner_of_current
 
+
+def _current_entry(cluster: dict, before: dict | None, previous: list[dict], where_before: dict) -> dict:
+    """The entry of a current cluster, paired with ``before`` or new (rules 2 and 3)."""
+    entry = {
+        "status": "new",
+        "cluster_id": cluster["id"],
+        "previous_cluster_id": None,
+        "keeper": cluster["keeper"],
+        "size": cluster["size"],
+        "previous_size": None,
+        "added": [],
+        "removed": [],
+        "changed": [],
+        "review": cluster.get("review"),
+    }
+    if before is None:
+        entry["from_clusters"] = sorted(
+            {previous[where_before[d]]["id"] for d, _, _ in cluster["members"] if d in where_before}
+        )
+        return entry
+    now_keys = {(d, h) for d, h, _ in cluster["members"]}
+    then_keys = {(d, h) for d, h, _ in before["members"]}
+    added = sorted(now_keys - then_keys)
+    removed = sorted(then_keys - now_keys)
+    changed = sorted({d for d, _ in added} & {d for d, _ in removed})
+    entry.update(
+        status="grown" if added else "shrunk" if removed else "unchanged",
+        previous_cluster_id=before["id"],
+        previous_size=before["size"],
+        added=sorted({d for d, _ in added} - set(changed)),
+        removed=sorted({d for d, _ in removed} - set(changed)),
+        changed=changed,
+    )
+    return entry
+
+
+def _resolved_entry(cluster: dict, current: list[dict], where_now: dict[str, int]) -> dict:
+    """The entry of a previous cluster paired with none (rule 4)."""
+    return {
+        "status": "resolved",
+        "cluster_id": None,
+        "previous_cluster_id": cluster["id"],
+        "keeper": cluster["keeper"],
+        "size": None,
+        "previous_size": cluster["size"],
+        "added": [],
+        "removed": sorted(d for d, _, _ in cluster["members"]),
+        "changed": [],
+        "review": None,
+        "now_in": sorted({current[where_now[d]]["id"] for d, _, _ in cluster["members"] if d in where_now}),
+    }
+
+
+def compare_clusters(previous: list[dict], current: list[dict]) -> list[dict]:
+    """Delta entries for clusters stored as by `record_audit` (see the matching rule above).
+
+    Returns current clusters in their order, then resolved ones in the previous order.
+    """
+    where_before, where_now = _where(previous), _where(current)
+    partner_of_current = _partners(previous, current, where_before)
     entries = []
     for i, cluster in enumerate(current):
-        entry = {
-            "status": "new",
-            "cluster_id": cluster["id"],
-            "previous_cluster_id": None,
-            "keeper": cluster["keeper"],
-            "size": cluster["size"],
-            "previous_size": None,
-            "added": [],
-            "removed": [],
-            "changed": [],
-            "review": cluster.get("review"),
-        }
         j = partner_of_current.get(i)
-        if j is None:
-            entry["from_clusters"] = sorted(
-                {previous[where_before[d]]["id"] for d, _, _ in cluster["members"] if d in where_before}
-            )
-            entries.append(entry)
-            continue
-        before = previous[j]
-        now_keys = {(d, h) for d, h, _ in cluster["members"]}
-        then_keys = {(d, h) for d, h, _ in before["members"]}
-        added = sorted(now_keys - then_keys)
-        removed = sorted(then_keys - now_keys)
-        changed = sorted({d for d, _ in added} & {d for d, _ in removed})
-        entry.update(
-            status="grown" if added else "shrunk" if removed else "unchanged",
-            previous_cluster_id=before["id"],
-            previous_size=before["size"],
-            added=sorted({d for d, _ in added} - set(changed)),
-            removed=sorted({d for d, _ in removed} - set(changed)),
-            changed=changed,
-        )
-        entries.append(entry)
+        before = previous[j] if j is not None else None
+        entries.append(_current_entry(cluster, before, previous, where_before))
+    paired = set(partner_of_current.values())
     for j, cluster in enumerate(previous):
-        if j in partner_of_previous:
-            continue
-        entries.append(
-            {
-                "status": "resolved",
-                "cluster_id": None,
-                "previous_cluster_id": cluster["id"],
-                "keeper": cluster["keeper"],
-                "size": None,
-                "previous_size": cluster["size"],
-                "added": [],
-                "removed": sorted(d for d, _, _ in cluster["members"]),
-                "changed": [],
-                "review": None,
-                "now_in": sorted(
-                    {current[where_now[d]]["id"] for d, _, _ in cluster["members"] if d in where_now}
-                ),
-            }
-        )
+        if j not in paired:
+            entries.append(_resolved_entry(cluster, current, where_now))
     return entries
 
 
@@ -206,20 +214,8 @@ def record_audit(index: Index, result) -> dict:
         row = db.execute(
             "SELECT seq, audit_id, recorded_at, settings, clusters, documents FROM audits ORDER BY seq DESC LIMIT 1"
         ).fetchone()
-        if row is None:
-            previous, before_settings, before_docs = None, None, None
-            entries = compare_clusters([], current)
-        else:
-            before_clusters = json.loads(row[4])
-            before_settings = json.loads(row[3])
-            before_docs = json.loads(row[5]) if row[5] else None
-            previous = {
-                "audit_id": row[1],
-                "recorded_at": row[2],
-                "clusters": len(before_clusters),
-                "documents": len(before_docs) if before_docs is not None else None,
-            }
-            entries = compare_clusters(before_clusters, current)
+        previous, before_clusters, before_settings, before_docs = _previous_of(row)
+        entries = compare_clusters(before_clusters, current)
         db.execute("UPDATE audits SET documents = NULL WHERE documents IS NOT NULL")
         db.execute(
             "INSERT INTO audits (audit_id, recorded_at, settings, summary, clusters, documents) VALUES (?, ?, ?, ?, ?, ?)",
@@ -234,23 +230,39 @@ def record_audit(index: Index, result) -> dict:
         )
     counts = {state: sum(1 for e in entries if e["status"] == state) for state in STATES}
     counts["reviewed"] = sum(1 for e in entries if e["review"] == "reviewed")
-    changed_settings = (
-        sorted(
-            k
-            for k in set(settings) | set(before_settings)
-            if k not in _RUN_ONLY_SETTINGS and settings.get(k) != before_settings.get(k)
-        )
-        if before_settings is not None
-        else []
-    )
     return {
         "previous": previous,
         "matching": MATCHING_RULE,
-        "settings_changed": changed_settings,
+        "settings_changed": _settings_changed(before_settings, settings),
         "documents": _document_changes(before_docs, result.documents),
         "counts": counts,
         "clusters": entries,
     }
+
+
+def _previous_of(row: tuple | None) -> tuple[dict | None, list[dict], dict | None, list | None]:
+    """From the latest ``audits`` row (or None): the delta's ``previous`` block, its
+    clusters, its settings and its documents (None where there are none)."""
+    if row is None:
+        return None, [], None, None
+    before_clusters = json.loads(row[4])
+    before_docs = json.loads(row[5]) if row[5] else None
+    previous = {
+        "audit_id": row[1],
+        "recorded_at": row[2],
+        "clusters": len(before_clusters),
+        "documents": len(before_docs) if before_docs is not None else None,
+    }
+    return previous, before_clusters, json.loads(row[3]), before_docs
+
+
+def _settings_changed(before: dict | None, now: dict) -> list[str]:
+    """Names of the settings that differ from the previous audit's (none for the first)."""
+    if before is None:
+        return []
+    return sorted(
+        k for k in set(now) | set(before) if k not in _RUN_ONLY_SETTINGS and now.get(k) != before.get(k)
+    )
 
 
 # Settings that change how a run reports, not what it finds.

@@ -1,52 +1,63 @@
-"""Building and updating an index: read every document, sketch only the texts not yet stored.
+"""Building and updating an index: the audit's normalize, template and sketch steps, run incrementally.
 
-A run reads the given paths with the same reader as an audit and computes each
-document's content hash (BLAKE2b of its canonical text). Then:
+A run reads the given paths with the audit's reader and its normalize step
+(`dedup.normalize.batch.prepare_documents`, compiled, a batch at a time), so every
+document's content hash and canonical text are byte for byte those of `dedup.audit`.
+Then, document by document:
 
 * a document whose id and hash are already stored is *unchanged*: nothing more is done
   with its text;
 * a new document, or one whose hash changed, is *added* or *changed*; its text is
-  shingled, MinHash-sketched and counted for TF-IDF only if no stored document already
-  has the same text (exact copies share one stored text);
+  written (`dedup.index.texts.NewTexts`: line hashes and canonical form) if no stored
+  document already has the same text (exact copies share one stored text) and it has
+  words;
 * a stored document the run did not find is marked *removed* (its row stays, so its
   history does too), and a text no present document has is deleted.
 
-The sketches are of the whole canonical text: the audit's boilerplate removal depends on
-the whole corpus, so it cannot be applied incrementally.
+Then the template lines of the whole indexed corpus are found with the audit's counter
+and rule, the stored texts' counts merged with the run's (`dedup.index.templates`), and
+the new texts — with the stored ones whose template lines changed — are stripped of
+them and sketched with the plan's sketch step (`dedup.index.texts.sketch_texts`). So the
+stored shingle sets, signatures and term counts are those an audit of the present
+corpus compares, and an update gives what a fresh build of the same corpus gives.
 
 The whole run is one transaction (`Index.writing`): killed at any point, the index is as
-it was before the run. Cost: reading and hashing every document, O(total bytes), plus
-sketching the new texts, plus one pass over the postings (`refresh_statistics`).
+it was before the run. Cost: reading and normalizing every document, O(total bytes);
+writing and sketching the new texts; reading every stored line set when texts came or
+went (`dedup.index.templates`); one pass over the postings (`refresh_statistics`).
 """
 
 from __future__ import annotations
 
+import functools
 import json
 import os
 import time
-from collections.abc import Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import datetime
 
-import numpy as np
-import scipy.sparse as sp
-
-from ..features.shingles import features_with
 from ..ingest import InputError, iter_documents, summarize
 from ..ingest.walk import UNCHANGED_REASON
-from ..normalize import canonical_text, content_hash
+from ..normalize.batch import prepare_documents
+from ..normalize.boilerplate import Boilerplate
 from ..progress import Progress
 from ..settings import AuditSettings
-from ..sketch import signatures_with
-from .blobs import pack_array
-from .postings import refresh_statistics, term_counts, write_segment
+from . import schema
+from .postings import refresh_statistics
 from .store import Index, IndexFileError, open_index, read_keys, utc_now
+from .templates import CorpusLines, TemplateRule, changed_lines, load_templates, store_templates
+from .texts import NewTexts, delete_unused_texts, renumber, sketch_texts, stripped_otherwise, text_sequence
 
 __all__ = ["RunSummary", "build", "update", "index_paths"]
 
-# Texts sketched together: large enough for the compiled kernels to pay off, small
-# enough that a batch's features stay in a few hundred megabytes.
-BATCH_TEXTS = 4000
+# The audit's normalize step, canonical lines joined by LF whatever the template
+# settings: the lines are what template lines are found among, and with the breaks made
+# spaces they are the canonical text (so templates can be turned on later).
+PREPARE = functools.partial(prepare_documents, lines=True)
+# Documents (or characters of text) normalized together.
+BATCH_DOCUMENTS = 1024
+BATCH_CHARACTERS = 8 * 2**20
 
 
 @dataclass
@@ -72,6 +83,10 @@ class RunSummary:
         Ledger counts of the reading (read, empty, skipped, ...), as in ``audit.json``.
     statistics : dict
         Postings entries and segments after the run (see `refresh_statistics`).
+    resketched : int
+        Of ``sketched``, stored texts sketched again because their template lines changed.
+    template_lines : int
+        Template lines of the indexed corpus, left out of the sketches.
     """
 
     run: int
@@ -86,6 +101,8 @@ class RunSummary:
     seconds: float
     inputs: dict = field(default_factory=dict)
     statistics: dict = field(default_factory=dict)
+    resketched: int = 0
+    template_lines: int = 0
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -97,56 +114,196 @@ def index_paths(index: Index) -> list[str]:
     return json.loads(row[0]) if row else []
 
 
-class _Sketcher:
-    """Shingles, signatures and term counts of batches of new texts, written as they come."""
+def _batches(documents: Iterable) -> Iterator[list]:
+    """Documents in batches of `BATCH_DOCUMENTS` (or `BATCH_CHARACTERS` of text)."""
+    batch: list = []
+    size = 0
+    for doc in documents:
+        batch.append(doc)
+        size += len(doc.text) if doc.prepared is None else len(doc.prepared[0])
+        if len(batch) >= BATCH_DOCUMENTS or size >= BATCH_CHARACTERS:
+            yield batch
+            batch, size = [], 0
+    if batch:
+        yield batch
 
-    def __init__(self, connection, settings: AuditSettings, run: int) -> None:
-        self.connection = connection
-        self.settings = settings
-        self.run = run
-        self.text_ids: list[np.ndarray] = []
-        self.counts: list[sp.csr_matrix] = []
-        self.sketched = 0
 
-    def add(self, batch: dict[str, tuple[bytes, int]]) -> None:
-        """Sketch and store ``{content hash: (canonical UTF-8, characters)}``."""
-        if not batch:
-            return
-        s = self.settings
-        hashes = list(batch)
-        encoded = [batch[h][0] for h in hashes]
-        offsets = np.zeros(len(encoded) + 1, dtype=np.int64)
-        np.cumsum([len(e) for e in encoded], out=offsets[1:])
-        buf = np.frombuffer(b"".join(encoded), dtype=np.uint8) if offsets[-1] else np.zeros(0, np.uint8)
-        features = features_with(s, buf, offsets)
-        signatures = signatures_with(s, features).values
-        counts = term_counts(features.token_hashes, features.token_offsets, s.tfidf_features)
-        words = np.diff(features.token_offsets)
-        terms = np.diff(counts.indptr)
-        ids = np.empty(len(hashes), dtype=np.int64)
-        for i, h in enumerate(hashes):
-            shingles = features.shingles_of(i)
-            cursor = self.connection.execute(
-                "INSERT INTO texts (content_hash, characters, words, terms, shingle_count, run) "
-                "VALUES (?, ?, ?, ?, ?, ?)",
-                (h, batch[h][1], int(words[i]), int(terms[i]), int(shingles.shape[0]), self.run),
+def _normalized(batch: list) -> list:
+    """The batch with every document normalized (those a reading process did not)."""
+    todo = [doc for doc in batch if doc.prepared is None]
+    if todo:
+        prepare_documents(todo, parallel=True, lines=True)
+    return batch
+
+
+class _Documents:
+    """The ``documents`` table during a run: each document read recorded, and the tally."""
+
+    def __init__(self, connection, run: int) -> None:
+        self.connection, self.run = connection, run
+        self.known = {
+            row[0]: row[1:]
+            for row in connection.execute(
+                "SELECT doc_id, content_hash, status, source, format, title, bytes, mtime, metadata, changed_run "
+                "FROM documents"
             )
-            ids[i] = cursor.lastrowid
+        }
+        self.seen: set[str] = set()
+        self.tally = {"added": 0, "changed": 0, "unchanged": 0, "removed": 0}
+        self.replaced: set[str] = set()  # texts some document had before this run changed it
+
+    def record(self, doc_id: str, fields: tuple) -> None:
+        """Insert or update a document read; ``fields`` from the content hash to the metadata."""
+        self.seen.add(doc_id)
+        before = self.known.get(doc_id)
+        if before is None:
+            self.tally["added"] += 1
             self.connection.execute(
-                "INSERT INTO sketches (text_id, signature, shingles) VALUES (?, ?, ?)",
-                (int(ids[i]), pack_array(signatures[i], "<u4"), pack_array(shingles, "<u8")),
+                "INSERT INTO documents (doc_id, content_hash, status, source, format, title, bytes, mtime, "
+                "metadata, added_run, changed_run) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (doc_id, *fields, self.run, self.run),
             )
-        self.text_ids.append(ids)
-        self.counts.append(counts)
-        self.sketched += len(hashes)
+            return
+        if before[1] != "present":
+            what = "added"  # found again after it was removed
+        elif before[0] != fields[0]:
+            what = "changed"
+            self.replaced.add(before[0])
+        else:
+            what = "unchanged"
+        self.tally[what] += 1
+        if tuple(before[:8]) != fields:  # an unchanged text may still have a new time or title
+            self.connection.execute(
+                "UPDATE documents SET content_hash = ?, status = ?, source = ?, format = ?, title = ?, "
+                "bytes = ?, mtime = ?, metadata = ?, removed_run = NULL, changed_run = ? WHERE doc_id = ?",
+                (*fields, self.run if what != "unchanged" else before[8], doc_id),
+            )
 
-    def write_postings(self) -> int:
-        """All counts of this run as one postings segment."""
-        if not self.text_ids:
-            return 0
-        ids = np.concatenate(self.text_ids)
-        counts = sp.vstack(self.counts, format="csr")
-        return write_segment(self.connection, self.run, ids, counts)
+    def count_skipped(self, ledger: list) -> None:
+        """Files skipped by their modification time are present and unchanged."""
+        for entry in ledger:
+            if entry.reason == UNCHANGED_REASON and entry.document_id not in self.seen:
+                self.seen.add(entry.document_id)
+                self.tally["unchanged"] += 1
+
+    def remove_missing(self) -> set[str]:
+        """Mark the present documents not seen as removed; the texts they had."""
+        gone = [
+            doc_id for doc_id, row in self.known.items() if row[1] == "present" and doc_id not in self.seen
+        ]
+        self.connection.executemany(
+            "UPDATE documents SET status = 'removed', removed_run = ? WHERE doc_id = ?",
+            [(self.run, d) for d in gone],
+        )
+        self.tally["removed"] = len(gone)
+        return {self.known[d][0] for d in gone}
+
+
+def _fields(doc, original: bytes, digest: str) -> tuple:
+    """A document's columns from ``content_hash`` to ``metadata``."""
+    metadata = json.dumps(doc.metadata, sort_keys=True, ensure_ascii=False, default=str)
+    return (digest, "present", doc.source, doc.format, doc.title or "", len(original), doc.mtime, metadata)
+
+
+class _Run:
+    """One build or update inside its write transaction: the steps in order (see the module notes)."""
+
+    def __init__(
+        self, connection, settings: AuditSettings, kind: str, rule: TemplateRule, progress: Progress
+    ) -> None:
+        self.db, self.settings, self.kind = connection, settings, kind
+        self.rule, self.progress = rule, progress
+        self.run = connection.execute("SELECT coalesce(max(run), 0) + 1 FROM runs").fetchone()[0]
+        self.documents = _Documents(connection, self.run)
+        self.first = text_sequence(connection)  # texts with larger ids are sketched by this run
+        stored = {row[0] for row in connection.execute("SELECT content_hash FROM texts")}
+        self.texts = NewTexts(connection, self.run, stored)
+        self.ledger: list = []
+        self.deleted = self.sketched = self.resketched = self.template_lines = 0
+
+    def read(self, paths: Sequence[str]) -> None:
+        """The read and normalize steps: every document recorded, its new text written."""
+        reading = {key: getattr(self.settings, key) for key in read_keys()}
+        known = self.documents.known
+        unchanged = _unchanged_check(self.db, known, self.run) if self.kind == "update" else None
+        documents = iter_documents(paths, ledger=self.ledger, unchanged=unchanged, prepare=PREPARE, **reading)
+        self.progress.start("reading")
+        for batch in _batches(documents):
+            for doc in _normalized(batch):
+                original, canonical, characters, digest = doc.prepared
+                doc.prepared = None
+                self.documents.record(doc.id, _fields(doc, original, digest))
+                self.texts.offer(digest, canonical, characters)
+                self.progress.advance()
+        self.texts.flush()
+        self.documents.count_skipped(self.ledger)
+        self.progress.done(f"{len(self.documents.seen):,} documents")
+
+    def remove_missing(self) -> None:
+        """Documents not found are removed; texts no present document has are deleted."""
+        gone = self.documents.remove_missing()
+        self.deleted = delete_unused_texts(self.db, gone | self.documents.replaced)
+
+    def templates(self) -> Boilerplate | None:
+        """The template step over the whole indexed corpus; stored texts whose stripped form
+        it changes are renumbered to be sketched again. None when nothing can have changed
+        (no text came or went, same rule): then there is nothing to sketch either."""
+        stored = load_templates(self.db)
+        same_texts = not self.texts.written and not self.deleted
+        if same_texts and stored is not None and stored.rule == self.rule.key():
+            self.template_lines = int(stored.line_hashes.shape[0])
+            return None
+        self.progress.start("templates")
+        corpus = CorpusLines.load(self.db, below=self.first + 1)
+        counter = corpus.counter().merge(self.texts.counter)
+        boilerplate = self.rule.find(counter)
+        lines = changed_lines(stored, boilerplate, self.rule)
+        changed = stripped_otherwise(self.db, corpus, lines, boilerplate, self.rule.max_text_share)
+        self.resketched = renumber(self.db, changed, self.run)
+        store_templates(self.db, self.rule, boilerplate, counter.texts)
+        self.template_lines = len(boilerplate)
+        self.progress.done(f"{len(boilerplate):,} template lines, {self.resketched:,} texts to sketch again")
+        return boilerplate
+
+    def sketch(self, boilerplate: Boilerplate | None) -> None:
+        """The sketch step over the texts written or renumbered by this run."""
+        if boilerplate is not None:
+            self.sketched = sketch_texts(
+                self.db, self.settings, boilerplate, after=self.first, run=self.run, progress=self.progress
+            )
+
+    def statistics(self) -> dict:
+        """The TF-IDF statistics after the run (refreshed when the texts changed)."""
+        self.progress.start("statistics")
+        if self.sketched or self.deleted or self.kind == "build":
+            statistics = refresh_statistics(self.db, self.run, self.settings.sublinear_tf)
+        else:  # the same texts as before: the stored statistics still hold
+            statistics = _stored_statistics(self.db)
+        self.progress.done()
+        return statistics
+
+    def finish(self, statistics: dict, seconds: float) -> RunSummary:
+        """Record the run's counts; its summary."""
+        tally = self.documents.tally
+        present = self.db.execute("SELECT count(*) FROM documents WHERE status = 'present'").fetchone()[0]
+        counts = (tally["added"], tally["changed"], tally["removed"], tally["unchanged"], self.sketched)
+        self.db.execute(
+            "UPDATE runs SET seconds = ?, documents = ?, added = ?, changed = ?, removed = ?, unchanged = ?, "
+            "sketched = ? WHERE run = ?",
+            (seconds, present, *counts, self.run),
+        )
+        return RunSummary(
+            self.run,
+            self.kind,
+            present,
+            *counts,
+            texts=statistics["texts"],
+            seconds=seconds,
+            inputs=summarize(self.ledger),
+            statistics=statistics,
+            resketched=self.resketched,
+            template_lines=self.template_lines,
+        )
 
 
 def _run(
@@ -156,132 +313,25 @@ def _run(
     missing = [p for p in paths if p != "-" and not os.path.exists(p)]
     if missing:
         raise InputError(f"no such file or folder: {missing[0]}")
-    reading = {key: getattr(settings, key) for key in read_keys()}
     roots = [p if p == "-" else os.path.abspath(p) for p in paths]
-    ledger: list = []
+    rule = TemplateRule.of(settings)  # reads the ignore-text file: fails before anything is written
     with index.writing() as db:
-        run = db.execute("SELECT coalesce(max(run), 0) + 1 FROM runs").fetchone()[0]
+        run = _Run(db, settings, kind, rule, progress)
         db.execute(
             "INSERT INTO runs (run, kind, started_at, roots) VALUES (?, ?, ?, ?)",
-            (run, kind, utc_now(), json.dumps(roots)),
+            (run.run, kind, utc_now(), json.dumps(roots)),
         )
-        known = {
-            row[0]: row[1:]
-            for row in db.execute(
-                "SELECT doc_id, content_hash, status, source, format, title, bytes, mtime, metadata, changed_run "
-                "FROM documents"
-            )
-        }
-        stored_texts = {row[0] for row in db.execute("SELECT content_hash FROM texts")}
-        unchanged = _unchanged_check(db, known, run) if kind == "update" else None
-        sketcher = _Sketcher(db, settings, run)
-        batch: dict[str, tuple[bytes, int]] = {}
-        seen: set[str] = set()
-        tally = {"added": 0, "changed": 0, "unchanged": 0}
-        replaced: set[str] = set()  # texts some document had before this run changed it
-        progress.start("reading")
-        for doc in iter_documents(paths, ledger=ledger, unchanged=unchanged, **reading):
-            canonical = canonical_text(doc.text)
-            encoded = canonical.encode("utf-8")
-            digest = content_hash(encoded)
-            seen.add(doc.id)
-            fields = (
-                digest,
-                "present",
-                doc.source,
-                doc.format,
-                doc.title or "",
-                len(doc.text.encode("utf-8")),
-                doc.mtime,
-                json.dumps(doc.metadata, sort_keys=True, ensure_ascii=False, default=str),
-            )
-            before = known.get(doc.id)
-            if before is None:
-                tally["added"] += 1
-                db.execute(
-                    "INSERT INTO documents (doc_id, content_hash, status, source, format, title, bytes, mtime, "
-                    "metadata, added_run, changed_run) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                    (doc.id, *fields, run, run),
-                )
-            else:
-                if before[1] != "present":
-                    what = "added"  # found again after it was removed
-                elif before[0] != digest:
-                    what = "changed"
-                else:
-                    what = "unchanged"
-                tally[what] += 1
-                if what == "changed":
-                    replaced.add(before[0])
-                if tuple(before[:8]) != fields:  # an unchanged text may still have a new time or title
-                    db.execute(
-                        "UPDATE documents SET content_hash = ?, status = ?, source = ?, format = ?, title = ?, "
-                        "bytes = ?, mtime = ?, metadata = ?, removed_run = NULL, changed_run = ? WHERE doc_id = ?",
-                        (*fields, run if what != "unchanged" else before[8], doc.id),
-                    )
-            if digest not in stored_texts and digest not in batch:
-                batch[digest] = (encoded, len(canonical))
-                if len(batch) >= BATCH_TEXTS:
-                    sketcher.add(batch)
-                    stored_texts.update(batch)
-                    batch = {}
-            progress.advance()
-        # Files skipped by their modification time are present and unchanged.
-        for entry in ledger:
-            if entry.reason == UNCHANGED_REASON and entry.document_id not in seen:
-                seen.add(entry.document_id)
-                tally["unchanged"] += 1
-        progress.done(f"{len(seen):,} documents")
-        progress.start("sketching")
-        sketcher.add(batch)
-        gone = [doc_id for doc_id, row in known.items() if row[1] == "present" and doc_id not in seen]
-        db.executemany(
-            "UPDATE documents SET status = 'removed', removed_run = ? WHERE doc_id = ?",
-            [(run, d) for d in gone],
-        )
-        deleted = _delete_unused_texts(db, {known[d][0] for d in gone} | replaced)
-        sketcher.write_postings()
-        progress.done(f"{sketcher.sketched:,} new texts")
-        progress.start("statistics")
-        if sketcher.sketched or deleted or kind == "build":
-            statistics = refresh_statistics(db, run, settings.sublinear_tf)
-        else:  # the same texts as before: the stored statistics still hold
-            statistics = _stored_statistics(db)
-        progress.done()
+        run.read(paths)
+        run.remove_missing()
+        run.sketch(run.templates())
+        statistics = run.statistics()
         index.store_settings(settings)
-        present = db.execute("SELECT count(*) FROM documents WHERE status = 'present'").fetchone()[0]
-        seconds = round(time.perf_counter() - started, 3)
-        db.execute(
-            "UPDATE runs SET seconds = ?, documents = ?, added = ?, changed = ?, removed = ?, unchanged = ?, "
-            "sketched = ? WHERE run = ?",
-            (
-                seconds,
-                present,
-                tally["added"],
-                tally["changed"],
-                len(gone),
-                tally["unchanged"],
-                sketcher.sketched,
-                run,
-            ),
-        )
+        db.execute("DELETE FROM meta WHERE key = ?", (schema.NEEDS_UPDATE,))
+        summary = run.finish(statistics, round(time.perf_counter() - started, 3))
     # Fold the write-ahead log back into the file, so it does not stay as large as the run.
     with index.guard():
         index.connection.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-    return RunSummary(
-        run=run,
-        kind=kind,
-        documents=present,
-        added=tally["added"],
-        changed=tally["changed"],
-        removed=len(gone),
-        unchanged=tally["unchanged"],
-        sketched=sketcher.sketched,
-        texts=statistics["texts"],
-        seconds=seconds,
-        inputs=summarize(ledger),
-        statistics=statistics,
-    )
+    return summary
 
 
 # A file changed within this many seconds of the last run may share its modification time
@@ -313,22 +363,6 @@ def _unchanged_check(db, known: dict, run: int):
     return unchanged
 
 
-def _delete_unused_texts(connection, candidates: set[str]) -> int:
-    """Delete the texts among ``candidates`` that no present document has; O(candidates) lookups."""
-    unused = []
-    for digest in sorted(candidates):
-        still = connection.execute(
-            "SELECT 1 FROM documents WHERE content_hash = ? AND status = 'present' LIMIT 1", (digest,)
-        ).fetchone()
-        if still is None:
-            row = connection.execute("SELECT text_id FROM texts WHERE content_hash = ?", (digest,)).fetchone()
-            if row is not None:
-                unused.append(row)
-    connection.executemany("DELETE FROM sketches WHERE text_id = ?", unused)
-    connection.executemany("DELETE FROM texts WHERE text_id = ?", unused)
-    return len(unused)
-
-
 def _stored_statistics(connection) -> dict:
     texts, entries, live, segments = connection.execute(
         "SELECT texts, entries, live_entries, segments FROM tfidf WHERE id = 1"
@@ -352,7 +386,8 @@ def build(
     index_path : str
         The index file to create; it must not hold an index yet.
     settings : AuditSettings, optional
-        Sketch settings (shingles, MinHash, TF-IDF) and reading options, recorded in the
+        Sketch settings (shingles, MinHash, TF-IDF), template settings (``boilerplate``,
+        ``boilerplate_*``, ``ignore_text_file``) and reading options, recorded in the
         index; default ``AuditSettings()``.
 
     Raises
@@ -360,12 +395,12 @@ def build(
     IndexFileError
         ``index_path`` already holds an index (use `update`), or is not an index file.
     dedup.InputError
-        A path does not exist.
+        A path, or the ignore-text file, does not exist.
 
     Notes
     -----
-    Cost O(total bytes) for reading and sketching, plus writing every text's signature,
-    shingles and term counts once.
+    Cost O(total bytes) for reading, normalizing and sketching, plus writing every text's
+    signature, shingles, term counts, line hashes and compressed canonical form once.
     """
     settings = (settings or AuditSettings()).validate()
     if os.path.exists(index_path) and os.path.getsize(index_path) > 0:
@@ -397,7 +432,8 @@ def update(
     index_path : str
     settings : AuditSettings, optional
         Default: the settings stored in the index. Given settings must have the same
-        sketch settings (`SKETCH_KEYS`); their reading options are used and recorded.
+        sketch settings (`SKETCH_KEYS`); their template settings and reading options are
+        used and recorded (texts whose template lines they change are sketched again).
 
     Raises
     ------
@@ -405,12 +441,14 @@ def update(
         No index at ``index_path``, or not an index; `IndexSettingsError` when the
         sketch settings differ.
     dedup.InputError
-        A path does not exist.
+        A path, or the ignore-text file, does not exist.
 
     Notes
     -----
-    Cost: reading and hashing every document, O(total bytes); sketching only the new
-    and changed texts; one pass over the stored term counts for the statistics.
+    Cost: reading and normalizing every document whose file changed, O(their bytes);
+    sketching only the new and changed texts and those whose template lines changed;
+    when texts came or went, one pass over the stored line sets; one pass over the
+    stored term counts for the statistics.
     """
     with open_index(index_path, settings) as index:
         chosen = (settings or index.settings).validate()

@@ -164,7 +164,8 @@ def write_segment(
 
 
 def _searchable(connection: sqlite3.Connection) -> tuple[np.ndarray, int, int]:
-    rows = connection.execute("SELECT text_id, terms FROM texts WHERE words > 0 ORDER BY text_id").fetchall()
+    # Every stored text has words (texts without are not stored): all are searchable.
+    rows = connection.execute("SELECT text_id, terms FROM texts ORDER BY text_id").fetchall()
     ids = np.asarray([r[0] for r in rows], dtype=np.int64)
     live = int(sum(r[1] for r in rows))
     top = connection.execute("SELECT seq FROM sqlite_sequence WHERE name = 'texts'").fetchone()
@@ -314,13 +315,44 @@ def refresh_statistics(
     per stored entry; a merge decodes them, about 30 bytes per entry).
     """
     ids, live_entries, top = _searchable(connection)
-    n = int(ids.shape[0])
     position = np.full(top + 1, -1, dtype=np.int64)
-    position[ids] = np.arange(n)
+    position[ids] = np.arange(ids.shape[0])
     rows = connection.execute(
         "SELECT term_column, text_ids, counts FROM postings ORDER BY term_column, segment"
     ).fetchall()
     segments = connection.execute("SELECT count(DISTINCT segment) FROM postings").fetchone()[0]
+    columns, df, norm2, entries = _column_statistics(rows, position, int(ids.shape[0]), sublinear)
+    if merge is None:
+        merge = segments > MAX_SEGMENTS or (entries > 0 and live_entries < MIN_LIVE_SHARE * entries)
+    if merge:
+        entries, segments = _merge_segments(connection, run, rows, columns, df, position)
+    used = df > 0
+    stored = (
+        pack_sorted(ids),
+        pack_array(np.sqrt(norm2), "<f8"),
+        pack_sorted(columns[used]),
+        pack_uints(df[used]),
+    )
+    connection.execute(
+        "UPDATE tfidf SET texts = ?, text_ids = ?, norms = ?, term_columns = ?, df = ?, entries = ?, "
+        "live_entries = ?, segments = ?, run = ? WHERE id = 1",
+        (int(ids.shape[0]), *stored, entries, live_entries, int(segments), run),
+    )
+    return {
+        "texts": int(ids.shape[0]),
+        "entries": entries,
+        "live_entries": live_entries,
+        "segments": int(segments),
+        "merged": bool(merge),
+    }
+
+
+def _column_statistics(
+    rows: list, position: np.ndarray, n: int, sublinear: bool
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
+    """Over posting rows ``(column, ids blob, counts blob)`` ordered by column: the columns,
+    their document frequency over searchable texts, each searchable text's squared norm,
+    and the entries stored. Raises `BlobError` on a damaged blob."""
     row_columns = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
     id_buf, id_offsets = _joined([r[1] for r in rows])
     count_buf, count_offsets = _joined([r[2] for r in rows])
@@ -339,53 +371,38 @@ def refresh_statistics(
     )
     if not ok:
         raise BlobError("the postings do not fit the stored texts")
-    entries = int(entries)
-    if merge is None:
-        merge = segments > MAX_SEGMENTS or (entries > 0 and live_entries < MIN_LIVE_SHARE * entries)
-    norms = np.sqrt(norm2)
-    used = df > 0
+    return columns, df, norm2, int(entries)
 
-    if merge:
-        text_ids, _ = _decode_rows([r[1] for r in rows], cumulative=True)
-        counts, _ = _decode_rows([r[2] for r in rows], cumulative=False)
-        keep = position[text_ids] >= 0
-        kept_ids, kept_counts = text_ids[keep], counts[keep]
-        bounds = np.zeros(columns.shape[0] + 1, dtype=np.int64)
-        np.cumsum(df, out=bounds[1:])
-        merged_rows = [
-            (run, int(columns[g]), int(df[g]), pack_sorted(kept_ids[a:b]), pack_uints(kept_counts[a:b]))
-            for g, a, b in zip(
-                np.flatnonzero(used).tolist(), bounds[:-1][used].tolist(), bounds[1:][used].tolist()
-            )
-        ]
-        connection.execute("DELETE FROM postings")
-        connection.executemany(
-            "INSERT INTO postings (segment, term_column, df, text_ids, counts) VALUES (?, ?, ?, ?, ?)",
-            merged_rows,
+
+def _merge_segments(
+    connection: sqlite3.Connection,
+    run: int,
+    rows: list,
+    columns: np.ndarray,
+    df: np.ndarray,
+    position: np.ndarray,
+) -> tuple[int, int]:
+    """Rewrite all postings as one segment without the entries of texts that are gone;
+    the entries and segments after."""
+    text_ids, _ = _decode_rows([r[1] for r in rows], cumulative=True)
+    counts, _ = _decode_rows([r[2] for r in rows], cumulative=False)
+    keep = position[text_ids] >= 0
+    kept_ids, kept_counts = text_ids[keep], counts[keep]
+    bounds = np.zeros(columns.shape[0] + 1, dtype=np.int64)
+    np.cumsum(df, out=bounds[1:])
+    used = df > 0
+    merged_rows = [
+        (run, int(columns[g]), int(df[g]), pack_sorted(kept_ids[a:b]), pack_uints(kept_counts[a:b]))
+        for g, a, b in zip(
+            np.flatnonzero(used).tolist(), bounds[:-1][used].tolist(), bounds[1:][used].tolist()
         )
-        entries, segments = int(kept_ids.shape[0]), 1 if merged_rows else 0
-    connection.execute(
-        "UPDATE tfidf SET texts = ?, text_ids = ?, norms = ?, term_columns = ?, df = ?, entries = ?, "
-        "live_entries = ?, segments = ?, run = ? WHERE id = 1",
-        (
-            n,
-            pack_sorted(ids),
-            pack_array(norms, "<f8"),
-            pack_sorted(columns[used]),
-            pack_uints(df[used]),
-            entries,
-            live_entries,
-            int(segments),
-            run,
-        ),
+    ]
+    connection.execute("DELETE FROM postings")
+    connection.executemany(
+        "INSERT INTO postings (segment, term_column, df, text_ids, counts) VALUES (?, ?, ?, ?, ?)",
+        merged_rows,
     )
-    return {
-        "texts": n,
-        "entries": entries,
-        "live_entries": live_entries,
-        "segments": int(segments),
-        "merged": bool(merge),
-    }
+    return int(kept_ids.shape[0]), 1 if merged_rows else 0
 
 
 def load_statistics(connection: sqlite3.Connection) -> Statistics:

@@ -7,22 +7,36 @@ naming a file format) and a ``meta`` row ``format = dedup-index``. ``meta`` also
 newer dedup and is refused, a lower one is brought up to date by `MIGRATIONS`, each step
 in the same transaction as the version bump.
 
-Tables (version 1)
+Tables (version 2)
 ------------------
 meta(key, value)
-    ``format``, ``schema_version``, ``created_at``, ``created_by`` (tool version) and
-    ``settings`` (JSON: the settings the sketches were built with).
+    ``format``, ``schema_version``, ``created_at``, ``created_by`` (tool version),
+    ``settings`` (JSON: the settings the sketches were built with, template rule
+    included) and, after a migration from version 1 until the next update,
+    ``needs_update`` (why the texts must be sketched again).
 runs(run, kind, started_at, seconds, roots, documents, added, changed, removed, unchanged, sketched)
     One row per build or update; ``run`` numbers the documents' history columns.
-texts(text_id, content_hash, characters, words, terms, shingle_count, run)
-    One row per distinct canonical text of a present document (``terms``: how many
-    distinct term columns it uses, i.e. its entries in ``postings``). ``text_id`` is
-    never reused (AUTOINCREMENT), so postings of a text that is gone can never be taken
-    for a later text's.
+texts(text_id, content_hash, characters, words, terms, shingle_count, sketched_hash, run)
+    One row per distinct canonical text with words of a present document (a text
+    without words is never searched, as an audit never compares it). ``words``,
+    ``terms`` (distinct term columns, i.e. entries in ``postings``) and
+    ``shingle_count`` are of the text as sketched, its template lines left out;
+    ``sketched_hash`` is the content hash of exactly those bytes; ``run`` is the run
+    that sketched it. ``text_id`` is never reused (AUTOINCREMENT), so postings of a
+    text that is gone, or sketched again under a new id, are never taken for another's.
 sketches(text_id, signature, shingles)
     The MinHash signature (``num_perm`` x uint32) and the sorted unique shingle hashes
-    (uint64) of each text; apart from ``texts`` so that reading the small columns of
-    every text never pages through the large blobs.
+    (uint64) of each text as sketched; apart from ``texts`` so that reading the small
+    columns of every text never pages through the large blobs.
+text_lines(text_id, lines)
+    The sorted distinct hashes (uint64) of each text's canonical lines: its part of
+    the corpus-wide template counter (`dedup.index.templates`).
+canonicals(text_id, form)
+    Each text's canonical lines joined by LF, zlib-compressed: what is stripped of
+    template lines and sketched again when its template lines change.
+templates(id, rule, max_text_share, texts, threshold, line_hashes, counts)
+    One row: the template lines the stored sketches left out (sorted hashes, and in
+    how many texts each is), the rule that chose them (JSON), and over how many texts.
 documents(doc_id, content_hash, status, source, format, title, bytes, mtime, metadata,
           added_run, changed_run, removed_run)
     One row per document ever indexed; ``status`` is ``present`` or ``removed``. A
@@ -52,14 +66,54 @@ from __future__ import annotations
 import sqlite3
 from collections.abc import Callable
 
-__all__ = ["SCHEMA_VERSION", "APPLICATION_ID", "FORMAT", "CREATE", "MIGRATIONS"]
+__all__ = ["SCHEMA_VERSION", "APPLICATION_ID", "FORMAT", "CREATE", "MIGRATIONS", "NEEDS_UPDATE"]
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 FORMAT = "dedup-index"
 # "DDUP" in ASCII, stored in the SQLite header by PRAGMA application_id.
 APPLICATION_ID = 0x44445550
+# The ``meta`` key a migration leaves when the stored texts must be sketched again.
+NEEDS_UPDATE = "needs_update"
 
-CREATE = """
+# The tables of the distinct texts and what was made of them: a migration that changes
+# how texts are sketched drops and creates these anew.
+TEXT_TABLES = """
+CREATE TABLE texts (
+    text_id INTEGER PRIMARY KEY AUTOINCREMENT,
+    content_hash TEXT NOT NULL UNIQUE,
+    characters INTEGER NOT NULL,
+    words INTEGER NOT NULL,
+    terms INTEGER NOT NULL,
+    shingle_count INTEGER NOT NULL,
+    sketched_hash TEXT NOT NULL,
+    run INTEGER NOT NULL
+);
+CREATE TABLE sketches (
+    text_id INTEGER PRIMARY KEY,
+    signature BLOB NOT NULL,
+    shingles BLOB NOT NULL
+);
+CREATE TABLE text_lines (
+    text_id INTEGER PRIMARY KEY,
+    lines BLOB NOT NULL
+);
+CREATE TABLE canonicals (
+    text_id INTEGER PRIMARY KEY,
+    form BLOB NOT NULL
+);
+CREATE TABLE templates (
+    id INTEGER PRIMARY KEY CHECK (id = 1),
+    rule TEXT NOT NULL,
+    max_text_share REAL NOT NULL,
+    texts INTEGER NOT NULL,
+    threshold INTEGER NOT NULL,
+    line_hashes BLOB NOT NULL,
+    counts BLOB NOT NULL
+);
+"""
+
+CREATE = (
+    """
 CREATE TABLE meta (
     key TEXT PRIMARY KEY,
     value TEXT NOT NULL
@@ -76,20 +130,6 @@ CREATE TABLE runs (
     removed INTEGER,
     unchanged INTEGER,
     sketched INTEGER
-);
-CREATE TABLE texts (
-    text_id INTEGER PRIMARY KEY AUTOINCREMENT,
-    content_hash TEXT NOT NULL UNIQUE,
-    characters INTEGER NOT NULL,
-    words INTEGER NOT NULL,
-    terms INTEGER NOT NULL,
-    shingle_count INTEGER NOT NULL,
-    run INTEGER NOT NULL
-);
-CREATE TABLE sketches (
-    text_id INTEGER PRIMARY KEY,
-    signature BLOB NOT NULL,
-    shingles BLOB NOT NULL
 );
 CREATE TABLE documents (
     doc_id TEXT PRIMARY KEY,
@@ -149,7 +189,46 @@ CREATE TABLE decisions (
     UNIQUE (subject, decided_at)
 );
 """
+    + TEXT_TABLES
+)
+
+EMPTY_TFIDF = (
+    "INSERT INTO tfidf (id, texts, text_ids, norms, term_columns, df, entries, live_entries, segments, run) "
+    "VALUES (1, 0, x'', x'', x'', x'', 0, 0, 0, 0)"
+)
+
+
+def statements(script: str) -> list[str]:
+    """The statements of a script, to run one at a time (``executescript`` would commit
+    the open transaction)."""
+    return [statement for statement in script.split(";") if statement.strip()]
+
+
+def _sketch_texts_again(connection: sqlite3.Connection) -> None:
+    """Version 1 to 2: texts are normalized and sketched as an audit does (template lines
+    left out), and keep their line hashes and canonical form.
+
+    Version 1 kept neither, so its sketches (of whole texts) cannot be turned into the
+    new ones: the texts and their postings are dropped, every document's modification
+    time is forgotten so the next ``dedup index update`` reads and sketches every file
+    again, and ``meta.needs_update`` says so until then (a search refuses with that
+    message). Documents, their history, recorded audits and review decisions are kept.
+    Cost: O(documents) here; the update after costs what a build costs.
+    """
+    for table in ("texts", "sketches", "text_lines", "canonicals", "templates"):
+        connection.execute(f"DROP TABLE IF EXISTS {table}")
+    for statement in statements(TEXT_TABLES):
+        connection.execute(statement)
+    connection.execute("DELETE FROM postings")
+    connection.execute("DELETE FROM tfidf")
+    connection.execute(EMPTY_TFIDF)
+    connection.execute("UPDATE documents SET mtime = NULL")
+    connection.execute(
+        "INSERT OR REPLACE INTO meta (key, value) VALUES (?, ?)",
+        (NEEDS_UPDATE, "it was written by an older dedup, whose sketches this one cannot use"),
+    )
+
 
 # Version n -> function that brings a version-n file to version n + 1 (run inside the
-# transaction that also writes the new version number). Empty while there is one version.
-MIGRATIONS: dict[int, Callable[[sqlite3.Connection], None]] = {}
+# transaction that also writes the new version number).
+MIGRATIONS: dict[int, Callable[[sqlite3.Connection], None]] = {1: _sketch_texts_again}

@@ -9,7 +9,9 @@ leaves the file as it was before that write or as it is after it, never in betwe
 What is refused, with a one-line `IndexFileError` (the command line exits with code 2):
 a path that is not an SQLite file, an SQLite file of another program, a file written by
 a newer dedup (higher schema version), a damaged file, and settings that would mix
-sketches built differently (`IndexSettingsError`).
+sketches built differently (`IndexSettingsError`). A file of an older version is
+migrated when opened (`dedup.index.schema.MIGRATIONS`); a search of an index whose
+sketches a migration left to be made again names the command that makes them.
 """
 
 from __future__ import annotations
@@ -36,6 +38,7 @@ __all__ = [
     "IndexBusyError",
     "open_index",
     "SKETCH_KEYS",
+    "TEMPLATE_KEYS",
     "read_keys",
     "utc_now",
 ]
@@ -50,6 +53,15 @@ SKETCH_KEYS = (
     "seed",
     "tfidf_features",
     "sublinear_tf",
+)
+# Settings that decide which lines are template lines and how they are left out. They are
+# recorded (an update keeps them) but may change: the texts they change are sketched again.
+TEMPLATE_KEYS = (
+    "boilerplate",
+    "boilerplate_share",
+    "boilerplate_min_texts",
+    "boilerplate_max_text_share",
+    "ignore_text_file",
 )
 # Larger pages make the long blobs (shingles, postings) cheaper to read and write.
 PAGE_SIZE = 16384
@@ -88,7 +100,7 @@ def read_keys() -> tuple[str, ...]:
 
 def _index_settings(settings: AuditSettings) -> dict[str, Any]:
     data = settings.to_dict()
-    return {key: data[key] for key in (*SKETCH_KEYS, *read_keys())}
+    return {key: data[key] for key in (*SKETCH_KEYS, *TEMPLATE_KEYS, *read_keys())}
 
 
 class Index:
@@ -196,6 +208,22 @@ class Index:
             (json.dumps(_index_settings(settings), sort_keys=True),),
         )
 
+    def require_sketched(self) -> None:
+        """Refuse to use the stored sketches while a migration has left them to be made again.
+
+        Raises
+        ------
+        IndexFileError
+            Naming the command that makes them (``dedup index update``).
+        """
+        with self.guard():
+            reason = self.meta(schema.NEEDS_UPDATE)
+        if reason is not None:
+            raise IndexFileError(
+                f"the index {self.path} has no sketches yet ({reason}): run 'dedup index update' once "
+                "to read and sketch its documents again"
+            )
+
 
 def _connect(path: str) -> sqlite3.Connection:
     connection = sqlite3.connect(path, isolation_level=None, timeout=BUSY_SECONDS, check_same_thread=False)
@@ -214,10 +242,8 @@ def _create(index: Index, settings: AuditSettings) -> None:
     with index.writing():
         if _has_tables(connection):  # another process created it meanwhile
             return
-        # One statement at a time: executescript would commit the open transaction.
-        for statement in schema.CREATE.split(";"):
-            if statement.strip():
-                connection.execute(statement)
+        for statement in schema.statements(schema.CREATE):
+            connection.execute(statement)
         connection.execute(f"PRAGMA application_id = {schema.APPLICATION_ID}")
         rows = {
             "format": schema.FORMAT,
@@ -227,10 +253,7 @@ def _create(index: Index, settings: AuditSettings) -> None:
             "settings": json.dumps(_index_settings(settings), sort_keys=True),
         }
         connection.executemany("INSERT INTO meta (key, value) VALUES (?, ?)", sorted(rows.items()))
-        connection.execute(
-            "INSERT INTO tfidf (id, texts, text_ids, norms, term_columns, df, entries, live_entries, segments, run) "
-            "VALUES (1, 0, x'', x'', x'', x'', 0, 0, 0, 0)"
-        )
+        connection.execute(schema.EMPTY_TFIDF)
 
 
 def _check_ours(index: Index) -> int:
@@ -306,29 +329,36 @@ def open_index(path: str, settings: AuditSettings | None = None, *, create: bool
         # The header is checked by SQLite itself: opening and closing the file by other means
         # would drop the locks other connections of this process hold on it.
         with index.guard():
-            try:
-                has_tables = _has_tables(connection)
-            except sqlite3.DatabaseError as err:
-                if "not a database" in str(err):
-                    raise IndexFileError(f"{path} is not a dedup index (not an SQLite file)") from err
-                raise
-            if not has_tables:
-                if not create:
-                    raise IndexFileError(
-                        f"the index {path} is empty (a first build did not finish): run 'dedup index build' again"
-                    )
-                _create(index, settings or AuditSettings())
-            version = _check_ours(index)
-            if version > schema.SCHEMA_VERSION:
-                raise IndexFileError(
-                    f"the index {path} was written by a newer dedup (schema version {version}; "
-                    f"this dedup reads up to {schema.SCHEMA_VERSION}): upgrade dedup"
-                )
-            if version < schema.SCHEMA_VERSION:
-                _migrate(index, version)
-            if settings is not None:
-                index.check_settings(settings)
+            _prepare(index, settings, create)
     except BaseException:
         connection.close()
         raise
     return index
+
+
+def _prepare(index: Index, settings: AuditSettings | None, create: bool) -> None:
+    """Create the tables of an empty file (with ``create``), check the file is an index of
+    a version this dedup reads, migrate an older one, and check ``settings``."""
+    path, connection = index.path, index.connection
+    try:
+        has_tables = _has_tables(connection)
+    except sqlite3.DatabaseError as err:
+        if "not a database" in str(err):
+            raise IndexFileError(f"{path} is not a dedup index (not an SQLite file)") from err
+        raise
+    if not has_tables:
+        if not create:
+            raise IndexFileError(
+                f"the index {path} is empty (a first build did not finish): run 'dedup index build' again"
+            )
+        _create(index, settings or AuditSettings())
+    version = _check_ours(index)
+    if version > schema.SCHEMA_VERSION:
+        raise IndexFileError(
+            f"the index {path} was written by a newer dedup (schema version {version}; "
+            f"this dedup reads up to {schema.SCHEMA_VERSION}): upgrade dedup"
+        )
+    if version < schema.SCHEMA_VERSION:
+        _migrate(index, version)
+    if settings is not None:
+        index.check_settings(settings)

@@ -13,6 +13,7 @@ from dedup.features import shingle_strings
 from dedup.index import build, open_index, update
 from dedup.index import indexing as index_indexing
 from dedup.index import postings as index_postings
+from dedup.index import texts as index_texts
 from dedup.index.blobs import unpack_array
 from dedup.ingest import iter_documents
 from dedup.normalize import canonical_text, token_text
@@ -79,19 +80,22 @@ def test_update_sketches_only_new_and_changed_texts(
     (root / "lone/new.txt").write_text(base_texts[9], encoding="utf-8")  # added
     (root / "lone/4.txt").unlink()  # removed
     (root / "lone/copy-of-5.txt").write_text(base_texts[5], encoding="utf-8")  # added, text already stored
-    sketched: list[str] = []
-    original = index_indexing._Sketcher.add
+    sketched: list[int] = []
+    original = index_texts._Writer.add
 
-    def spy(self, batch):
-        sketched.extend(batch)
-        return original(self, batch)
+    def spy(self, ids, buf, offsets):
+        sketched.extend(ids)
+        return original(self, ids, buf, offsets)
 
-    monkeypatch.setattr(index_indexing._Sketcher, "add", spy)
+    monkeypatch.setattr(index_texts._Writer, "add", spy)
     summary = update([str(root)], path)
     assert (summary.added, summary.changed, summary.removed) == (2, 1, 1)
     assert summary.unchanged == len(corpus_files) - 2
     expected = {dedup.normalize.content_hash(canonical_text(base_texts[k])) for k in (8, 9)}
-    assert set(sketched) == expected and summary.sketched == 2
+    with sqlite(path) as connection:
+        hash_of = dict(connection.execute("SELECT text_id, content_hash FROM texts"))
+    assert {hash_of[i] for i in sketched} == expected and len(sketched) == summary.sketched == 2
+    assert summary.resketched == 0
     docs = _documents(path)
     assert docs["lone/4.txt"][1] == "removed"
     with sqlite(path) as connection:
@@ -201,8 +205,13 @@ def test_update_trusts_old_modification_times_and_reads_recent_ones(
     path = str(tmp_path / "i.index")
     build([str(root)], path)
     reads = []
-    real = index_indexing.canonical_text
-    monkeypatch.setattr(index_indexing, "canonical_text", lambda text: reads.append(text) or real(text))
+    real = index_indexing.prepare_documents
+
+    def spy(documents, *args, **kwargs):
+        reads.extend(doc.id for doc in documents)
+        return real(documents, *args, **kwargs)
+
+    monkeypatch.setattr(index_indexing, "prepare_documents", spy)
     summary = update(None, path)
     assert reads == [] and summary.unchanged == len(_documents(path))
     assert (summary.added, summary.changed, summary.removed) == (0, 0, 0)

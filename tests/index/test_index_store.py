@@ -30,7 +30,7 @@ def _check_marks(connection) -> None:
     assert connection.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
     assert connection.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
     meta = dict(connection.execute("SELECT key, value FROM meta"))
-    assert meta["format"] == "dedup-index" and meta["schema_version"] == "1"
+    assert meta["format"] == "dedup-index" and meta["schema_version"] == str(index_schema.SCHEMA_VERSION)
 
 
 def test_missing_index_names_the_command_that_creates_one(tmp_path):
@@ -99,10 +99,11 @@ def test_an_older_schema_is_migrated_in_one_step(built, monkeypatch):
     def add_notes(connection):
         connection.execute("CREATE TABLE notes (text TEXT)")
 
-    monkeypatch.setattr(index_schema, "SCHEMA_VERSION", 2)
-    monkeypatch.setattr(index_schema, "MIGRATIONS", {1: add_notes})
+    version = index_schema.SCHEMA_VERSION
+    monkeypatch.setattr(index_schema, "SCHEMA_VERSION", version + 1)
+    monkeypatch.setattr(index_schema, "MIGRATIONS", {version: add_notes})
     with open_index(built) as index:
-        assert index.meta("schema_version") == "2"
+        assert index.meta("schema_version") == str(version + 1)
         tables = {
             r[0] for r in index.connection.execute("SELECT name FROM sqlite_master WHERE type = 'table'")
         }
@@ -114,12 +115,14 @@ def test_a_failed_migration_leaves_the_file_as_it_was(built, monkeypatch):
         connection.execute("CREATE TABLE half_done (x)")
         raise RuntimeError("migration failed")
 
-    monkeypatch.setattr(index_schema, "SCHEMA_VERSION", 2)
-    monkeypatch.setattr(index_schema, "MIGRATIONS", {1: broken})
+    version = index_schema.SCHEMA_VERSION
+    monkeypatch.setattr(index_schema, "SCHEMA_VERSION", version + 1)
+    monkeypatch.setattr(index_schema, "MIGRATIONS", {version: broken})
     with pytest.raises(RuntimeError):
         open_index(built)
     with sqlite(built) as connection:
-        assert connection.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()[0] == "1"
+        stored = connection.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()[0]
+        assert stored == str(version)
         assert not connection.execute("SELECT name FROM sqlite_master WHERE name = 'half_done'").fetchall()
 
 

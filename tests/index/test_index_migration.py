@@ -1,0 +1,87 @@
+"""An index written by the dedup of schema version 1 is migrated, not lost.
+
+`v1_index.sql` is a dump (``sqlite3 .iterdump``) of a real version-1 index of `V1_CORPUS`,
+built by that dedup, with one audit recorded and one review decision imported. Version 1
+sketched whole texts and kept neither line hashes nor canonical forms, so the migration
+keeps documents, audits and decisions, drops the sketches, and the next update sketches
+every text again.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from index_helpers import V1_CORPUS, assert_same_as_fresh, sqlite
+
+import dedup
+from dedup import AuditSettings
+from dedup.index import IndexFileError, open_index, similar, track_audit, update
+from dedup.index import schema as index_schema
+
+DUMP = Path(__file__).with_name("v1_index.sql")
+
+
+@pytest.fixture
+def v1_index(tmp_path) -> Path:
+    path = tmp_path / "v1.index"
+    with sqlite(path) as db:
+        db.execute(f"PRAGMA page_size = {16384}")
+        db.executescript(DUMP.read_text(encoding="utf-8"))
+        db.execute(f"PRAGMA application_id = {index_schema.APPLICATION_ID}")
+        db.execute("PRAGMA journal_mode = WAL")
+        assert db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone() == ("1",)
+    return path
+
+
+@pytest.fixture
+def v1_corpus(write_corpus) -> Path:
+    return write_corpus(V1_CORPUS)
+
+
+def _count(path, table: str) -> int:
+    with sqlite(path) as db:
+        return db.execute(f"SELECT count(*) FROM {table}").fetchone()[0]
+
+
+def test_opening_migrates_and_keeps_documents_audits_and_decisions(v1_index, cli):
+    with open_index(str(v1_index)) as index:
+        assert index.meta("schema_version") == str(index_schema.SCHEMA_VERSION)
+        assert index.meta(index_schema.NEEDS_UPDATE)
+        with pytest.raises(IndexFileError, match="run 'dedup index update' once"):
+            similar(index, "gamma rays from the lab")
+    assert (_count(v1_index, "documents"), _count(v1_index, "audits"), _count(v1_index, "decisions")) == (
+        5,
+        1,
+        1,
+    )
+    assert _count(v1_index, "texts") == _count(v1_index, "postings") == 0
+    code, out, err = cli("similar", "gamma rays", "--index", str(v1_index))
+    assert (
+        code == 2
+        and err.startswith("dedup: error: ")
+        and "dedup index update" in err
+        and err.count("\n") == 1
+    )
+
+
+def test_the_update_after_sketches_every_text_as_a_fresh_build(v1_index, v1_corpus, tmp_path):
+    settings = AuditSettings(threshold=0.5)
+    summary = update([str(v1_corpus)], str(v1_index), settings)
+    # Same content hashes as version 1 computed: every document is unchanged, every text is sketched.
+    assert (summary.added, summary.changed, summary.removed, summary.unchanged) == (0, 0, 0, 5)
+    assert summary.sketched == summary.texts == 5 and summary.template_lines == 2
+    assert_same_as_fresh(v1_corpus, v1_index, settings, tmp_path, "fresh")
+    with open_index(str(v1_index)) as index:
+        assert index.meta(index_schema.NEEDS_UPDATE) is None
+        assert similar(index, V1_CORPUS["pages/beta.txt"], k=1)[0]["document_id"] == "pages/beta.txt"
+    with sqlite(v1_index) as db:
+        assert db.execute("SELECT min(added_run), max(added_run) FROM documents").fetchone() == (1, 1)
+
+
+def test_decisions_made_before_the_migration_still_hold(v1_index, v1_corpus):
+    update([str(v1_corpus)], str(v1_index))
+    result = dedup.audit([str(v1_corpus)], AuditSettings(threshold=0.5))
+    delta, failed = track_audit(str(v1_index), result, "any")
+    assert delta["review"]["clusters"]["reviewed"] == 1 and not failed
+    assert delta["previous"] is not None and delta["counts"]["unchanged"] == 1
