@@ -9,11 +9,10 @@ to end until they hold the words wanted. Three measures:
    `dedup.align.align_pairs`, words already made;
 2. words with offsets (`dedup.align.word_spans`) over all the pages, in MB/s;
 3. a batch of ``--pairs`` pairs of pages (each page with an edited copy of itself, and with
-   another page), per pair on average; with ``--compare``, the per-pair evidence of
-   `dedup.report.evidence.pair_evidence` on the first 1,000 of the same pairs, for a ratio.
+   another page), per pair on average.
 
 Figures only, no thresholds. Run with one thread for numba (the default here):
-``NUMBA_NUM_THREADS=1 python -m benchmarks.align_speed [--repeat 7] [--pairs 10000] [--compare]``
+``NUMBA_NUM_THREADS=1 python -m benchmarks.align_speed [--repeat 7] [--pairs 10000]``
 """
 
 from __future__ import annotations
@@ -82,7 +81,7 @@ def batch_pairs(
     return texts + copies, pick.astype(np.int64), right.astype(np.int64)
 
 
-def batch_figures(pages: list[str], count: int, compare: bool, rng: np.random.Generator) -> None:
+def batch_figures(pages: list[str], count: int, rng: np.random.Generator) -> None:
     texts, left, right = batch_pairs(pages, count, rng)
     words = word_spans(texts)
     best, _ = timings(lambda: align_pairs(words, left, right), 1)
@@ -91,24 +90,6 @@ def batch_figures(pages: list[str], count: int, compare: bool, rng: np.random.Ge
         f"batch of {count} page pairs: {best:.3f} s, {best / count * 1e6:.1f} us per pair, "
         f"{found.pair.size} passages"
     )
-    if not compare:
-        return
-    from dedup.report.evidence import pair_evidence
-
-    subset = min(1000, count)
-    t = time.perf_counter()
-    for a, b in zip(left[:subset].tolist(), right[:subset].tolist()):
-        pair_evidence(texts[a], texts[b])
-    old = (time.perf_counter() - t) / subset
-    t = time.perf_counter()
-    word_spans(texts)
-    align_pairs(words, left[:subset], right[:subset])
-    new = (time.perf_counter() - t) / subset
-    print(
-        f"per pair on {subset} pairs, words included (align: word_spans of all {len(texts)} texts): "
-        f"pair_evidence {old * 1e3:.2f} ms, "
-        f"align {new * 1e3:.3f} ms, ratio {old / new:.0f}x"
-    )
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -116,7 +97,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser.add_argument("--repeat", type=int, default=7)
     parser.add_argument("--pairs", type=int, default=10_000)
     parser.add_argument("--pages", type=int, default=2000)
-    parser.add_argument("--compare", action="store_true", help="time pair_evidence on the same pairs")
     args = parser.parse_args(argv)
     rng = np.random.default_rng(12)
     pages = [t for _, t in iter_manpages(limit=args.pages, max_per_stem=2)]
@@ -132,11 +112,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         pair_figures(tokens, n, args.repeat, rng)
     best, _ = timings(lambda: word_spans(pages), 3)
     print(f"word_spans over all pages: {best:.3f} s, {mb / best:.0f} MB/s")
-    batch_figures(pages, args.pairs, args.compare, rng)
+    batch_figures(pages, args.pairs, rng)
     command = (
         f"NUMBA_NUM_THREADS=1 python -m benchmarks.align_speed --repeat {args.repeat} --pairs {args.pairs}"
     )
-    print(f"reproduce: {command} --pages {args.pages}{' --compare' if args.compare else ''}")
+    print(f"reproduce: {command} --pages {args.pages}")
     return 0
 
 

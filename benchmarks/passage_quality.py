@@ -22,8 +22,7 @@ COLING 2010). Everything is seeded: the same pages give the same table.
 
 Run: ``python -m benchmarks.passage_quality [--cases 100] [--pool 1500] [--seed 7]``, and
 ``--seed-words``, ``--max-gap``, ``--max-swap``, ``--min-words``, ``--min-similarity`` to
-score other settings than the defaults of `dedup.align.AlignSettings`; ``--compare`` also
-scores the per-pair evidence of `dedup.report.evidence` on the same cases.
+score other settings than the defaults of `dedup.align.AlignSettings`.
 """
 
 from __future__ import annotations
@@ -188,25 +187,6 @@ def detections(cases: Sequence[Case], settings: AlignSettings | None = None) -> 
     return out
 
 
-def evidence_detections(cases: Sequence[Case]) -> list[list[Annotation]]:
-    """For comparison: the passages of `dedup.report.evidence.pair_evidence`, a left and a
-    right passage of the same number making one detection."""
-    from dedup.report.evidence import pair_evidence
-
-    out: list[list[Annotation]] = []
-    for case in cases:
-        found = pair_evidence(case.suspicious, case.source)
-        right = {p.number: p for p in found.right}
-        out.append(
-            [
-                Annotation(case.truth.plg_doc, p.start, p.end, case.truth.src_doc, q.start, q.end)
-                for p in found.left
-                if (q := right.get(p.number)) is not None
-            ]
-        )
-    return out
-
-
 def score(
     cases: Sequence[Case], settings: AlignSettings | None = None, *, find=None
 ) -> dict[str, dict[str, float]]:
@@ -244,7 +224,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser.add_argument("--cases", type=int, default=100, help="cases per obfuscation level")
     parser.add_argument("--pool", type=int, default=1500, help="man pages to draw from")
     parser.add_argument("--seed", type=int, default=7)
-    parser.add_argument("--compare", action="store_true", help="also score the report's pair_evidence")
     defaults = AlignSettings()
     for name in ("seed_words", "max_gap", "max_swap", "min_words", "min_similarity"):
         kind = type(getattr(defaults, name))
@@ -272,9 +251,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     )
     print(f"{len(pool)} man pages, {len(cases)} cases, {settings}")
     _print_table(score(cases, settings), command + changed)
-    if args.compare:
-        print("\nthe report's pair_evidence on the same cases:")
-        _print_table(score(cases, find=evidence_detections), command + changed + " --compare")
     return 0
 
 

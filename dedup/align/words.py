@@ -224,7 +224,7 @@ def word_spans(texts: Sequence[str]) -> WordSpans:
     -------
     WordSpans
         One row per normalized word; equal, word for word, to the words and spans of
-        `dedup.report.evidence.words_with_offsets` with each word hashed.
+        the per-word NFKC and case folding of Python's `unicodedata` with each word hashed.
 
     Notes
     -----
