@@ -28,7 +28,7 @@ import argparse
 import json
 import sys
 
-from .cli import add_setting_options, settings_from_args
+from .cli import add_setting_options, settings_from_args, terminal_text
 from .settings import INPUTS, SettingsError, setting_options
 
 __all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines"]
@@ -147,8 +147,14 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress and no summary")
 
 
+def _print(text: str, **kwargs) -> None:
+    """`print`, with the ids, titles, terms and paths in ``text`` escaped for the terminal
+    (`dedup.cli.terminal_text`)."""
+    print(terminal_text(text), **kwargs)
+
+
 def _error(message: str) -> int:
-    print(f"dedup: error: {message}", file=sys.stderr)
+    _print(f"dedup: error: {message}", file=sys.stderr)
     return EXIT_USAGE
 
 
@@ -199,16 +205,16 @@ def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
         print(json.dumps(summary.to_dict(), indent=1, sort_keys=True))
     elif not args.quiet:
         inputs = summary.inputs
-        print(
+        _print(
             f"{summary.kind} {summary.run}: {summary.documents:,} documents ({summary.added:,} added, "
             f"{summary.changed:,} changed, {summary.removed:,} removed, {summary.unchanged:,} unchanged); "
             f"{summary.sketched:,} texts sketched, {summary.texts:,} searchable; {summary.seconds:.1f} s"
         )
-        print(
+        _print(
             f"inputs: {inputs.get('entries', 0):,} ({inputs.get('read', 0):,} read, "
             f"{inputs.get('empty', 0):,} empty, {inputs.get('skipped', 0):,} skipped)"
         )
-        print(f"index: {args.index}")
+        _print(f"index: {args.index}")
     return EXIT_OK
 
 
@@ -250,20 +256,20 @@ def _run_info(args: argparse.Namespace) -> int:
         print(json.dumps(info, indent=1, sort_keys=True))
     else:
         docs = info["documents"]
-        print(f"index: {args.index} (schema {info['schema_version']}, created {info['created_at']})")
-        print(
+        _print(f"index: {args.index} (schema {info['schema_version']}, created {info['created_at']})")
+        _print(
             f"documents: {docs.get('present', 0):,} present, {docs.get('removed', 0):,} removed; "
             f"texts: {info['texts']:,} ({info['searchable_texts']:,} searchable)"
         )
-        print(f"audits recorded: {info['audits']:,}; decisions: {info['decisions']:,}")
+        _print(f"audits recorded: {info['audits']:,}; decisions: {info['decisions']:,}")
         s = info["settings"]
-        print(
+        _print(
             f"sketches: shingle_size={s.get('shingle_size')} char_ngrams={s.get('char_ngrams')} "
             f"num_perm={s.get('num_perm')} seed={s.get('seed')} hash_scheme={s.get('hash_scheme')} "
             f"tfidf_features={s.get('tfidf_features')} sublinear_tf={s.get('sublinear_tf')}"
         )
         if args.check:
-            print("integrity check: " + "; ".join(info["integrity_check"]))
+            _print("integrity check: " + "; ".join(info["integrity_check"]))
     if args.check and info["integrity_check"] != ["ok"]:
         return EXIT_USAGE
     return EXIT_OK
@@ -277,7 +283,7 @@ def _run_import(args: argparse.Namespace) -> int:
     data = load_decisions_file(args.file)
     with open_index(args.index, create=not os.path.exists(args.index)) as index:
         counts = import_decisions(index, data)
-    print(
+    _print(
         f"decisions: {counts['decisions']:,} in {args.file}, {counts['new']:,} new, "
         f"{counts['known']:,} already in {args.index}"
     )
@@ -296,10 +302,10 @@ def _run_similar(args: argparse.Namespace) -> int:
         results = similar(index, text, k=args.top, terms=args.terms)
     if args.json:
         out = {"query": {"file": args.file, "characters": len(text)}, "k": args.top, "results": results}
-        print(json.dumps(out, indent=1, ensure_ascii=False))
+        print(terminal_text(json.dumps(out, indent=1, ensure_ascii=False), json_escapes=True))
         return EXIT_OK
     if not results:
-        print("no indexed document shares a term with the query")
+        _print("no indexed document shares a term with the query")
         return EXIT_OK
     for r in results:
         copies = (
@@ -308,12 +314,12 @@ def _run_similar(args: argparse.Namespace) -> int:
             else ""
         )
         title = f"  {r['title']!r}" if r["title"] else ""
-        print(f"{r['rank']:>3}. cosine {r['cosine']:.3f}  {r['document_id']}{copies}{title}")
+        _print(f"{r['rank']:>3}. cosine {r['cosine']:.3f}  {r['document_id']}{copies}{title}")
         terms = ", ".join(f"{t['term']} {t['share']:.3f}" for t in r["terms"])
-        print(
+        _print(
             f"     Jaccard {r['jaccard_estimate']:.2f} (MinHash estimate), {r['jaccard']:.2f} exact; terms: {terms}"
         )
-    print("note: similarity is evidence for review, not a verdict.")
+    _print("note: similarity is evidence for review, not a verdict.")
     return EXIT_OK
 
 

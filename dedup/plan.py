@@ -29,6 +29,7 @@ any other engine give the same answers from the same settings.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -41,7 +42,7 @@ from .settings import AuditSettings
 from .sketch import signatures_with
 from .sketch.tfidf import DocumentFrequency
 
-__all__ = ["Plan", "SketchedBatch", "sketch_batch", "STEPS"]
+__all__ = ["Plan", "SketchedBatch", "sketch_batch", "reading_keywords", "STEPS"]
 
 STEPS = (
     ("normalize", "map"),
@@ -97,6 +98,24 @@ class Plan:
     def may_need_lsh(self) -> bool:
         """Whether signatures may be needed before the corpus size is known."""
         return self.settings.candidates != "exhaustive"
+
+
+def reading_keywords(settings: AuditSettings) -> dict:
+    """The settings that say which documents are read and how, as keywords of
+    `dedup.ingest.iter_documents`: found by name, so a reading option declared on the
+    settings and taken by the reader reaches every engine without a change here."""
+    import inspect
+
+    from .ingest import iter_documents
+
+    taken = set(inspect.signature(iter_documents).parameters) - {
+        "roots",
+        "ledger",
+        "stdin",
+        "workers",
+        "prepare",
+    }
+    return {f.name: getattr(settings, f.name) for f in dataclasses.fields(settings) if f.name in taken}
 
 
 class SketchedBatch(NamedTuple):

@@ -5,7 +5,7 @@ from .encoding import decode_text
 from .ledger import STATUSES, LedgerEntry, summarize
 from .options import ReadOptions
 from .readers import FORMATS, format_of
-from .walk import InputError, iter_documents
+from .walk import InputError, iter_documents, leaving_out
 
 __all__ = [
     "STATUSES",
@@ -19,4 +19,5 @@ __all__ = [
     "format_of",
     "InputError",
     "iter_documents",
+    "leaving_out",
 ]

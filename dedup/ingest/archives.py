@@ -4,7 +4,11 @@ Nothing is ever extracted to disk: a member's bytes are read into memory (at mos
 ``max_file_bytes``), handed on, and dropped before the next member is read. Members
 whose path is absolute or climbs out of the archive (``../``) are refused, links are
 not followed, and the expansion of the whole archive is counted against its
-`ExpansionBudget`.
+`ExpansionBudget`, as are its members: at most ``max_archive_members`` per archive and
+``max_run_members`` in a run. A zip lists its members at its end and the standard
+library reads that whole list before the first member, so the list is counted first
+(`_zip_member_count`, without keeping it) and an archive that lists too many is refused
+before it is opened.
 
 Tar archives are read as a stream (``.tar``, ``.tar.gz``/``.tgz``, ``.tar.bz2``,
 ``.tar.xz``): the decompressor is ours, so every byte it produces is counted before
@@ -20,6 +24,7 @@ import io
 import lzma
 import re
 import stat
+import struct
 import tarfile
 import zipfile
 from collections.abc import Callable, Iterator
@@ -123,11 +128,74 @@ def _too_large(size: int, opts: ReadOptions) -> str:
     return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
 
+# The zip format's end-of-archive records and the fixed part of a central directory entry
+# (PKWARE APPNOTE.TXT 4.3.12, 4.3.14-4.3.16).
+_END = struct.Struct("<4s4H2LH")
+_END64_LOCATOR = struct.Struct("<4sLQL")
+_END64 = struct.Struct("<4sQ2H2L4Q")
+_ENTRY_SIZE = 46
+_ENTRY_LENGTHS = struct.Struct("<3H")  # name, extra field and comment lengths, at offset 28
+
+
+def _central_directory(handle: BinaryIO) -> tuple[int, int] | None:
+    """``(start, size)`` of a zip's list of members, found from its end records as the
+    standard library finds it (data prepended to the archive allowed); None when not found."""
+    end = handle.seek(0, io.SEEK_END)
+    tail_size = min(end, _END.size + 0xFFFF)
+    handle.seek(end - tail_size)
+    tail = handle.read(tail_size)
+    at = tail.rfind(b"PK\x05\x06")
+    if at < 0 or len(tail) - at < _END.size:
+        return None
+    record = end - tail_size + at
+    size = _END.unpack_from(tail, at)[5]
+    start = record - size
+    if record >= _END64_LOCATOR.size + _END64.size:
+        handle.seek(record - _END64_LOCATOR.size - _END64.size)
+        zip64 = handle.read(_END64.size + _END64_LOCATOR.size)
+        if zip64[_END64.size : _END64.size + 4] == b"PK\x06\x07" and zip64[:4] == b"PK\x06\x06":
+            size = _END64.unpack_from(zip64)[8]
+            start = record - _END64_LOCATOR.size - _END64.size - size
+    return (start, size) if start >= 0 else None
+
+
+def _zip_member_count(handle: BinaryIO, limit: int) -> int:
+    """Entries in a zip's list of members, counted up to ``limit + 1`` without keeping them
+    (0 when the list cannot be found: the standard library then says what is wrong).
+    Cost: reads the list up to that entry, in 64 KB pieces."""
+    found = _central_directory(handle)
+    count = 0
+    if found is not None:
+        start, size = found
+        handle.seek(start)
+        buffer, offset, position = b"", 0, 0
+        while position < size and count <= limit:
+            if offset + _ENTRY_SIZE > len(buffer):
+                buffer, offset = buffer[offset:] + handle.read(_CHUNK), 0
+                if len(buffer) < _ENTRY_SIZE:
+                    break
+            if buffer[offset : offset + 4] != b"PK\x01\x02":
+                break
+            length = _ENTRY_SIZE + sum(_ENTRY_LENGTHS.unpack_from(buffer, offset + 28))
+            count += 1
+            position += length
+            offset += length
+            if offset > len(buffer):  # a long entry: go on from its end
+                handle.seek(start + position)
+                buffer, offset = b"", 0
+    handle.seek(0)
+    return count
+
+
 def iter_zip(
     handle: BinaryIO, opts: ReadOptions, budget: ExpansionBudget, screen: Screen
 ) -> Iterator[Member]:
-    """Members of a zip archive in the archive's own order, each read or accounted for."""
+    """Members of a zip archive in the archive's own order, each read or accounted for;
+    past the member limits, one entry for the rest."""
     try:
+        if _zip_member_count(handle, opts.max_archive_members) > opts.max_archive_members:
+            yield Member("", status="refused", reason=f"not read: {budget.too_many_members()}")
+            return
         archive = zipfile.ZipFile(handle)
         infos = archive.infolist()
     except Exception as err:  # zipfile raises many kinds on hostile bytes
@@ -139,6 +207,10 @@ def iter_zip(
         for info in infos:
             if info.is_dir():
                 continue
+            too_many = budget.admit_member()
+            if too_many:
+                yield Member("", status="refused", reason=f"rest of the archive not read: {too_many}")
+                return
             name = _display(info.filename)
             member = Member(name, info.file_size, _zip_mtime(info))
             mode = info.external_attr >> 16
@@ -237,6 +309,10 @@ def iter_tar(
         for info in archive:
             if info.isdir():
                 continue
+            too_many = budget.admit_member()
+            if too_many:
+                yield Member("", status="refused", reason=f"rest of the archive not read: {too_many}")
+                return
             name = _display(info.name)
             current = member = Member(name, info.size, _tar_mtime(info))
             if _repeat(seen, member):

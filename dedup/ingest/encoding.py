@@ -7,7 +7,9 @@ next: text that decodes as UTF-8 almost never is anything else. A charset the fi
 declares itself (HTML ``<meta charset>``) comes after that, and only then a statistical
 guess (charset-normalizer, part of the ``dedup[docs]`` extra) for legacy single-byte
 encodings such as cp1252 or koi8-r. The guess needs some text to go on, so very short
-files that are not UTF-8 are skipped rather than decoded wrongly.
+files that are not UTF-8 are skipped rather than decoded wrongly; a guess is recorded as
+one (the ledger's encoding reads ``guessed cp1251``), and a guess that its close rivals
+contradict is not used (see `_guess`): the file is skipped with the reason.
 
 Whatever decoded, text full of control characters is binary data with a text name.
 """
@@ -18,7 +20,7 @@ import codecs
 import importlib
 import re
 
-__all__ = ["decode_text", "MIN_DETECT_BYTES"]
+__all__ = ["decode_text", "MIN_DETECT_BYTES", "GUESSED"]
 
 _BOMS = (
     (codecs.BOM_UTF32_LE, "utf-32-le"),
@@ -32,6 +34,13 @@ _ANY_BOM = tuple(bom for bom, _ in _BOMS)
 # (twelve bytes of Latin-1 come back as an Urdu code page).
 MIN_DETECT_BYTES = 32
 _SAMPLE = 65536
+# A guess is trusted when the encodings rated about as likely (mess within 0.05, language
+# fit within 0.1 of the best) read at least 90% of the non-ASCII characters the same way.
+_NEAR_CHAOS = 0.05
+_NEAR_COHERENCE = 0.1
+_AGREEMENT = 0.9
+# The ledger's encoding of a text decoded by a statistical guess: "guessed cp1251".
+GUESSED = "guessed "
 # Control characters, less those that real text does contain: backspace (overstruck
 # manual pages), tab, line ends (NEL too), vertical tab, form feed, escape (coloured logs).
 _CONTROLS = re.compile("[\x00-\x07\x0e-\x1a\x1c-\x1f\x7f-\x84\x86-\x9f]")
@@ -113,11 +122,56 @@ def _codec_name(name: str) -> str | None:
         return None
 
 
-def _guess(data: bytes) -> str | None:
-    """Encoding guessed by charset-normalizer; None when it has no good guess."""
+def _guess(data: bytes) -> tuple[str | None, str]:
+    """``(encoding, doubt)``: the encoding charset-normalizer guesses and trusts, or None
+    and why not (``doubt``).
+
+    A single-byte guess is often a near tie: French windows-1252 comes out as cp775
+    ("Rķsumķ") as readily as windows-1252. So the guess is trusted only when every
+    encoding rated about as likely (`_NEAR_CHAOS`, `_NEAR_COHERENCE`) reads the sample
+    the same way on at least `_AGREEMENT` of its non-ASCII characters. When they
+    disagree and windows-1252 is among them, windows-1252 wins: the WHATWG Encoding
+    Standard's legacy default for Western text (https://encoding.spec.whatwg.org/#names-and-labels).
+    Otherwise there is no trusted guess. Cost: the detector, plus one decoding of a
+    64 KB sample per close candidate.
+    """
     detector = importlib.import_module("charset_normalizer")
-    best = detector.from_bytes(data).best()
-    return None if best is None else _codec_name(best.encoding)
+    matches = list(detector.from_bytes(data))
+    if not matches:
+        return None, "no encoding fits"
+    best = matches[0]
+    close = [
+        m
+        for m in matches
+        if m.chaos <= best.chaos + _NEAR_CHAOS and m.coherence >= best.coherence - _NEAR_COHERENCE
+    ]
+    names = [name for name in dict.fromkeys(_codec_name(m.encoding) for m in close) if name]
+    if not names:
+        return None, "no encoding fits"
+    sample = data[:_SAMPLE]
+    first = _strict(sample, names[0]) or ""
+    rivals = [name for name in names[1:] if _agreement(first, _strict(sample, name) or "") < _AGREEMENT]
+    if not rivals:
+        return names[0], ""
+    if "cp1252" in names and _strict(data, "cp1252") is not None:
+        return "cp1252", ""
+    return (
+        None,
+        f"its encoding cannot be told with confidence ({names[0]} and {rivals[0]} read it differently)",
+    )
+
+
+def _agreement(one: str, other: str) -> float:
+    """Share of the non-ASCII characters of ``one`` that ``other`` has at the same place
+    (0 when the two differ in length: a multi-byte encoding against a single-byte one)."""
+    if one == other:
+        return 1.0
+    if len(one) != len(other):
+        return 0.0
+    wide = [i for i, ch in enumerate(one) if ord(ch) > 127]
+    if not wide:
+        return 1.0
+    return sum(one[i] == other[i] for i in wide) / len(wide)
 
 
 def _strict(data: bytes, encoding: str) -> str | None:
@@ -148,7 +202,8 @@ def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None
     -------
     text : str or None
     encoding : str
-        The encoding used (``utf-8``, ``utf-16-le``, ``cp1252`` ...), recorded in the ledger.
+        The encoding used (``utf-8``, ``utf-16-le``, ``cp1252`` ...), recorded in the ledger;
+        ``guessed cp1251`` when it is a statistical guess.
     problem : str
         Why the bytes are not text, with the byte offset; empty when ``text`` is set.
 
@@ -193,10 +248,11 @@ def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None
     if len(data) < MIN_DETECT_BYTES:
         return None, "", f"{not_utf8} (too short to detect its encoding)"
     try:
-        guessed = _guess(data)
+        guessed, doubt = _guess(data)
     except ImportError:
         return None, "", f"{not_utf8} (install dedup[docs] to detect other encodings)"
     text = _strict(data, guessed) if guessed else None
     if text is None:
-        return None, "", f"{not_utf8}, and no other encoding fits"
-    return _checked(text, guessed)
+        return None, "", f"{not_utf8}, and {doubt or 'no other encoding fits'}"
+    text, encoding, problem = _checked(text, guessed)
+    return text, GUESSED + encoding, problem

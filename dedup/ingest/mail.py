@@ -16,6 +16,7 @@ import re
 from collections.abc import Iterator
 from email.message import Message
 
+from .budget import WorkBudget
 from .document import Item, Outcome
 from .encoding import decode_text
 from .html_text import html_to_text
@@ -90,7 +91,11 @@ def _message_outcome(data: bytes, item: Item, opts: ReadOptions, *, record: str 
                 "skipped", f"{record + ': ' if record else ''}message body: {problem}", record=record
             )
         text = (
-            html_to_text(decoded, keep_all=opts.html_keep_all)[0]
+            html_to_text(
+                decoded,
+                keep_all=opts.html_keep_all,
+                budget=WorkBudget(len(decoded), "the HTML tokenizer", opts.work_per_char),
+            )[0]
             if part.get_content_type() == "text/html"
             else decoded
         )

@@ -15,7 +15,7 @@ from collections.abc import Callable, Iterator, Sequence
 from typing import BinaryIO
 
 from .archives import Member, iter_tar, iter_zip
-from .budget import ExpansionBudget
+from .budget import ExpansionBudget, MemberTally, TooCostly, WorkBudget
 from .columnar import read_parquet
 from .document import Item, Outcome, RawDocument
 from .encoding import decode_text
@@ -132,7 +132,8 @@ def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
         yield None, item.entry("skipped", problem, encoding=encoding)
         return
     if item.format == "html":
-        body, title = html_to_text(text, keep_all=opts.html_keep_all)
+        budget = WorkBudget(len(text), "the HTML tokenizer", opts.work_per_char)
+        body, title = html_to_text(text, keep_all=opts.html_keep_all, budget=budget)
         title = title or first_line_title(body)
     elif item.format == "text":  # kept as it is
         body, title = text, first_line_title(text)
@@ -195,9 +196,14 @@ def _screen(item: Item, opts: ReadOptions) -> Callable[[str], tuple[str, str] | 
 
 
 def _read_archive(
-    handle: BinaryIO, item: Item, opts: ReadOptions, budget: ExpansionBudget | None
+    handle: BinaryIO,
+    item: Item,
+    opts: ReadOptions,
+    budget: ExpansionBudget | None,
+    tally: MemberTally | None = None,
 ) -> Iterator[Outcome]:
-    budget = ExpansionBudget(item.size, opts) if budget is None else budget.child(item.size)
+    # ``budget``: the enclosing archive's, for a nested one; ``tally``: the run's member count.
+    budget = ExpansionBudget(item.size, opts, tally=tally) if budget is None else budget.child(item.size)
     iterate = iter_zip if item.format == "zip" else iter_tar
     accounted = 0
     member: Member
@@ -277,6 +283,9 @@ def _guarded(outcomes: Iterator[Outcome], item: Item, opts: ReadOptions) -> Iter
             yield _finish(doc, entry, opts)
     except MissingParser as err:
         yield _finish(None, item.entry("skipped", str(err)), opts)
+    except TooCostly as err:  # over its work budget: this input only, the run goes on
+        reason = str(err) + ("; rest of the file not read" if produced else "")
+        yield _finish(None, item.entry("skipped", reason), opts)
     except Exception as err:  # a parser's error on hostile bytes, whatever its kind
         label = _LABELS.get(item.format, item.format + " archive")
         reason = f"cannot be read as {label}: {_one_line(err)}"
@@ -298,12 +307,15 @@ def read_bytes(
     return _guarded(_BYTES_READERS[item.format](data, item, opts), item, opts)
 
 
-def read_stream(handle: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
-    """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`."""
+def read_stream(
+    handle: BinaryIO, item: Item, opts: ReadOptions, tally: MemberTally | None = None
+) -> Iterator[Outcome]:
+    """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`;
+    ``tally`` counts the archive members of the whole run (`MemberTally`)."""
     if item.format == "parquet":
         yield from _guarded(read_parquet(handle, item, opts), item, opts)
     else:
-        yield from _guarded(_read_archive(handle, item, opts, None), item, opts)
+        yield from _guarded(_read_archive(handle, item, opts, None, tally), item, opts)
 
 
 def read_file_bytes(

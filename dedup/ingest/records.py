@@ -6,6 +6,10 @@ large file is never held as a list of records. The label ("line 7", "row 12",
 (a CSV record with quoted newlines is labelled by its first line). A triple with an
 empty label is a problem of the whole file (a missing text column, say).
 
+JSON's grammar has no NaN or Infinity (RFC 8259, section 6), and a number too large for
+a float would become infinity: such a record is recorded as not valid, because the
+outputs, which are strict JSON, could not hold it.
+
 A broken record costs only itself where the format allows it (JSONL lines, CSV rows);
 in a JSON array, whose structure a broken item destroys, the rest of the file is
 recorded as not read.
@@ -17,6 +21,7 @@ import csv
 import datetime
 import io
 import json
+import math
 from collections.abc import Iterable, Iterator, Sequence
 
 from .document import Item, Outcome
@@ -30,6 +35,21 @@ _JSON_WHITESPACE = " \t\n\r"
 # csv refuses fields longer than its limit (128 KiB by default); a long text field is
 # legitimate here and the file size is bounded already.
 _CSV_FIELD_CEILING = 2**31 - 1
+
+
+def _not_a_number(name: str) -> float:
+    raise ValueError(f"{name} is not a JSON number")
+
+
+def _finite(text: str) -> float:
+    value = float(text)
+    if math.isinf(value):
+        raise ValueError(f"the number {text[:40]} is too large")
+    return value
+
+
+# Strict JSON numbers only (see the module's notes). Cost: a Python call per float.
+_DECODER = json.JSONDecoder(parse_constant=_not_a_number, parse_float=_finite)
 
 
 def _json_problem(err: Exception, text: str = "", offset: int = 0) -> str:
@@ -55,7 +75,7 @@ def jsonl_records(text: str) -> Iterator[Triple]:
             continue
         label = f"line {number}"
         try:
-            value = json.loads(line)
+            value = _DECODER.decode(line)
         except (ValueError, RecursionError) as err:
             yield label, None, f"{label}: {_json_problem(err)}"
             continue
@@ -78,7 +98,7 @@ def _line_col(text: str, i: int) -> str:
 
 def json_records(text: str) -> Iterator[Triple]:
     """Records of a JSON file: an array of objects (item by item), or one object."""
-    decoder = json.JSONDecoder()
+    decoder = _DECODER
     i = _skip_space(text, 0)
     if i == len(text):
         return
@@ -183,6 +203,8 @@ def _metadata(record: dict, text_fields: Sequence[str]) -> dict:
             continue
         if isinstance(value, (datetime.date, datetime.datetime)):
             value = value.isoformat()
+        if isinstance(value, float) and not math.isfinite(value):
+            continue  # NaN from a Parquet column: no JSON output could hold it
         if isinstance(value, (str, int, float)):
             out[str(key)] = value
     return out

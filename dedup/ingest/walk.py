@@ -5,32 +5,65 @@ given folder (with several roots, relative to the folder that holds them all), w
 ``/`` separators on every system, so the same tree gives the same ids anywhere. A root
 of ``-`` stands for a list of paths read from standard input (one per line, or
 NUL-separated as ``find -print0`` writes them).
+
+What is never read: a link to a folder (it can loop or leave the tree); a link to a file
+outside the given folders, unless ``follow_links`` (a folder handed in for auditing must
+not make the audit read a system file); the folders of the run's own outputs and work
+(`leaving_out`, set by the command line for ``--out``), so an audit never reads what it
+writes. Each is a ledger entry with the reason. Every file is opened by a path with no
+link in its last component (a link is resolved when it is found) and with ``O_NOFOLLOW``,
+so a file swapped for a link after the walk saw it is not read either.
 """
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import os
 import stat
 import sys
 from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextvars import ContextVar
 from typing import IO, NamedTuple
 
+from .budget import MemberTally
 from .document import Item, Outcome, RawDocument
 from .filters import clean_name, file_reason, folder_reason
 from .ledger import LedgerEntry
 from .options import (
     DEFAULT_MAX_ARCHIVE_BYTES,
+    DEFAULT_MAX_ARCHIVE_MEMBERS,
     DEFAULT_MAX_ARCHIVE_RATIO,
     DEFAULT_MAX_FILE_BYTES,
+    DEFAULT_MAX_RUN_MEMBERS,
     DEFAULT_MAX_TEXT_CHARS,
     ReadOptions,
 )
 from .readers import ARCHIVE_FORMATS, STREAMED_FORMATS, format_of, read_bytes, read_stream
 
-__all__ = ["InputError", "iter_documents", "STDIN"]
+__all__ = ["InputError", "iter_documents", "STDIN", "leaving_out", "LINK_OUTSIDE"]
 
 STDIN = "-"
+LINK_OUTSIDE = "link to a file outside the audited folders (read it with --follow-links)"
+# Folders not to read in this context, with the reason: see `leaving_out`.
+_LEFT_OUT: ContextVar[tuple[tuple[str, str], ...]] = ContextVar("dedup_left_out", default=())
+
+
+@contextlib.contextmanager
+def leaving_out(folders: Iterable[tuple[str, str]]) -> Iterator[None]:
+    """Within the block, `iter_documents` does not read ``folders`` (``(path, reason)``
+    pairs) nor anything in them; each is one ledger entry with its reason.
+
+    The command line leaves out its ``--out`` folder and work folder this way, so an audit
+    never reads its own outputs, without the folders becoming settings of the audit
+    (which are echoed into audit.json and must not depend on where it is written).
+    A folder that does not exist yet is left out if it exists when the walk starts.
+    """
+    token = _LEFT_OUT.set(tuple(folders))
+    try:
+        yield
+    finally:
+        _LEFT_OUT.reset(token)
 
 
 class InputError(Exception):
@@ -40,7 +73,10 @@ class InputError(Exception):
 class _Found(NamedTuple):
     """A file found to read (a named tuple: one is made for every file found)."""
 
-    path: str  # as the filesystem knows it
+    # As the filesystem knows it, with no link in its last component: a file named by the
+    # user or a link found inside the given folders is its real path, so that it is opened
+    # with O_NOFOLLOW and a file swapped for a link after it was found is not read.
+    path: str
     rel: str  # id base, posix separators, printable
     walked: bool = True  # found inside a folder (not named by the user)
 
@@ -78,8 +114,64 @@ def _link_reason(path: str) -> str:
     return "not a regular file (device, socket or pipe)"
 
 
-def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -> Iterator[_Found]:
-    """Files under root in sorted order; folders passed over become ledger entries."""
+class _Scope:
+    """What a walk may read: the real paths of the given folders and files, and the
+    folders left out (by device and inode, so any spelling of their path matches).
+
+    Cost: one ``realpath`` per root and per link met; a folder met is compared by its
+    inode, which the walk has already (a ``stat`` only on a match).
+    """
+
+    def __init__(self, roots: Sequence[str], left_out: Sequence[tuple[str, str]]) -> None:
+        reals = [(os.path.realpath(r), os.path.isdir(r)) for r in roots]
+        self.folders = tuple(real if real.endswith(os.sep) else real + os.sep for real, d in reals if d)
+        self.files = {real for real, is_folder in reals if not is_folder}
+        self.left: dict[tuple[int, int], str] = {}
+        for folder, reason in left_out:
+            with contextlib.suppress(OSError):
+                info = os.stat(folder)
+                self.left[(info.st_dev, info.st_ino)] = reason
+        self._left_inodes = {inode for _, inode in self.left}
+
+    def folder_left_out(self, entry: os.DirEntry) -> str:
+        """Why a folder met in the walk is left out, or ``""``."""
+        if not self.left or entry.inode() not in self._left_inodes:
+            return ""
+        info = entry.stat(follow_symlinks=False)
+        return self.left.get((info.st_dev, info.st_ino), "")
+
+    def path_left_out(self, path: str) -> str:
+        """Why ``path`` is left out (it, or a folder it is in, is left out), or ``""``."""
+        if not self.left:
+            return ""
+        current = os.path.realpath(path)
+        while True:
+            with contextlib.suppress(OSError):
+                info = os.stat(current)
+                if (info.st_dev, info.st_ino) in self.left:
+                    return self.left[(info.st_dev, info.st_ino)]
+            parent = os.path.dirname(current)
+            if parent == current:
+                return ""
+            current = parent
+
+    def link_target(self, path: str, opts: ReadOptions) -> tuple[str, str]:
+        """``(target, "")`` for a link to a file that may be read, else ``("", reason)``.
+
+        The target is its real path, read in its place (it has no link left in it)."""
+        target = os.path.realpath(path)
+        inside = target in self.files or target.startswith(self.folders)
+        if not (inside or opts.follow_links):
+            return "", LINK_OUTSIDE
+        reason = self.path_left_out(target)
+        return ("", reason) if reason else (target, "")
+
+
+def _walk(
+    root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry], scope: _Scope
+) -> Iterator[_Found]:
+    """Files under root in sorted order; folders passed over and links not followed
+    become ledger entries."""
     stack = [root]
     while stack:
         folder = stack.pop()
@@ -104,14 +196,18 @@ def _walk(root: str, base: str, opts: ReadOptions, entries: list[LedgerEntry]) -
                     entries.append(LedgerEntry(rel, "skipped", "link to a folder, not followed"))
                     continue
                 if child.is_dir(follow_symlinks=False):
-                    reason = folder_reason(rel, name, opts)
+                    reason = scope.folder_left_out(child) or folder_reason(rel, name, opts)
                     if reason:
                         entries.append(LedgerEntry(rel, "skipped", reason))
                     else:
                         subfolders.append(child.path)
                     continue
                 if child.is_file(follow_symlinks=True):
-                    yield _Found(child.path, rel)
+                    target, reason = scope.link_target(child.path, opts) if child.is_symlink() else ("", "")
+                    if reason:
+                        entries.append(LedgerEntry(rel, "skipped", reason))
+                    else:
+                        yield _Found(target or child.path, rel)
                 elif child.is_symlink():
                     entries.append(LedgerEntry(rel, "skipped", _link_reason(child.path)))
                 else:
@@ -229,6 +325,8 @@ class _Readers:
     def __init__(self, opts: ReadOptions, unchanged, workers: int, prepare, seen_files: dict) -> None:
         self.opts, self.unchanged, self.workers, self.prepare = opts, unchanged, max(1, workers), prepare
         self.seen_files = seen_files  # files read so far (identity → id), when read here
+        # Archive members of the whole run; archives are always read here, never by workers.
+        self.tally = MemberTally(opts.max_run_members)
         self._pool = None
 
     def _to_workers(self, sized: _Sized) -> bool:
@@ -272,9 +370,11 @@ class _Readers:
             elif pending is not None and self._to_workers(event):
                 yield next(results)
             elif self.workers == 1:  # examined here, in its turn (see `_windows`)
-                yield _read_found(event.item, self.opts, self.unchanged, seen=self.seen_files)
+                yield _read_found(
+                    event.item, self.opts, self.unchanged, seen=self.seen_files, tally=self.tally
+                )
             else:
-                yield _read_found(event.item, self.opts, self.unchanged, event.info)
+                yield _read_found(event.item, self.opts, self.unchanged, event.info, tally=self.tally)
 
     def close(self) -> None:
         if self._pool is not None:
@@ -317,6 +417,8 @@ UNCHANGED_REASON = "unchanged since the last index run (same modification time):
 
 # Reading on past the examined size (a file that grew) goes in steps of this many bytes.
 _GROWTH_STEP = 65536
+# A link put in place of a file after the walk saw it is not followed (see `_Found`).
+_NOFOLLOW = getattr(os, "O_NOFOLLOW", 0)
 # Not blocking: a file that became a pipe since it was found must not stop the reading.
 _READ_FLAGS = (
     os.O_RDONLY | getattr(os, "O_BINARY", 0) | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_NONBLOCK", 0)
@@ -325,8 +427,14 @@ _READ_FLAGS = (
 
 def _open_descriptor(path: str) -> int:
     """A bare descriptor to read a file by: a file object would examine the file once
-    more and buffer nothing."""
-    return os.open(path, _READ_FLAGS)
+    more and buffer nothing. A link in the last component of the path is not followed
+    (the open fails): every `_Found` path is free of one (see `_Found`)."""
+    return os.open(path, _READ_FLAGS | _NOFOLLOW)
+
+
+def _open_unfollowed(path: str, flags: int) -> int:
+    """An ``opener`` for `open` that does not follow a link in the last component."""
+    return os.open(path, flags | _NOFOLLOW)
 
 
 def _read_limited(path: str, size: int, limit: int) -> bytes:
@@ -380,6 +488,7 @@ def _read_found(
     unchanged: Callable[[str, float], bool] | None = None,
     info: os.stat_result | None = None,
     seen: dict[object, str] | None = None,
+    tally: MemberTally | None = None,
 ) -> Iterable[Outcome]:
     """Outcomes of one found file; problems before its reader runs are entries too.
 
@@ -413,7 +522,7 @@ def _read_found(
             return _skipped(LedgerEntry(item.rel, "skipped", f"same file as {seen[real]}, read once"))
         seen[real] = item.rel
     try:
-        return _read_examined(item, fmt, reason, opts, unchanged, info, fd)
+        return _read_examined(item, fmt, reason, opts, unchanged, info, fd, tally)
     finally:
         if fd is not None:
             os.close(fd)
@@ -431,12 +540,13 @@ def _read_examined(
     unchanged: Callable[[str, float], bool] | None,
     info: os.stat_result | None,
     fd: int | None,
+    tally: MemberTally | None = None,
 ) -> Iterable[Outcome]:
     # The file is read here, at once (``fd`` can be closed after); its reader runs lazily.
     if reason:
         return _skipped(LedgerEntry(item.rel, "skipped", reason, fmt or ""))
     if fmt is None:
-        ext = os.path.splitext(item.path)[1] or "(no extension)"
+        ext = os.path.splitext(item.rel)[1] or "(no extension)"  # the path may be a link's target
         return _skipped(LedgerEntry(item.rel, "skipped", f"unsupported file type {clean_name(ext)}"))
     try:
         if info is None:
@@ -449,7 +559,7 @@ def _read_examined(
             )
         if fmt in STREAMED_FORMATS:
             # Streamed: bounded by the archive limits, not by the size of the file.
-            return _streamed(item, Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime), opts)
+            return _streamed(item, Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime), opts, tally)
         if info.st_size > opts.max_file_bytes:
             return _skipped(
                 LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
@@ -467,15 +577,36 @@ def _read_examined(
     return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
 
 
-def _streamed(item: _Found, found: Item, opts: ReadOptions) -> Iterator[Outcome]:
+def _streamed(item: _Found, found: Item, opts: ReadOptions, tally: MemberTally | None) -> Iterator[Outcome]:
     # Opened when the outcomes are taken, and open while they are.
     try:
-        handle = open(item.path, "rb")  # noqa: SIM115 - closed below, after the last outcome
+        # Closed below, after the last outcome; links were resolved when the file was found.
+        handle = open(item.path, "rb", opener=_open_unfollowed)  # noqa: SIM115
     except OSError as err:
         yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", found.format)
         return
     with handle:
-        yield from read_stream(handle, found, opts)
+        yield from read_stream(handle, found, opts, tally)
+
+
+def _found_under(
+    path: str, listed: bool, base: str, opts: ReadOptions, scope: _Scope, entries: list[LedgerEntry]
+) -> Iterator[_Found]:
+    """The files to read of one given path (a folder walked, a file as it is); a path not
+    to read at all becomes an entry in ``entries`` instead."""
+    if listed and not os.path.lexists(path):
+        entries.append(
+            LedgerEntry(_rel(path, base), "skipped", "no such file or folder (listed on standard input)")
+        )
+        return iter(())
+    reason = scope.path_left_out(path)
+    if reason:
+        entries.append(LedgerEntry(_rel(path, base), "skipped", reason))
+        return iter(())
+    if os.path.isdir(path):
+        return _walk(path, base, opts, entries, scope)
+    # Named by the user: read wherever a link points, by its real path (see `_Found`).
+    return iter([_Found(os.path.realpath(path), _rel(path, base), walked=False)])
 
 
 def iter_documents(
@@ -493,6 +624,9 @@ def iter_documents(
     include: Sequence[str] = (),
     exclude: Sequence[str] = (),
     include_vcs: bool = False,
+    follow_links: bool = False,
+    max_archive_members: int = DEFAULT_MAX_ARCHIVE_MEMBERS,
+    max_run_members: int = DEFAULT_MAX_RUN_MEMBERS,
     stdin: IO | None = None,
     unchanged: Callable[[str, float], bool] | None = None,
     workers: int = 1,
@@ -520,7 +654,8 @@ def iter_documents(
         worker process when there are workers), e.g. to normalize them there; it must be
         a module-level function and may change the documents in place.
 
-    The other parameters are those of `ReadOptions`.
+    The other parameters are those of `ReadOptions`. Folders left out by `leaving_out`
+    around the call are not read.
 
     Raises
     ------
@@ -547,6 +682,9 @@ def iter_documents(
         exclude=tuple(exclude),
         include_hidden=include_hidden,
         include_vcs=include_vcs,
+        follow_links=follow_links,
+        max_archive_members=max_archive_members,
+        max_run_members=max_run_members,
     )
     missing = [r for r in roots if r != STDIN and not os.path.exists(r)]
     if missing:
@@ -559,23 +697,14 @@ def iter_documents(
         else:
             paths.append((root, False))
     base = _base_of([p for p, _ in paths])
+    scope = _Scope([p for p, _ in paths], _LEFT_OUT.get())
     seen_files: dict[object, str] = {}
     seen_ids: set[str] = set()
     readers = _Readers(opts, unchanged, workers if unchanged is None else 1, prepare, seen_files)
     try:
         for path, listed in paths:
-            if listed and not os.path.lexists(path):
-                ledger.append(
-                    LedgerEntry(
-                        _rel(path, base), "skipped", "no such file or folder (listed on standard input)"
-                    )
-                )
-                continue
             walk_entries: list[LedgerEntry] = []
-            if os.path.isdir(path):
-                found: Iterator[_Found] = _walk(path, base, opts, walk_entries)
-            else:
-                found = iter([_Found(path, _rel(path, base), walked=False)])
+            found = _found_under(path, listed, base, opts, scope, walk_entries)
             window_files = WINDOW_FILES if readers.workers > 1 else 1
             for event in readers.events(_windows(found, walk_entries, seen_files, window_files)):
                 if isinstance(event, LedgerEntry):

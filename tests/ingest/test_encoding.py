@@ -70,7 +70,48 @@ def test_legacy_encodings_are_detected_and_recorded():
     pytest.importorskip("charset_normalizer")
     text = "Привет! Это длинный текст о правилах отпуска для сотрудников кооператива."
     decoded, encoding, problem = decode_text(text.encode("cp1251"))
-    assert (decoded, encoding, problem) == (text, "cp1251", "")
+    assert (decoded, encoding, problem) == (text, "guessed cp1251", "")  # recorded as a guess
+
+
+class _Match:
+    def __init__(self, encoding: str, chaos: float = 0.0, coherence: float = 0.5) -> None:
+        self.encoding, self.chaos, self.coherence = encoding, chaos, coherence
+
+
+def _detector(monkeypatch, *matches: _Match) -> None:
+    """Make charset-normalizer rate the encodings as given (its ratings vary by version)."""
+    import sys
+    import types
+
+    fake = types.ModuleType("charset_normalizer")
+    fake.from_bytes = lambda data: list(matches)
+    monkeypatch.setitem(sys.modules, "charset_normalizer", fake)
+
+
+FRENCH = "Résumé de la réunion du comité, à propos des congés payés et de l'été. " * 3
+
+
+def test_a_guess_its_close_rivals_contradict_is_not_used(monkeypatch):
+    # cp775 reads "Rķsumķ"; koi8-r reads it differently again: no trusted guess.
+    _detector(monkeypatch, _Match("cp775", coherence=0.58), _Match("koi8_r", coherence=0.52))
+    text, encoding, problem = decode_text(FRENCH.encode("cp1252"))
+    assert text is None and encoding == ""
+    assert problem.endswith(
+        "its encoding cannot be told with confidence (cp775 and koi8-r read it differently)"
+    )
+
+
+def test_windows_1252_wins_a_contradicted_guess(monkeypatch):
+    # charset-normalizer 3.x rates cp775 first for this text, windows-1252 close behind.
+    _detector(monkeypatch, _Match("cp775", coherence=0.58), _Match("cp1252", coherence=0.53))
+    assert decode_text(FRENCH.encode("cp1252")) == (FRENCH, "guessed cp1252", "")
+
+
+def test_a_guess_is_kept_when_rivals_agree_or_are_far_behind(monkeypatch):
+    german = "Grüße aus Köln, die Straße ist naß und die Bäume sind grün. " * 2
+    # cp1250 and cp1252 read these letters alike; mac_roman is rated far worse.
+    _detector(monkeypatch, _Match("cp1250"), _Match("cp1252"), _Match("mac_roman", chaos=0.3))
+    assert decode_text(german.encode("cp1252")) == (german, "guessed cp1250", "")
 
 
 def test_short_non_utf8_is_not_guessed():
