@@ -10,7 +10,7 @@ Exit codes
 1  ``--fail-on any`` and at least one cluster was found; with ``--index``, ``--fail-on new`` /
    ``grown`` and a cluster new (or grown) since the last audit; reviewed clusters never count
 2  usage error: a bad option, a path that does not exist, an output folder that
-   cannot be written
+   cannot be written or holds files dedup did not write (see `_out_problem`)
 3  an unexpected internal error (reported in one line; please file it)
 """
 
@@ -18,13 +18,14 @@ from __future__ import annotations
 
 import argparse
 import os
+import re
 import sys
 from collections.abc import Iterable
 
 from . import __version__
 from .settings import GROUPS, AuditSettings, Option, SettingsError, setting_options
 
-__all__ = ["main", "build_parser", "add_setting_options", "settings_from_args", "FAIL_ON"]
+__all__ = ["main", "build_parser", "add_setting_options", "settings_from_args", "FAIL_ON", "terminal_text"]
 
 EXIT_OK, EXIT_FOUND, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 # When ``dedup audit`` exits with code 1 (``--fail-on``); the same names as `dedup.index.history.FAIL_ON`.
@@ -35,6 +36,43 @@ CAUTION = (
     "shared templates and common phrasing match too. dedup only reads its inputs: it never changes, "
     "moves or deletes a file; the actions it writes are proposals."
 )
+
+
+# What a terminal would act on rather than show: C0 controls (ESC, BEL, line ends …), DEL,
+# C1 controls (U+009B is an 8-bit CSI), the bidirectional overrides and isolates that
+# reorder what is shown (Unicode TR 9), and lone surrogates (from file names that are not
+# UTF-8), which a UTF-8 terminal cannot even be sent.
+_UNSHOWABLE = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069\ud800-\udfff]")
+# The same in JSON text, whose encoder escapes C0 controls inside strings already: its
+# own line ends are structure.
+_UNSHOWABLE_IN_JSON = re.compile("[\x7f-\x9f\u202a-\u202e\u2066-\u2069\ud800-\udfff]")
+
+
+def terminal_text(text: str, *, json_escapes: bool = False) -> str:
+    """``text`` safe to print on a terminal: each character in `_UNSHOWABLE` as an escape.
+
+    Every id, title and path the commands print goes through here, so a file named
+    ``"\\x1b]0;…\\x07"`` cannot retitle the terminal or hide lines. ``json_escapes`` is
+    for JSON text (``ensure_ascii=False``): C1 controls, bidirectional controls and
+    surrogates become ``\\u009b``, valid inside a JSON string, and C0 controls (escaped
+    by the encoder inside strings, line ends outside) are left. Cost: one
+    regular-expression scan of the text.
+
+    >>> terminal_text("a\\x1b[31mred\\x07.txt"), terminal_text("\\u202eevil", json_escapes=True)
+    ('a\\\\x1b[31mred\\\\x07.txt', '\\\\u202eevil')
+    """
+
+    def escape(found: re.Match[str]) -> str:
+        code = ord(found.group())
+        return f"\\x{code:02x}" if code < 0x100 and not json_escapes else f"\\u{code:04x}"
+
+    return (_UNSHOWABLE_IN_JSON if json_escapes else _UNSHOWABLE).sub(escape, text)
+
+
+def _usage_error(message: str) -> int:
+    """Print ``dedup: error: message`` (escaped: it may name paths) on stderr; the usage exit code."""
+    print(f"dedup: error: {terminal_text(message)}", file=sys.stderr)
+    return EXIT_USAGE
 
 
 class _Parser(argparse.ArgumentParser):
@@ -107,9 +145,26 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="N",
         help="processes that read and normalize files in parallel (default 1); results are the same for any N",
     )
+    g.add_argument(
+        "--engine",
+        type=_engine_name,
+        default="local",
+        metavar="{local,spark}",
+        help="where the audit runs: local (this machine) or spark (Apache Spark: needs dedup[spark] and "
+        "Java); the outputs are the same (default: local)",
+    )
+    g.add_argument(
+        "--spark-master",
+        default=None,
+        metavar="URL",
+        help="with --engine spark: the master of the Spark session started (default: local[*])",
+    )
     from . import cli_index
 
     cli_index.register(commands)
+    from . import cli_check
+
+    cli_check.register(commands)
     return parser
 
 
@@ -217,7 +272,8 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
         ),
         f"exact-copy groups: {s['exact_groups']:,} ({s['documents_in_exact_groups']:,} documents)",
         f"clusters: {s['clusters']:,} ({s['documents_in_clusters']:,} documents, {s['linked_through']:,} linked through another member)",
-        f"proposed: retire {s['retire_documents']:,} documents ({s['retire_bytes']:,} bytes), review {s['review_documents']:,}",
+        f"proposed: retire {s['retire_documents']:,} documents ({s['retire_bytes']:,} bytes), "
+        f"merge then retire {s['merge_documents']:,} ({s['merge_bytes']:,} bytes), review {s['review_documents']:,}",
         f"candidates: {result.candidates['reason']}",
         (
             "expected recall: 100% (exhaustive); LSH would catch "
@@ -238,6 +294,20 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
     return lines
 
 
+def _engine_name(text: str) -> str:
+    """An engine that can run here (a usage error names what to install otherwise)."""
+    if text == "local":  # the default: nothing to check, nothing to import
+        return text
+    from .engines import ENGINES, engine_problem
+
+    if text not in ENGINES:
+        raise argparse.ArgumentTypeError(f"choose one of {', '.join(ENGINES)}, not {text!r}")
+    problem = engine_problem(text)
+    if problem:
+        raise argparse.ArgumentTypeError(problem)
+    return text
+
+
 def _positive_int(text: str) -> int:
     try:
         value = int(text)
@@ -252,21 +322,64 @@ def _positive_int(text: str) -> int:
 WORK_FOLDER = ".dedup-work"
 
 
+def _out_problem(out: str, work_dir: str, inputs: list[str]) -> str:
+    """Why the outputs cannot go into ``out`` (then nothing has been written), or ``""``
+    once it exists and may be written (created if needed).
+
+    Refused: a path that is not a folder; a folder that holds files named like our
+    outputs that dedup did not write, or that is an input folder (or inside one) and
+    holds anything but our outputs (`dedup.report.files.check_out_folder`); a work
+    folder that is a link (its files would be written through it).
+    """
+    from .report.files import OutputFolderError, check_out_folder
+
+    if os.path.exists(out) and not os.path.isdir(out):
+        return f"--out {out} exists and is not a folder"
+    if os.path.islink(work_dir):
+        return f"the work folder {work_dir} is a link; dedup does not write through links: remove it"
+    try:
+        check_out_folder(out, inputs)
+    except OutputFolderError as err:
+        return str(err)
+    try:
+        os.makedirs(out, exist_ok=True)
+    except OSError as err:
+        return f"cannot create the output folder {out}: {err.strerror}"
+    if not os.access(out, os.W_OK):
+        return f"the output folder {out} is not writable"
+    return ""
+
+
+def _own_folders(out: str, work_dir: str, inputs: list[str]) -> list[tuple[str, str]]:
+    """What the audit must not read of what it writes (see `dedup.ingest.leaving_out`): the
+    work folder, each output file already in ``out``, and ``out`` itself when it is an
+    input folder or inside one (it then holds nothing else: `_out_problem`)."""
+    from .report.files import OUTPUT_NAMES
+
+    own = [(work_dir, "work folder of this audit: not read")]
+    own += [(os.path.join(out, name), "an output of this audit (--out): not read") for name in OUTPUT_NAMES]
+    real = os.path.realpath(out)
+    for given in inputs:
+        folder = os.path.realpath(given) if given != "-" and os.path.isdir(given) else None
+        if folder is not None and (real == folder or real.startswith(folder.rstrip(os.sep) + os.sep)):
+            own.append((out, "output folder of this audit (--out): not read"))
+            break
+    return own
+
+
 def _run_audit(args: argparse.Namespace) -> int:
     from .api import audit
     from .engines.tuning import lean_allocation
-    from .ingest import InputError
+    from .ingest import InputError, leaving_out
     from .progress import Progress, StderrProgress
 
     try:
         settings = settings_from_args(args).validate()
     except SettingsError as err:
-        print(f"dedup: error: {err}", file=sys.stderr)
-        return EXIT_USAGE
+        return _usage_error(str(err))
     for path in args.paths + ([settings.ignore_text_file] if settings.ignore_text_file else []):
         if path != "-" and not os.path.exists(path):
-            print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
-            return EXIT_USAGE
+            return _usage_error(f"no such file or folder: {path}")
     if args.fail_on in ("new", "grown") and not args.index:
         print(
             f"dedup: error: --fail-on {args.fail_on} compares with the last audit: give --index FILE",
@@ -279,39 +392,31 @@ def _run_audit(args: argparse.Namespace) -> int:
         try:
             open_index(args.index).close()
         except IndexFileError as err:
-            print(f"dedup: error: {err}", file=sys.stderr)
-            return EXIT_USAGE
+            return _usage_error(str(err))
     out = args.out
-    if os.path.exists(out) and not os.path.isdir(out):
-        print(f"dedup: error: --out {out} exists and is not a folder", file=sys.stderr)
-        return EXIT_USAGE
-    try:
-        os.makedirs(out, exist_ok=True)
-    except OSError as err:
-        print(f"dedup: error: cannot create the output folder {out}: {err.strerror}", file=sys.stderr)
-        return EXIT_USAGE
-    if not os.access(out, os.W_OK):
-        print(f"dedup: error: the output folder {out} is not writable", file=sys.stderr)
-        return EXIT_USAGE
+    work_dir = getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER)
+    problem = _out_problem(out, work_dir, args.paths)
+    if problem:
+        return _usage_error(problem)
     progress = Progress.silent() if args.quiet else StderrProgress()
     try:
-        result = audit(
-            args.paths,
-            settings,
-            progress=progress,
-            work_dir=getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER),
-            keep_work=args.keep_work,
-            workers=args.workers,
-            tune_process=True,  # the command owns its process; put back as it was afterwards
-        )
+        with leaving_out(_own_folders(out, work_dir, args.paths)):
+            result = audit(
+                args.paths,
+                settings,
+                progress=progress,
+                work_dir=work_dir,
+                keep_work=args.keep_work,
+                workers=args.workers,
+                engine=args.engine,
+                spark_master=args.spark_master,
+                tune_process=True,  # the command owns its process; put back as it was afterwards
+            )
     except InputError as err:
-        print(f"dedup: error: {err}", file=sys.stderr)
-        return EXIT_USAGE
+        return _usage_error(str(err))
     except OSError as err:
         # The work folder (texts spilled while auditing) could not be written: full disk, no permission.
-        where = getattr(args, "work_dir", None) or os.path.join(out, WORK_FOLDER)
-        print(f"dedup: error: cannot use the work folder {where}: {err.strerror or err}", file=sys.stderr)
-        return EXIT_USAGE
+        return _usage_error(f"cannot use the work folder {work_dir}: {err.strerror or err}")
     code = EXIT_FOUND if args.fail_on == "any" and result.summary["clusters"] > 0 else EXIT_OK
     delta = None
     if args.index:
@@ -325,12 +430,12 @@ def _run_audit(args: argparse.Namespace) -> int:
         with lean_allocation():
             paths = result.write(out, progress, report=not args.no_report)
     except OSError as err:
-        print(f"dedup: error: cannot write the outputs into {out}: {err}", file=sys.stderr)
-        return EXIT_USAGE
+        return _usage_error(f"cannot write the outputs into {out}: {err}")
     if not args.quiet:
-        print("\n".join(_summary_lines(result, paths)))
+        # Escaped line by line: warnings and paths hold document ids and file names.
+        print("\n".join(map(terminal_text, _summary_lines(result, paths))))
         if delta is not None:
-            print("\n".join(delta_lines(delta)))
+            print("\n".join(map(terminal_text, delta_lines(delta))))
     return code
 
 
@@ -343,6 +448,10 @@ def main(argv: list[str] | None = None) -> int:
     try:
         if args.command == "audit":
             return _run_audit(args)
+        if args.command == "check":
+            from . import cli_check
+
+            return cli_check.run(args)
         from . import cli_index
 
         if args.command in cli_index.COMMANDS:
@@ -354,7 +463,9 @@ def main(argv: list[str] | None = None) -> int:
         if os.environ.get("DEDUP_DEBUG"):
             raise
         print(
-            f"dedup: internal error: {type(err).__name__}: {err} (set DEDUP_DEBUG=1 for details)",
+            terminal_text(
+                f"dedup: internal error: {type(err).__name__}: {err} (set DEDUP_DEBUG=1 for details)"
+            ),
             file=sys.stderr,
         )
         return EXIT_INTERNAL

@@ -44,6 +44,9 @@ class AuditResult:
     passages : list of dict
         Shared passages of the confirmed pairs and of each cluster member with its keeper
         (character offsets into the texts as read; see `dedup.report.records.passage_records`).
+    unique_runs : list of dict
+        Text of a near-duplicate that its keeper lacks (runs of at least
+        ``unique_min_words`` words): what must be merged before it is retired.
     texts : dict
         Original text of every clustered document, for the report's evidence view.
     delta : dict or None
@@ -66,6 +69,7 @@ class AuditResult:
     audit_id: str
     run: dict = field(default_factory=dict)
     passages: list[dict] = field(default_factory=list)
+    unique_runs: list[dict] = field(default_factory=list)
     texts: dict = field(default_factory=dict)
     delta: dict | None = None
 
@@ -93,6 +97,7 @@ class AuditResult:
             "clusters": self.clusters,
             "actions": self.actions,
             "passages": self.passages,
+            "unique_runs": self.unique_runs,
             **({"delta": self.delta} if self.delta is not None else {}),
         }
 

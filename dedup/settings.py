@@ -30,7 +30,7 @@ __all__ = [
 ]
 
 MEASURES = ("jaccard", "containment", "cosine")
-KEEPER_POLICIES = ("longest", "newest", "oldest", "shortest-path")
+KEEPER_POLICIES = ("longest", "newest", "oldest", "shortest-path", "first-seen")
 CANDIDATE_METHODS = ("auto", "lsh", "exhaustive")
 HASH_SCHEMES = ("stable64", "binned", "datasketch-sha1")
 
@@ -166,8 +166,9 @@ class AuditSettings:
         Size of the hashed TF-IDF feature space (default 2**20).
     sublinear_tf : bool
         Use 1 + ln(tf) instead of raw term counts.
-    keeper_policy : {"longest", "newest", "oldest", "shortest-path"}
-        How the document to keep in each cluster is chosen.
+    keeper_policy : {"longest", "newest", "oldest", "shortest-path", "first-seen"}
+        How the document to keep in each cluster is chosen (``first-seen``: the one read
+        first, in the order of ``ledger.csv``; see `dedup.cluster.keeper`).
     prefer : tuple of str
         Ordered path globs that win before the policy applies
         (e.g. ``("current/**", "docs/**")``: a member under ``current/`` is kept
@@ -179,6 +180,14 @@ class AuditSettings:
         A member is proposed for retirement only when at least this share of its
         shingles is also in the keeper; otherwise it is sent to review, because
         retiring it would lose text the keeper lacks.
+    unique_min_words : int
+        Fewest words of a run of a member's text that its keeper lacks for the run to
+        count as text of its own (default 15; shorter runs are edits). A member with such
+        a run is never proposed for plain retirement: its runs are listed to be merged
+        into the keeper first (``merge-worklist.csv``), see `dedup.cluster.loss`.
+    base_url : str or None
+        Where the documents are published: ``redirects.csv`` and ``keep.csv`` give each
+        document's URL as this followed by its path. None: no URLs.
     passage_min_words : int
         Fewest words (in each text) of a shared passage reported in ``passages.csv`` and
         the report (default 15: a few common phrases in a row match in unrelated texts).
@@ -211,6 +220,12 @@ class AuditSettings:
         Read hidden files and folders (names starting with a dot) too.
     include_vcs : bool
         Read version-control folders (.git, .hg, .svn, …) too.
+    follow_links : bool
+        Read files that a link inside the given folders points to outside them; by
+        default such a link is recorded as skipped (a link to a folder is never followed).
+    max_archive_members, max_run_members : int
+        Most members read from one archive, and from all archives of the run together
+        (against archives of a million empty members); the rest is recorded as refused.
 
     Every field but ``false_positive_weight`` holds its command-line `Option` in its
     metadata. When to exit with an error code is a choice of the command line
@@ -338,6 +353,22 @@ class AuditSettings:
         parse=float,
         metavar="SHARE",
         help="propose retiring a near-duplicate only if this share of it is in the keeper",
+    )
+    unique_min_words: int = _setting(
+        15,
+        "--min-unique-words",
+        group=KEEP,
+        parse=int,
+        metavar="N",
+        help="fewest words of a member's text missing from its keeper that must be merged before "
+        "retiring it (shorter runs are edits)",
+    )
+    base_url: str | None = _setting(
+        None,
+        "--base-url",
+        group=KEEP,
+        metavar="URL",
+        help="URL where the documents are published: redirects.csv and keep.csv give base URL + path",
     )
     passage_min_words: int = _setting(
         15,
@@ -467,6 +498,29 @@ class AuditSettings:
         form="switch",
         help="also read version-control folders (.git, .hg, .svn, …)",
     )
+    follow_links: bool = _setting(
+        False,
+        "--follow-links",
+        group=INPUTS,
+        form="switch",
+        help="also read files that links in the given folders point to outside them",
+    )
+    max_archive_members: int = _setting(
+        100_000,
+        "--max-archive-members",
+        group=INPUTS,
+        parse=int,
+        metavar="N",
+        help="read at most N members of one archive (the rest is recorded as refused)",
+    )
+    max_run_members: int = _setting(
+        1_000_000,
+        "--max-run-members",
+        group=INPUTS,
+        parse=int,
+        metavar="N",
+        help="read at most N archive members in all, all archives together",
+    )
 
     def __post_init__(self) -> None:
         # Lists given by callers become tuples so the object stays hashable and frozen.
@@ -539,12 +593,15 @@ class AuditSettings:
         positive = {
             "shingle_size": self.shingle_size,
             "passage_min_words": self.passage_min_words,
+            "unique_min_words": self.unique_min_words,
             "num_perm": self.num_perm,
             "bucket_limit": self.bucket_limit,
             "tfidf_features": self.tfidf_features,
             "max_file_bytes": self.max_file_bytes,
             "max_text_chars": self.max_text_chars,
             "max_archive_bytes": self.max_archive_bytes,
+            "max_archive_members": self.max_archive_members,
+            "max_run_members": self.max_run_members,
         }
         for name, value in positive.items():
             if not isinstance(value, int) or isinstance(value, bool) or value < 1:
@@ -571,4 +628,8 @@ class AuditSettings:
             fail("the datasketch-sha1 scheme takes a seed below 2**32 (numpy RandomState's range)")
         if not self.text_fields:
             fail("text_fields needs at least one field name")
+        if self.base_url is not None and (not isinstance(self.base_url, str) or not self.base_url.strip()):
+            fail(
+                f"base_url must be a non-empty URL such as 'https://wiki.example.org/', got {self.base_url!r}"
+            )
         return self

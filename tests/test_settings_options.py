@@ -20,7 +20,14 @@ from dedup.settings import AuditSettings, Option, setting_options
 # `dedup audit` before the options were generated, in the order they were declared, and
 # the command-line options added since (they are no settings).
 ADDED_RUN_FLAGS = ["--no-report"]
-ADDED_SETTING_FLAGS = ["--min-passage-words"]
+ADDED_SETTING_FLAGS = [
+    "--min-passage-words",
+    "--min-unique-words",
+    "--base-url",
+    "--follow-links",
+    "--max-archive-members",
+    "--max-run-members",
+]
 AUDIT_FLAGS = [
     "--out",
     "--threshold",
@@ -103,6 +110,9 @@ INDEX_ADDED_FLAGS = [
     "--max-text-chars",
     "--max-archive-ratio",
     "--max-archive-bytes",
+    "--follow-links",
+    "--max-archive-members",
+    "--max-run-members",
 ]
 # Settings deliberately not on the command line.
 NOT_ON_COMMAND_LINE = {"false_positive_weight"}
@@ -129,6 +139,8 @@ FLAG_CASES = [
     (["--date-field", "updated"], "date_field", "updated"),
     (["--retire-coverage", "0.5"], "retire_coverage", 0.5),
     (["--min-passage-words", "25"], "passage_min_words", 25),
+    (["--min-unique-words", "40"], "unique_min_words", 40),
+    (["--base-url", "https://wiki.example.org/"], "base_url", "https://wiki.example.org/"),
     (["--keep-boilerplate"], "boilerplate", False),
     (["--boilerplate-share", "0.1"], "boilerplate_share", 0.1),
     (["--boilerplate-min-texts", "4"], "boilerplate_min_texts", 4),
@@ -145,6 +157,9 @@ FLAG_CASES = [
     (["--max-archive-ratio", "10"], "max_archive_ratio", 10.0),
     (["--max-archive-bytes", "5000"], "max_archive_bytes", 5000),
     (["--html-keep-all"], "html_keep_all", True),
+    (["--follow-links"], "follow_links", True),
+    (["--max-archive-members", "50"], "max_archive_members", 50),
+    (["--max-run-members", "500"], "max_run_members", 500),
 ]
 
 

@@ -9,14 +9,18 @@ Roles and proposed actions (the tool changes nothing; these are proposals):
     keeper          keep
     exact-copy      retire in favour of the keeper
     duplicate       retire in favour of the keeper, if at least ``retire_coverage`` of its
-                    shingles are in the keeper; otherwise review (it has text the keeper lacks)
+                    shingles are in the keeper; otherwise review (it has text the keeper lacks).
+                    `dedup.cluster.loss.settle_actions` then looks at its words: one with
+                    passages the keeper lacks becomes merge-then-retire or review
     linked-through  review
 
 Every member says why as data, not words: ``reason_code`` and ``reason_figures`` (the
 report turns them into sentences, see `dedup.report.wording`). Codes and their figures:
-    most-text, newest, oldest, shortest-path
-                    keeper chosen by the policy alone; no figures
-    preferred-path  keeper matching a preferred path: ``glob``, ``then`` (the policy's code)
+    most-text, newest, oldest, shortest-path, first-seen
+                    keeper chosen by the policy: what it looked at, and ``tie_break`` and
+                    ``tied`` when members were equal on it (see `keeper.explain_keeper`)
+    preferred-path  keeper matching a preferred path: ``glob``, ``then`` (the policy's code),
+                    ``matching``, and the policy's figures when several members match
     exact-copy      ``keeper``
     covered         duplicate with enough of its text in the keeper: ``keeper``,
                     ``measure``, the four scores to the keeper, ``retire_coverage``
@@ -24,6 +28,12 @@ report turns them into sentences, see `dedup.report.wording`). Codes and their f
     linked-through  ``keeper``, ``linked_through`` (the member it resembles),
                     ``link_score`` (that pair's deciding score, or None), ``measure``
                     and the four scores to the keeper
+    unique-text, mostly-unique
+                    given by `dedup.cluster.loss.settle_actions` (see there)
+
+Each cluster counts ``retire_documents`` and ``retire_bytes`` (members proposed for
+plain retirement) and ``merge_documents`` and ``merge_bytes`` (members proposed for
+retirement once their own text is merged into the keeper).
 """
 
 from __future__ import annotations
@@ -36,12 +46,32 @@ import numpy as np
 from ..settings import AuditSettings
 from ..verify.scores import PairScores, deciding_score
 from .components import breadth_first_parents, cluster_members
-from .keeper import KEEPER_REASON_CODES, choose_keeper, keeper_reason
+from .keeper import KEEPER_REASON_CODES, choose_keeper, explain_keeper
 
-__all__ = ["ClusterInputs", "build_clusters", "REASON_CODES"]
+__all__ = [
+    "ClusterInputs",
+    "build_clusters",
+    "number_clusters",
+    "count_retired",
+    "REASON_CODES",
+    "ACTIONS",
+    "RETIRING_ACTIONS",
+]
 
 # Every reason code a clustered document can get.
-REASON_CODES = (*KEEPER_REASON_CODES, "exact-copy", "covered", "not-covered", "linked-through")
+REASON_CODES = (
+    *KEEPER_REASON_CODES,
+    "exact-copy",
+    "covered",
+    "not-covered",
+    "linked-through",
+    "unique-text",
+    "mostly-unique",
+)
+# Every proposed action, for every document (clustered or not).
+ACTIONS = ("keep", "retire", "merge-then-retire", "review")
+# Actions that end with the document retired once a person has carried them out.
+RETIRING_ACTIONS = ("retire", "merge-then-retire")
 _EXACT_SIMILARITY = {"jaccard": 1.0, "containment_in_keeper": 1.0, "keeper_containment": 1.0, "cosine": 1.0}
 
 
@@ -54,6 +84,8 @@ class ClusterInputs:
     sizes: Sequence[int]  # bytes of the original text
     dates: Sequence[float | None]
     representative: np.ndarray  # document -> document holding the same text first
+    # Input position of each document (`keeper.input_positions`): needed by first-seen only.
+    order: Sequence[int | None] | None = None
 
 
 @dataclass(frozen=True)
@@ -170,7 +202,7 @@ def _cluster_record(
     members, kinds = [], set()
     for m in g.tolist():
         if m == k:
-            code, figures = keeper_reason(keeper_id, settings.keeper_policy, settings.prefer)
+            code, figures = _keeper_reason(g, k, inputs, settings)
             entry = _member(keeper_id, "keeper", None, None, None, "keep", None, code, figures)
         elif rep[m] == rep[k]:
             kinds.add("exact")
@@ -181,35 +213,67 @@ def _cluster_record(
             kinds.add("near")
             entry = _scored_member(m, k, inputs, scored, parents, edge_score, settings)
         members.append(entry)
-    retired = [m for m, e in zip(g.tolist(), members) if e["action"] == "retire"]
     sims = [e["deciding_score"] for e in members if e["deciding_score"] is not None]
-    return {
+    cluster = {
         "keeper": keeper_id,
         "size": int(g.shape[0]),
         "kind": "mixed" if len(kinds) > 1 else (kinds.pop() if kinds else "exact"),
-        "retire_documents": len(retired),
-        "retire_bytes": int(sum(inputs.sizes[m] for m in retired)),
+        "retire_documents": 0,
+        "retire_bytes": 0,
+        "merge_documents": 0,
+        "merge_bytes": 0,
         "lowest_similarity_to_keeper": float(min(sims)) if sims else 1.0,
         "members": members,
     }
+    return count_retired(cluster, [inputs.sizes[m] for m in g.tolist()])
 
 
-def _numbered(clusters: list[dict]) -> list[dict]:
-    """Clusters largest first (then most bytes to retire, then keeper id), numbered C00001...
+def _keeper_reason(g: np.ndarray, k: int, inputs: ClusterInputs, settings: AuditSettings) -> tuple[str, dict]:
+    """`keeper.explain_keeper` for the cluster ``g`` with keeper ``k``; O(members)."""
+    return explain_keeper(
+        g.tolist(),
+        k,
+        inputs.ids,
+        inputs.lengths,
+        inputs.dates,
+        settings.keeper_policy,
+        settings.prefer,
+        inputs.order,
+        settings.date_field,
+    )
+
+
+def count_retired(cluster: dict, sizes: Sequence[int]) -> dict:
+    """Set a cluster's ``retire_documents``/``retire_bytes`` (action ``retire``) and
+    ``merge_documents``/``merge_bytes`` (``merge-then-retire``) from its members' actions,
+    in place; ``sizes[i]`` is the bytes of ``members[i]``. Returns it; O(members).
+    """
+    for action, prefix in (("retire", "retire"), ("merge-then-retire", "merge")):
+        chosen = [b for e, b in zip(cluster["members"], sizes) if e["action"] == action]
+        cluster[f"{prefix}_documents"] = len(chosen)
+        cluster[f"{prefix}_bytes"] = int(sum(chosen))
+    return cluster
+
+
+def number_clusters(clusters: list[dict]) -> list[dict]:
+    """Clusters largest first (then most bytes to retire, plainly or after a merge, then
+    keeper id), numbered C00001...
 
     Each member gets its ``cluster_id``; ``id`` comes first in each cluster for readers of
-    the JSON.
+    the JSON. Clusters numbered before are numbered again (after actions changed): the
+    result depends on the clusters' figures only. O(c log c) for c clusters.
     """
-    order = sorted(
-        range(len(clusters)),
-        key=lambda i: (-clusters[i]["size"], -clusters[i]["retire_bytes"], clusters[i]["keeper"]),
-    )
+
+    def key(c: dict) -> tuple:
+        return (-c["size"], -(c["retire_bytes"] + c.get("merge_bytes", 0)), c["keeper"])
+
+    order = sorted(range(len(clusters)), key=lambda i: key(clusters[i]))
     numbered = []
     for number, i in enumerate(order, 1):
         cluster_id = f"C{number:05d}"
         for member in clusters[i]["members"]:
             member["cluster_id"] = cluster_id
-        numbered.append({"id": cluster_id, **clusters[i]})
+        numbered.append({"id": cluster_id, **{key: v for key, v in clusters[i].items() if key != "id"}})
     return numbered
 
 
@@ -249,7 +313,13 @@ def build_clusters(
     adjacency = _adjacency(edge_left, edge_right)
     keepers = [
         choose_keeper(
-            g.tolist(), inputs.ids, inputs.lengths, inputs.dates, settings.keeper_policy, settings.prefer
+            g.tolist(),
+            inputs.ids,
+            inputs.lengths,
+            inputs.dates,
+            settings.keeper_policy,
+            settings.prefer,
+            inputs.order,
         )
         for g in groups
     ]
@@ -259,4 +329,4 @@ def build_clusters(
         for g, k in zip(groups, keepers)
     ]
     roles = {m: entry for g, c in zip(groups, clusters) for m, entry in zip(g.tolist(), c["members"])}
-    return _numbered(clusters), roles
+    return number_clusters(clusters), roles

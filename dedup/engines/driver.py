@@ -20,10 +20,12 @@ from ..align import AlignSettings, align_pairs, word_spans
 from ..candidates import recall_statement
 from ..cluster import build_clusters
 from ..cluster.actions import ClusterInputs
+from ..cluster.keeper import input_positions, unmatched_prefer
+from ..cluster.loss import align_members, settle_actions
 from ..ingest import LedgerEntry, summarize
 from ..normalize import exact_groups
 from ..report import records
-from ..report.wording import describe_roles
+from ..report.wording import describe_roles, describe_warning
 from ..result import AuditResult
 from ..verify import PairScores
 
@@ -32,6 +34,7 @@ __all__ = [
     "Verified",
     "mark_empty",
     "cluster_step",
+    "settle_step",
     "pair_records",
     "audit_id_of",
     "Findings",
@@ -151,12 +154,15 @@ def cluster_step(
     verified: Verified,
     score_against: Callable[[np.ndarray, np.ndarray], PairScores],
     settings,
+    ledger_ids: Sequence[str | None] = (),
 ) -> tuple[list[dict], dict[int, dict], list[tuple[int, int]]]:
     """The cluster step over confirmed near pairs and exact groups (kept-document numbers).
 
-    ``score_against(members, keepers)`` scores kept documents against their keepers.
-    Returns the clusters, the role of each clustered document (reasons worded), and the
-    exact edges (first member → member).
+    ``score_against(members, keepers)`` scores kept documents against their keepers;
+    ``ledger_ids`` (the document id of each ledger entry, in input order) gives the
+    ``first-seen`` keeper policy its order. Returns the clusters, the role of each
+    clustered document (reasons as data: `settle_step` words them), and the exact edges
+    (first member → member).
     """
     first_doc = texts.first_doc
     near_left, near_right = first_doc[verified.confirmed.left], first_doc[verified.confirmed.right]
@@ -173,10 +179,30 @@ def cluster_step(
         sizes=[rec["bytes"] for rec in kept],
         dates=[rec.get("date") for rec in kept],
         representative=texts.representative,
+        order=input_positions(texts.ids, ledger_ids) if settings.keeper_policy == "first-seen" else None,
     )
     clusters, roles = build_clusters(cluster_inputs, all_left, all_right, edge_score, score_against, settings)
-    describe_roles(roles)  # reasons as data become sentences for the outputs
     return clusters, roles, list(zip(exact_left, exact_right))
+
+
+def settle_step(
+    clusters: list[dict],
+    roles: dict[int, dict],
+    texts: DistinctTexts,
+    originals: dict[str, str],
+    template_lines,
+    settings,
+    workers: int = 1,
+) -> tuple[list[dict], list[dict]]:
+    """Settle what happens to each near-duplicate so that no text is lost: a member whose
+    words are not all in its keeper is proposed ``merge-then-retire`` (or ``review``),
+    never plain ``retire`` (`dedup.cluster.loss`); then every reason is worded. Returns
+    the clusters (counted again) and the member's unique runs. Cost: one compiled
+    alignment per near-duplicate member."""
+    words = align_members(clusters, originals, settings, template_lines=template_lines, workers=workers)
+    settled = settle_actions(clusters, roles, words, settings, [rec["bytes"] for rec in texts.kept])
+    describe_roles(roles)  # reasons as data become sentences for the outputs
+    return settled.clusters, settled.unique_runs
 
 
 @dataclass
@@ -195,6 +221,7 @@ class Findings:
     roles: dict[int, dict]
     pairs: list[dict]
     passages: list[dict]
+    unique_runs: list[dict]
     original_texts: dict[str, str]
 
 
@@ -233,10 +260,14 @@ def assemble(plan, paths: Sequence[str], found: Findings) -> AuditResult:
         candidates=found.candidates,
         tfidf=found.tfidf,
         boilerplate=found.boilerplate,
-        warnings=records.warning_records(found.oversize, texts.text_ids, found.tfidf, settings),
+        warnings=records.warning_records(found.oversize, texts.text_ids, found.tfidf, settings)
+        + [
+            describe_warning(w) for w in unmatched_prefer(settings.prefer, [d["id"] for d in found.documents])
+        ],
         summary=summary,
         audit_id=audit_id_of(settings, found.documents),
         passages=found.passages,
+        unique_runs=found.unique_runs,
         texts=found.original_texts,
     )
 

@@ -32,7 +32,7 @@ from ..features.shingles import from_word_hashes
 from ..ingest import LedgerEntry, iter_documents
 from ..normalize.batch import prepare_documents
 from ..normalize.boilerplate import Boilerplate
-from ..plan import Plan
+from ..plan import Plan, reading_keywords
 from ..progress import Progress
 from ..report import records
 from ..result import AuditResult
@@ -49,6 +49,7 @@ from .driver import (
     cluster_step,
     mark_empty,
     pair_records,
+    settle_step,
     tfidf_block,
 )
 from .reading import ReadResult, read_pass
@@ -128,20 +129,10 @@ class _Run:
         self.progress.start("reading")
         documents_in = iter_documents(
             paths,
-            id_field=s.id_field,
-            text_fields=s.text_fields,
-            max_file_bytes=s.max_file_bytes,
-            include_hidden=s.include_hidden,
             ledger=ledger,
-            max_text_chars=s.max_text_chars,
-            max_archive_ratio=s.max_archive_ratio,
-            max_archive_bytes=s.max_archive_bytes,
-            html_keep_all=s.html_keep_all,
-            include=s.include,
-            exclude=s.exclude,
-            include_vcs=s.include_vcs,
             workers=self.workers,
             prepare=functools.partial(prepare_documents, lines=s.boilerplate),
+            **reading_keywords(s),
         )
         early = None
         if not s.boilerplate and self.threaded:
@@ -265,7 +256,7 @@ class _Run:
         self.watch.lap("verify")
         return Verified(scores.select(sure), decided[sure], n_candidates)
 
-    def cluster(self, texts: DistinctTexts, verified: Verified, compared: ComparedSets):
+    def cluster(self, texts: DistinctTexts, verified: Verified, compared: ComparedSets, ledger):
         """The cluster step (`driver.cluster_step`), members scored from the compared sets."""
 
         def score_against(members: np.ndarray, keepers: np.ndarray) -> PairScores:
@@ -277,7 +268,8 @@ class _Run:
                 compared.of(texts.text_of_doc[keepers]),
             )
 
-        clustered = cluster_step(texts, verified, score_against, self.settings)
+        ledger_ids = [entry.document_id for entry in ledger]
+        clustered = cluster_step(texts, verified, score_against, self.settings, ledger_ids)
         self.watch.lap("cluster")
         return clustered
 
@@ -332,11 +324,16 @@ def run_audit(
     sketch = run.sketch(texts, early, boilerplate, method)
     left, right, oversize, compared = run.candidates(texts, sketch, boilerplate, method)
     verified = run.verify(left, right, compared)
-    clusters, roles, exact_edges = run.cluster(texts, verified, compared)
+    clusters, roles, exact_edges = run.cluster(texts, verified, compared, ledger)
     sizes = np.diff(compared.shingle_offsets)
     pairs = pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)])
     originals = _clustered_texts(read.documents, read.original_slot, clusters, run.originals)
     passages = run.align(pairs, clusters, originals)
+    template_lines = boilerplate.counts if boilerplate is not None else None
+    clusters, unique_runs = settle_step(
+        clusters, roles, texts, originals, template_lines, settings, workers=2 if run.threaded else 1
+    )
+    run.watch.lap("settle")
     found = Findings(
         ledger=ledger,
         documents=read.documents,
@@ -352,6 +349,7 @@ def run_audit(
         roles=roles,
         pairs=pairs,
         passages=passages,
+        unique_runs=unique_runs,
         original_texts=originals,
     )
     result = assemble(plan, paths, found)

@@ -188,6 +188,8 @@ def summary_block(
         "linked_through": sum(1 for r in roles.values() if r["role"] == "linked-through"),
         "retire_documents": sum(1 for a in actions if a["action"] == "retire"),
         "retire_bytes": sum(c["retire_bytes"] for c in clusters),
+        "merge_documents": sum(1 for a in actions if a["action"] == "merge-then-retire"),
+        "merge_bytes": sum(c.get("merge_bytes", 0) for c in clusters),
         "review_documents": sum(1 for a in actions if a["action"] == "review"),
     }
 

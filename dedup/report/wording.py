@@ -6,14 +6,16 @@ sentences of ``audit.json``, ``actions.csv`` and the HTML report. Scores are wri
 with two decimals, a share of text as a whole percentage.
 
 `describe_roles` fills in the sentences of a whole audit, in place; `reason_sentence`
-words a single reason.
+words a single reason; `describe_warning` words a warning the cluster stage returns as
+data.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping
+from datetime import datetime, timezone
 
-__all__ = ["reason_sentence", "describe_member", "describe_roles", "POLICY_WORDS"]
+__all__ = ["reason_sentence", "describe_member", "describe_roles", "describe_warning", "POLICY_WORDS"]
 
 # What each keeper policy's reason code says about the keeper.
 POLICY_WORDS = {
@@ -21,11 +23,72 @@ POLICY_WORDS = {
     "newest": "it is the newest",
     "oldest": "it is the oldest",
     "shortest-path": "it has the shortest path",
+    "first-seen": "it was read first",
+}
+# What broke a tie between members the policy found equal.
+TIE_BREAK_WORDS = {
+    "id-order": "sorted id order, which says nothing about the text",
+    "id-length": "the shorter id",
 }
 
 
 def _fmt(x: float) -> str:
     return f"{x:.2f}"
+
+
+def _count(n: int, noun: str) -> str:
+    return f"{n:,} {noun}{'' if n == 1 else 's'}"
+
+
+def _share(x: float) -> str:
+    """A share as a whole percentage that never rounds a part to nothing or to everything."""
+    if 0 < x < 0.01:
+        return "under 1%"
+    if 0.99 < x < 1:
+        return "over 99%"
+    return f"{x:.0%}"
+
+
+def _date(seconds: float) -> str:
+    return datetime.fromtimestamp(seconds, tz=timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
+
+
+def _date_source(f: Mapping) -> str:
+    if f["date_source"] == "metadata":
+        return f"metadata field {f['date_field']!r}"
+    return "file modification time"
+
+
+def _policy_detail(code: str, f: Mapping) -> str:
+    """What the policy looked at, in words ("" when the figures do not say)."""
+    if code == "most-text" and "characters" in f:
+        following = f.get("next_characters")
+        if following is None or "tie_break" in f:
+            return f"{f['characters']:,} characters"
+        return f"{f['characters']:,} characters; next {following:,}"
+    if code in ("newest", "oldest") and "date_source" in f:
+        return f"{_date(f['date'])}, {_date_source(f)}"
+    if code == "shortest-path" and "levels" in f:
+        return _count(f["levels"], "folder level")
+    if code == "first-seen" and "position" in f:
+        position = f["position"]
+        return f"document {position:,} in input order" if position is not None else "not in the ledger"
+    return ""
+
+
+def _policy_clause(code: str, f: Mapping) -> str:
+    """Why the policy chose the keeper: its words, what it looked at, and any tie."""
+    tie = ""
+    if "tie_break" in f:
+        others = _count(f["tied"] - 1, "other member")
+        tie = f", tied with {others}; the tie was broken by {TIE_BREAK_WORDS[f['tie_break']]}"
+    if code in ("newest", "oldest") and f.get("date_source") and f.get("date") is None:
+        return (
+            f"none of the {f['tied']:,} members compared has a date ({_date_source(f)}); "
+            f"chosen by {TIE_BREAK_WORDS['id-order']}"
+        )
+    detail = _policy_detail(code, f)
+    return POLICY_WORDS[code] + (f" ({detail})" if detail else "") + tie
 
 
 def _scores(f: Mapping) -> str:
@@ -36,17 +99,57 @@ def _scores(f: Mapping) -> str:
 
 
 def _preferred_path(f: Mapping) -> str:
-    return f"keeper: matches preferred path {f['glob']!r}; among those, {POLICY_WORDS[f['then']]}"
+    matching = f.get("matching")
+    if matching == 1:
+        return f"keeper: the only member matching preferred path {f['glob']!r}"
+    also = f", as do {_count(matching - 1, 'other member')}" if matching else ""
+    return f"keeper: matches preferred path {f['glob']!r}{also}; among those, {_policy_clause(f['then'], f)}"
+
+
+def _unique(f: Mapping) -> str:
+    """The member's unique runs, in words: "212 of its words (9%) in 3 passages"."""
+    return (
+        f"{f['unique_words']:,} of its words ({_share(f['unique_share'])}) "
+        f"in {_count(f['unique_runs'], 'passage')}"
+    )
 
 
 def _covered(f: Mapping) -> str:
-    return f"near-duplicate of {f['keeper']}: {_scores(f)}"
+    sentence = f"near-duplicate of {f['keeper']}: {_scores(f)}"
+    if "unique_min_words" in f:
+        sentence += f"; no run of {f['unique_min_words']} or more of its words is missing from the keeper"
+    return sentence
 
 
 def _not_covered(f: Mapping) -> str:
-    return (
+    sentence = (
         f"similar to {f['keeper']} ({_scores(f)}), but only {f['containment_in_keeper']:.0%} of its text "
-        "is in the keeper: merge what is missing before retiring it"
+        "is in the keeper"
+    )
+    if "unique_runs" not in f:
+        return sentence + ": merge what is missing before retiring it"
+    if f["unique_runs"]:
+        return sentence + f", and {_unique(f)} are not in it: merge what is missing before retiring it"
+    return sentence + (
+        f"; no run of {f['unique_min_words']} or more of its words is missing, so the differences are "
+        "edits: compare them before retiring it"
+    )
+
+
+def _unique_text(f: Mapping) -> str:
+    keeper = f["keeper"]
+    return (
+        f"near-duplicate of {keeper} ({_scores(f)}), but {_unique(f)} are not in {keeper}: "
+        f"merge them into {keeper} before retiring it"
+    )
+
+
+def _mostly_unique(f: Mapping) -> str:
+    keeper = f["keeper"]
+    return (
+        f"shares text with {keeper} ({_scores(f)}), but {_unique(f)} are not in {keeper}: more than "
+        f"{f['max_merge_share']:.0%} of it is its own text, so it is not proposed for retirement; "
+        "decide separately"
     )
 
 
@@ -59,7 +162,7 @@ def _linked_through(f: Mapping) -> str:
 
 
 def _policy(code: str) -> Callable[[Mapping], str]:
-    return lambda _figures: f"keeper: {POLICY_WORDS[code]}"
+    return lambda figures: f"keeper: {_policy_clause(code, figures)}"
 
 
 _SENTENCES: dict[str, Callable[[Mapping], str]] = {
@@ -69,6 +172,8 @@ _SENTENCES: dict[str, Callable[[Mapping], str]] = {
     "covered": _covered,
     "not-covered": _not_covered,
     "linked-through": _linked_through,
+    "unique-text": _unique_text,
+    "mostly-unique": _mostly_unique,
 }
 
 
@@ -113,3 +218,36 @@ def describe_roles(roles: dict[int, dict]) -> dict[int, dict]:
     for entry in roles.values():
         describe_member(entry)
     return roles
+
+
+def _prefer_matches_nothing(w: Mapping) -> str:
+    sample = f" such as {w['sample']!r}" if w.get("sample") is not None else ""
+    return (
+        f"preferred path {w['glob']!r} matches none of the {_count(w['documents'], 'document')}, so it "
+        f"chose no keeper; patterns are matched against document ids{sample}"
+    )
+
+
+_WARNINGS: dict[str, Callable[[Mapping], str]] = {"prefer-matches-nothing": _prefer_matches_nothing}
+
+
+def describe_warning(warning: Mapping) -> dict:
+    """A warning record for ``audit.json`` from a warning given as data: its ``kind``, then
+    the ``message``, then its figures. O(1).
+
+    >>> w = describe_warning({"kind": "prefer-matches-nothing", "glob": "x/*", "documents": 2, "sample": "a"})
+    >>> list(w)
+    ['kind', 'message', 'glob', 'documents', 'sample']
+    >>> w["message"].split(";")[0]
+    "preferred path 'x/*' matches none of the 2 documents, so it chose no keeper"
+
+    Raises
+    ------
+    ValueError
+        The kind is not one the cluster stage gives.
+    """
+    kind = warning["kind"]
+    if kind not in _WARNINGS:
+        raise ValueError(f"unknown warning kind {kind!r}")
+    figures = {key: value for key, value in warning.items() if key != "kind"}
+    return {"kind": kind, "message": _WARNINGS[kind](warning), **figures}

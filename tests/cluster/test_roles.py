@@ -58,7 +58,11 @@ def test_reasons_are_codes_with_figures(clustered):
     _, roles = clustered
     codes = {IDS[m]: (r["reason_code"], r["reason_figures"]) for m, r in roles.items()}
     scores = {"measure": "jaccard", "jaccard": 0.6, "containment_in_keeper": 0.7}
-    assert codes["current/k.md"] == ("preferred-path", {"glob": "current/**", "then": "most-text"})
+    # The only member under current/: the preferred path alone decided.
+    assert codes["current/k.md"] == (
+        "preferred-path",
+        {"glob": "current/**", "then": "most-text", "matching": 1},
+    )
     assert codes["copy.md"] == ("exact-copy", {"keeper": "current/k.md"})
     assert codes["covered.md"][0] == "covered"
     assert codes["partial.md"][0] == "not-covered"
@@ -88,9 +92,7 @@ def test_the_member_records_keep_their_key_order_once_worded(clustered):
         "reason",
         "cluster_id",
     ]
-    assert (
-        member["reason"] == "keeper: matches preferred path 'current/**'; among those, it has the most text"
-    )
+    assert member["reason"] == "keeper: the only member matching preferred path 'current/**'"
     assert roles[4]["reason"].startswith("in this cluster because it resembles partial.md (jaccard 0.75)")
 
 
