@@ -182,7 +182,8 @@ class AuditSettings:
         retiring it would lose text the keeper lacks.
     unique_min_words : int
         Fewest words of a run of a member's text that its keeper lacks for the run to
-        count as text of its own (default 15; shorter runs are edits). A member with such
+        count as text of its own (default 10: a sentence of its own counts, a reworded phrase
+        does not). A member with such
         a run is never proposed for plain retirement: its runs are listed to be merged
         into the keeper first (``merge-worklist.csv``), see `dedup.cluster.loss`.
     base_url : str or None
@@ -355,7 +356,7 @@ class AuditSettings:
         help="propose retiring a near-duplicate only if this share of it is in the keeper",
     )
     unique_min_words: int = _setting(
-        15,
+        10,
         "--min-unique-words",
         group=KEEP,
         parse=int,
