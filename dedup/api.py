@@ -11,7 +11,7 @@ from __future__ import annotations
 import contextlib
 from collections.abc import Sequence
 
-from .engines import ENGINES, run_audit
+from .engines import ENGINES, run_audit, spark_engine
 from .engines.tuning import lean_allocation
 from .features import tokenize
 from .ingest import InputError, decode_text
@@ -35,6 +35,8 @@ def audit(
     workers: int = 1,
     engine: str = "local",
     tune_process: bool = False,
+    spark_session=None,
+    spark_master: str | None = None,
 ) -> AuditResult:
     """Audit files and folders for exact and near-duplicate documents.
 
@@ -54,12 +56,18 @@ def audit(
     workers : int
         Processes that read and normalize files in parallel (default 1: read in this
         process). Results do not depend on it.
-    engine : {"local"}
-        Which engine runs the plan.
+    engine : {"local", "spark"}
+        Which engine runs the plan: ``spark`` gives the same results on Apache Spark
+        (`dedup.engines.spark`; needs ``dedup[spark]`` and Java).
     tune_process : bool
         Let the local engine tune this process while it runs (memory reuse, no huge pages,
         no cyclic garbage collection; see `dedup.engines.tuning`), everything put back
         afterwards. Off by default: a library does not change its host's process.
+    spark_session : pyspark.sql.SparkSession, optional
+        With ``engine="spark"``: the session to run in (else the active one, or one
+        started on ``spark_master``, ``local[*]`` by default, and stopped at the end).
+    spark_master : str, optional
+        With ``engine="spark"`` and no session: the master URL of the session started.
 
     Returns
     -------
@@ -87,6 +95,19 @@ def audit(
     plan = Plan.of(settings)
     progress = progress or Progress.silent()
     known_boilerplate = _read_ignore_text(settings.ignore_text_file)
+    if engine == "spark":
+        run_spark = spark_engine()  # a clear error when pyspark or Java is missing
+        with WorkFolder(work_dir, keep=keep_work) as work:
+            return run_spark(
+                plan,
+                paths,
+                spark=spark_session,
+                master=spark_master,
+                known_boilerplate=known_boilerplate,
+                progress=progress,
+                work=work,
+                workers=workers,
+            )
     with lean_allocation() if tune_process else contextlib.nullcontext():
         try:
             with WorkFolder(work_dir, keep=keep_work) as work:
