@@ -66,7 +66,9 @@ def big_cluster_result(template, members: int, seed: int = 5):
     cluster = {"id": "C00001", "keeper": keeper, "size": members, "kind": "near", "retire_documents": members - 1,
                "retire_bytes": sum(x["bytes"] for x in documents[1:]), "lowest_similarity_to_keeper": 0.8,
                "members": rows}  # fmt: skip
-    result = dataclasses.replace(template, documents=documents, clusters=[cluster], pairs=pairs, texts=texts)
+    result = dataclasses.replace(
+        template, documents=documents, clusters=[cluster], pairs=pairs, texts=texts, unique_runs=[]
+    )
     result.passages = sorted(passages, key=lambda p: (p["left"], p["right"], p["left_start"]))
     return result
 

@@ -100,8 +100,21 @@ def _cell(value) -> str:
     if isinstance(value, float):
         return f"{value:.6f}"
     if isinstance(value, str):
-        return safe_cell(value)
+        return safe_cell(_encodable(value))
     return str(value)
+
+
+def _encodable(text: str) -> str:
+    """``text`` as UTF-8 can hold it: a lone surrogate (a text read from bytes that were not
+    UTF-8 keeps them) becomes U+FFFD in the CSV files; audit.json keeps it escaped."""
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return _SURROGATE.sub("\ufffd", text)
+    return text
+
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 
 def _write_rows(handle, rows: Iterable[dict], columns: list[str]) -> None:

@@ -44,4 +44,4 @@ def with_special_texts(result):
     (and no passages, which would point into the old texts)."""
     ids = [m["document_id"] for c in result.clusters for m in c["members"]]
     texts = {doc_id: SPECIAL_TEXTS[n % len(SPECIAL_TEXTS)] for n, doc_id in enumerate(ids)}
-    return dataclasses.replace(result, texts=texts, passages=[])
+    return dataclasses.replace(result, texts=texts, passages=[], unique_runs=[])

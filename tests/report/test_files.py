@@ -154,3 +154,12 @@ def test_every_file_the_audit_writes_counts_as_ours(tmp_path, demo_result):
     out = tmp_path / "out"
     write_outputs(demo_result, str(out))
     assert sorted(os.listdir(out)) == sorted(OUTPUT_NAMES)
+
+
+def test_a_lone_surrogate_in_a_text_cell_is_written_as_a_replacement_character(tmp_path):
+    """Texts decoded with surrogatepass keep lone surrogates; UTF-8 CSV files cannot hold them."""
+    from dedup.report.files import write_csv
+
+    path = tmp_path / "t.csv"
+    write_csv(str(path), [{"a": "x\ud800y", "b": 1}], ["a", "b"])
+    assert path.read_text(encoding="utf-8").splitlines() == ["a,b", "x\ufffdy,1"]
