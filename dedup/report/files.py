@@ -100,20 +100,12 @@ def _cell(value) -> str:
     if isinstance(value, float):
         return f"{value:.6f}"
     if isinstance(value, str):
-        return safe_cell(_encodable(value))
+        return "'" + value if value.startswith(_FORMULA_START) else value
     return str(value)
 
 
-def _encodable(text: str) -> str:
-    """``text`` as UTF-8 can hold it: a lone surrogate (a text read from bytes that were not
-    UTF-8 keeps them) becomes U+FFFD in the CSV files; audit.json keeps it escaped."""
-    try:
-        text.encode("utf-8")
-    except UnicodeEncodeError:
-        return _SURROGATE.sub("\ufffd", text)
-    return text
-
-
+# A lone surrogate (a text read from bytes that were not UTF-8 keeps them) cannot be
+# written as UTF-8: it becomes U+FFFD in the CSV files (audit.json keeps it escaped).
 _SURROGATE = re.compile("[\ud800-\udfff]")
 
 
@@ -127,7 +119,10 @@ def _write_rows(handle, rows: Iterable[dict], columns: list[str]) -> None:
     writer.writerow(columns)
     for row in rows:
         cells = [_cell(row.get(c)) for c in columns]
-        (quoted if "\r" in "".join(cells) else writer).writerow(cells)
+        joined = "".join(cells)
+        if _SURROGATE.search(joined):
+            cells = [_SURROGATE.sub("\ufffd", cell) for cell in cells]
+        (quoted if "\r" in joined else writer).writerow(cells)
 
 
 def csv_text(rows: Iterable[dict], columns: list[str]) -> str:
