@@ -369,6 +369,7 @@ def _own_folders(out: str, work_dir: str, inputs: list[str]) -> list[tuple[str, 
 
 def _run_audit(args: argparse.Namespace) -> int:
     from .api import audit
+    from .engines.spark.session import is_uri
     from .engines.tuning import lean_allocation
     from .ingest import InputError, leaving_out
     from .progress import Progress, StderrProgress
@@ -378,7 +379,7 @@ def _run_audit(args: argparse.Namespace) -> int:
     except SettingsError as err:
         return _usage_error(str(err))
     for path in args.paths + ([settings.ignore_text_file] if settings.ignore_text_file else []):
-        if path != "-" and not os.path.exists(path):
+        if path != "-" and not (args.engine == "spark" and is_uri(path)) and not os.path.exists(path):
             return _usage_error(f"no such file or folder: {path}")
     if args.fail_on in ("new", "grown") and not args.index:
         print(

@@ -94,6 +94,7 @@ class _SparkRun:
         self.work, self.progress = work, progress
         self.description = spark.sparkContext.getLocalProperty("spark.job.description")
         self.kept_frames: list = []
+        self.originals_from = None  # documents with their original text, by read position
         self.broadcasts: list = []
         self.stages: dict[str, float] = {}
         self._t = time.perf_counter()
@@ -151,11 +152,13 @@ class _SparkRun:
             master = self.spark.sparkContext.master
             staging = self.work.file("staged-documents") if is_local_master(master) else None
             documents = read_documents(self.spark, paths, s, ledger, staging=staging, workers=workers)
-            normalized, entries = (
-                documents.mapInArrow(normalize_partition(s.boilerplate), ddl(NORMALIZED)),
-                None,
-            )
+            # The original texts stay where they were staged (read again for the evidence).
+            run = normalize_partition(s.boilerplate, keep_text=False)
+            normalized, entries = documents.mapInArrow(run, ddl(NORMALIZED)), None
+            self.originals_from = documents
         normalized = self.keep(normalized)
+        if self.originals_from is None:
+            self.originals_from = normalized.where("kind = 0")
         rows = normalized.select("kind", *RECORD_COLUMNS, *_LEDGER_COLUMNS).toArrow()
         if entries is not None:
             ledger.extend(entries.entries(rows))
@@ -288,7 +291,7 @@ class _SparkRun:
         self.lap("cluster", f"{len(clusters):,} clusters")
         return clusters, roles, exact_edges, held
 
-    def originals(self, normalized, exact: ExactStep, clusters: list[dict]) -> dict[str, str]:
+    def originals(self, exact: ExactStep, clusters: list[dict]) -> dict[str, str]:
         """Original texts of the clustered documents (the report's evidence), in id order."""
         clustered = {m["document_id"] for c in clusters for m in c["members"]}
         picked = [i for i, rec in enumerate(exact.documents) if rec["id"] in clustered]
@@ -300,8 +303,7 @@ class _SparkRun:
             schema=_POSITIONS,
         )
         found = (
-            normalized.where("kind = 0")
-            .join(self.frame(positions, _POSITIONS), ["file_no", "entry_no"], "left_semi")
+            self.originals_from.join(self.frame(positions, _POSITIONS), ["file_no", "entry_no"], "left_semi")
             .select("id", "text")
             .toArrow()
         )
@@ -345,7 +347,7 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
     verified = run.verify(pairs, count, sets)
     clusters, roles, exact_edges, held = run.cluster(exact, verified, sets, ledger, driver_edges)
     pairs = pair_records(texts, verified, exact_edges, held.sizes)
-    originals = run.originals(normalized, exact, clusters)
+    originals = run.originals(exact, clusters)
     passages = run.align(pairs, clusters, originals)
     clusters, unique_runs = run.settle(clusters, roles, texts, originals, boilerplate)
     found = Findings(

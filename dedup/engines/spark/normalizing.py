@@ -101,11 +101,15 @@ class _Text:
         self.text, self.utf8, self.prepared = text, None, None
 
 
-def normalized_batch(documents: pa.RecordBatch | pa.Table, lines: bool) -> pa.RecordBatch:
+def normalized_batch(
+    documents: pa.RecordBatch | pa.Table, lines: bool, keep_text: bool = True
+) -> pa.RecordBatch:
     """The normalize step over one batch of `DOCUMENTS` (a map: no state, any batch).
 
-    Cost: one compiled pass over the batch's bytes (`PreparedBatch`), plus the texts
-    only Python can normalize; the texts are turned into Python strings once.
+    ``keep_text``: the original text goes on with the document (else it is left out, to
+    be read again from where it came from). Cost: one compiled pass over the batch's bytes
+    (`PreparedBatch`), plus the texts only Python can normalize; the texts are turned
+    into Python strings once.
     """
     texts = [_Text(text or "") for text in documents.column("text").to_pylist()]
     PreparedBatch(texts, lines).finish(parallel=False)
@@ -114,6 +118,8 @@ def normalized_batch(documents: pa.RecordBatch | pa.Table, lines: bool) -> pa.Re
     words = tokenize.has_words(buf, offsets, tokenize.word_table())
     n = len(texts)
     columns = {name: documents.column(name) for name in DOCUMENTS.names}
+    if not keep_text:
+        columns["text"] = pa.nulls(n, pa.string())
     added = {
         "kind": pa.array(np.zeros(n, np.int32)),
         "bytes": pa.array(np.asarray([len(doc.prepared[0]) for doc in texts], np.int64)),
@@ -128,13 +134,14 @@ def normalized_batch(documents: pa.RecordBatch | pa.Table, lines: bool) -> pa.Re
     )
 
 
-def normalize_partition(lines: bool):
-    """The normalize map for ``mapInArrow``: batches of `DOCUMENTS` → batches of `NORMALIZED`."""
+def normalize_partition(lines: bool, keep_text: bool = True):
+    """The normalize map for ``mapInArrow``: batches of `DOCUMENTS` → batches of `NORMALIZED`
+    (without the original texts unless ``keep_text``)."""
 
     def run(batches: Iterator[pa.RecordBatch]) -> Iterator[pa.RecordBatch]:
         for batch in batches:
             if batch.num_rows:
-                yield normalized_batch(batch, lines)
+                yield normalized_batch(batch, lines, keep_text)
 
     return run
 

@@ -36,18 +36,13 @@ from ...ingest.readers import ARCHIVE_FORMATS, STREAMED_FORMATS, format_of, read
 from ..reading import _date_getter
 from .columns import ddl, numbers
 from .normalizing import DOCUMENTS, NORMALIZED, ledger_batch, normalized_batch
+from .session import is_uri
 
 __all__ = ["is_uri", "read_uris", "RemoteInputs", "walk_key"]
 
-_SCHEME = re.compile(r"^[A-Za-z][A-Za-z0-9+.-]*://")
 # The binaryFile source reads a file into one value: at most 2 GiB.
 SPARK_FILE_LIMIT = 2**31 - 1
 _GLOB = re.compile(r"([\\{}\[\]*?])")
-
-
-def is_uri(path: str) -> bool:
-    """Whether ``path`` names a location by URI (``scheme://…``) rather than a local path."""
-    return bool(_SCHEME.match(path))
 
 
 def walk_key(rel: str) -> tuple:

@@ -17,11 +17,19 @@ import contextlib
 import importlib.util
 import logging
 import os
+import re
 import shutil
 import sys
 from collections.abc import Iterator
 
-__all__ = ["missing_requirement", "audit_session", "is_local_master", "own_session", "shuffle_partitions"]
+__all__ = [
+    "missing_requirement",
+    "audit_session",
+    "is_local_master",
+    "is_uri",
+    "own_session",
+    "shuffle_partitions",
+]
 
 log = logging.getLogger("dedup.engines.spark")
 
@@ -44,6 +52,19 @@ def missing_requirement() -> str | None:
     ):
         return "the spark engine needs a Java runtime (17 or later): none found on the PATH or in JAVA_HOME"
     return None
+
+
+_SCHEME = re.compile(r"^[A-Za-z][A-Za-z0-9+.-]*://")
+
+
+def is_uri(path: str) -> bool:
+    """Whether ``path`` names a location by URI (``scheme://…``) rather than a local path
+    (a check the command line can make without importing Spark).
+
+    >>> is_uri("s3a://bucket/corpus/"), is_uri("file:///srv/kb"), is_uri("kb/notes.txt"), is_uri("C:\\kb")
+    (True, True, False, False)
+    """
+    return bool(_SCHEME.match(path))
 
 
 def is_local_master(master: str) -> bool:
@@ -84,6 +105,9 @@ def audit_session(spark=None, master: str | None = None) -> Iterator:
         yield session
         return
     log.info("started a Spark session on %s", master or "local[*]")
+    # Its JVM is this audit's alone: warnings about native libraries and the like would
+    # only clutter the command's output.
+    session.sparkContext.setLogLevel("ERROR")
     try:
         yield session
     finally:
