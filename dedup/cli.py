@@ -8,7 +8,8 @@ Exit codes
 ----------
 0  the audit ran (whatever it found)
 1  ``--fail-on any`` and at least one cluster was found; with ``--index``, ``--fail-on new`` /
-   ``grown`` and a cluster new (or grown) since the last audit; reviewed clusters never count
+   ``grown`` / ``changed`` and a cluster new (new or grown; new, grown or changed) since the
+   baseline, else the last audit; reviewed clusters never count, nor does an ``--accept`` run
 2  usage error: a bad option, a path that does not exist, an output folder that
    cannot be written or holds files dedup did not write (see `_out_problem`)
 3  an unexpected internal error (reported in one line; please file it)
@@ -29,7 +30,7 @@ __all__ = ["main", "build_parser", "add_setting_options", "settings_from_args", 
 
 EXIT_OK, EXIT_FOUND, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 # When ``dedup audit`` exits with code 1 (``--fail-on``); the same names as `dedup.index.history.FAIL_ON`.
-FAIL_ON = ("none", "any", "new", "grown")
+FAIL_ON = ("none", "any", "new", "grown", "changed")
 
 CAUTION = (
     "A similarity flag is evidence for a person to review, not a verdict: quotations, citations, "
@@ -113,15 +114,27 @@ def build_parser() -> argparse.ArgumentParser:
         choices=FAIL_ON,
         default="none",
         help="exit with code 1 when any cluster is found (any), or, with --index, when a cluster is new (new) "
-        "or new or grown (grown) since the last audit; reviewed clusters never count (default: none)",
+        "or new or grown (grown), or new, grown or with a member's text changed (changed) since the baseline, "
+        "else the last audit; reviewed clusters never count (default: none)",
     )
     g.add_argument(
         "--index",
         default=None,
         metavar="FILE",
-        help="index file: apply remembered review decisions, compare with the last audit, record this one",
+        help="index file: refresh its documents and search statistics, apply remembered review decisions, "
+        "compare with the baseline (else the last audit), record this audit",
+    )
+    g.add_argument(
+        "--accept",
+        action="store_true",
+        help="with --index: accept this audit's clusters as the baseline that later audits compare with",
     )
     g.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    g.add_argument(
+        "--json",
+        action="store_true",
+        help="print the summary and, with --index, the delta as JSON on stdout (instead of the summary lines)",
+    )
     g.add_argument(
         "--no-report",
         action="store_true",
@@ -381,9 +394,10 @@ def _run_audit(args: argparse.Namespace) -> int:
     for path in args.paths + ([settings.ignore_text_file] if settings.ignore_text_file else []):
         if path != "-" and not (args.engine == "spark" and is_uri(path)) and not os.path.exists(path):
             return _usage_error(f"no such file or folder: {path}")
-    if args.fail_on in ("new", "grown") and not args.index:
+    if (args.fail_on not in ("none", "any") or args.accept) and not args.index:
         print(
-            f"dedup: error: --fail-on {args.fail_on} compares with the last audit: give --index FILE",
+            f"dedup: error: {'--accept' if args.accept else '--fail-on ' + args.fail_on} needs an index of "
+            "earlier audits: give --index FILE",
             file=sys.stderr,
         )
         return EXIT_USAGE
@@ -423,7 +437,14 @@ def _run_audit(args: argparse.Namespace) -> int:
     if args.index:
         from .cli_index import audit_with_index, delta_lines
 
-        delta, code = audit_with_index(args.index, result, args.fail_on)
+        delta, code = audit_with_index(
+            args.index,
+            result,
+            args.fail_on,
+            accept=args.accept,
+            leave_out=_own_folders(out, work_dir, args.paths),
+            quiet=args.quiet,
+        )
         if code == EXIT_USAGE:
             return EXIT_USAGE
         result.delta = delta
@@ -432,7 +453,11 @@ def _run_audit(args: argparse.Namespace) -> int:
             paths = result.write(out, progress, report=not args.no_report)
     except OSError as err:
         return _usage_error(f"cannot write the outputs into {out}: {err}")
-    if not args.quiet:
+    if args.json:
+        from .cli_index import audit_json
+
+        print(audit_json(result, paths, delta, code, args.fail_on))
+    elif not args.quiet:
         # Escaped line by line: warnings and paths hold document ids and file names.
         print("\n".join(map(terminal_text, _summary_lines(result, paths))))
         if delta is not None:

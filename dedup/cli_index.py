@@ -9,17 +9,21 @@ Commands
 dedup index build PATH... --index FILE     create an index of the documents under PATH
 dedup index update [PATH...] --index FILE  bring it up to date (default: the paths of the last run)
 dedup index info --index FILE [--check]    what the index holds; --check runs SQLite's integrity check
+dedup index baseline --index FILE          accept the latest recorded audit as the baseline
 dedup decisions import FILE --index FILE   store the review decisions exported by a report
-dedup similar [TEXT] --index FILE          indexed documents most similar to TEXT (or --file)
+dedup similar [TEXT] --index FILE          indexed documents that best match TEXT (or --file)
 
 Exit codes
 ----------
 0  the command ran
 1  (``dedup audit --index`` only) ``--fail-on`` is met: ``any`` cluster, a ``new`` cluster,
-   or a new or ``grown`` one; clusters settled by a review never count
+   a new or ``grown`` one, or a new, grown or ``changed`` one, since the baseline (else the
+   last audit); clusters settled by a review never count, nor does an audit run with
+   ``--accept``
 2  usage error: a bad option, a path that does not exist, a file that is not an index,
    an index written by a newer dedup, a damaged index, settings that would mix sketches,
-   a decisions file that does not follow the schema, a query without words
+   a decisions file that does not follow the schema, a query without words, no query,
+   a baseline asked of an index with no audit
 """
 
 from __future__ import annotations
@@ -27,11 +31,16 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from typing import TYPE_CHECKING
 
 from .cli import add_setting_options, settings_from_args, terminal_text
 from .settings import INPUTS, SettingsError, setting_options
 
-__all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines"]
+if TYPE_CHECKING:
+    from .progress import Progress
+    from .result import AuditResult
+
+__all__ = ["COMMANDS", "register", "run", "audit_with_index", "delta_lines", "audit_json"]
 
 COMMANDS = ("index", "decisions", "similar")
 EXIT_OK, EXIT_FOUND, EXIT_USAGE = 0, 1, 2
@@ -65,7 +74,13 @@ def _add_settings_options(p: argparse.ArgumentParser, stored: bool) -> None:
 def register(commands: argparse._SubParsersAction) -> None:
     """Add ``index``, ``decisions`` and ``similar`` to the main parser's subcommands."""
     parser_class = commands._parser_class  # keep the main parser's one-line errors in nested commands
+    _register_index(commands, parser_class)
+    _register_decisions(commands, parser_class)
+    _register_similar(commands)
 
+
+def _register_index(commands: argparse._SubParsersAction, parser_class: type) -> None:
+    """``dedup index build|update|info|baseline``."""
     p = commands.add_parser(
         "index",
         help="build or update a persistent index of documents",
@@ -108,7 +123,21 @@ def register(commands: argparse._SubParsersAction) -> None:
         "--check", action="store_true", help="also run SQLite's integrity check over the whole file"
     )
     i.add_argument("--json", action="store_true", help="print JSON")
+    a = sub.add_parser(
+        "baseline",
+        help="accept the latest recorded audit as the baseline",
+        description=(
+            "Accept the clusters of the latest audit recorded with this index (dedup audit --index) as the "
+            "accepted state: from now on, dedup audit --index --fail-on new|grown|changed compares with it, "
+            "until another baseline is accepted. dedup audit --index --accept does the same for the audit it runs."
+        ),
+    )
+    a.add_argument("--index", required=True, metavar="FILE", help="the index file")
+    a.add_argument("--json", action="store_true", help="print JSON")
 
+
+def _register_decisions(commands: argparse._SubParsersAction, parser_class: type) -> None:
+    """``dedup decisions import``."""
     p = commands.add_parser(
         "decisions",
         help="store review decisions in an index",
@@ -126,12 +155,16 @@ def register(commands: argparse._SubParsersAction) -> None:
     m.add_argument("file", metavar="FILE", help="the exported decisions (JSON)")
     m.add_argument("--index", required=True, metavar="INDEX", help="the index file (created if missing)")
 
+
+def _register_similar(commands: argparse._SubParsersAction) -> None:
+    """``dedup similar``."""
     s = commands.add_parser(
         "similar",
-        help="indexed documents most similar to a text",
+        help="indexed documents that best match a text",
         description=(
-            "The indexed documents most similar to a text by TF-IDF cosine, with the terms that contribute most "
-            "and the MinHash Jaccard estimate. Similarity is evidence for review, not a verdict."
+            "The indexed documents that best match a text (BM25 by default; stop words left out), each with the "
+            "passage that matches best, how much of the text it already holds, the terms that contribute most, "
+            "the TF-IDF cosine and the Jaccard similarity. Similarity is evidence for review, not a verdict."
         ),
     )
     s.add_argument("text", nargs="?", metavar="TEXT", help="the query text")
@@ -139,6 +172,12 @@ def register(commands: argparse._SubParsersAction) -> None:
     s.add_argument("--index", required=True, metavar="FILE", help="the index file")
     s.add_argument("-k", "--top", type=int, default=10, metavar="K", help="how many results")
     s.add_argument("--terms", type=int, default=5, metavar="N", help="contributing terms shown per result")
+    s.add_argument(
+        "--ranking",
+        choices=("bm25", "tfidf"),
+        default="bm25",
+        help="bm25, or tfidf: cosine of TF-IDF rows with sublinear tf (default: bm25)",
+    )
     s.add_argument("--json", action="store_true", help="print JSON for scripts")
 
 
@@ -174,7 +213,9 @@ def run(args: argparse.Namespace) -> int:
                 return _run_build_or_update(args, action)
             if action == "info":
                 return _run_info(args)
-            return _error("dedup index needs an action: build, update or info")
+            if action == "baseline":
+                return _run_baseline(args)
+            return _error("dedup index needs an action: build, update, info or baseline")
         if args.command == "decisions":
             if getattr(args, "decisions_command", None) == "import":
                 return _run_import(args)
@@ -219,7 +260,7 @@ def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
 
 
 def _run_info(args: argparse.Namespace) -> int:
-    from .index import open_index
+    from .index import baseline_of, open_index
 
     with open_index(args.index) as index, index.reading() as db:
         info = {
@@ -235,6 +276,7 @@ def _run_info(args: argparse.Namespace) -> int:
             "searchable_texts": db.execute("SELECT texts FROM tfidf").fetchone()[0],
             "postings_segments": db.execute("SELECT segments FROM tfidf").fetchone()[0],
             "audits": db.execute("SELECT count(*) FROM audits").fetchone()[0],
+            "baseline": baseline_of(db),
             "decisions": db.execute("SELECT count(*) FROM decisions").fetchone()[0],
             "runs": [
                 dict(
@@ -255,24 +297,31 @@ def _run_info(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(info, indent=1, sort_keys=True))
     else:
-        docs = info["documents"]
-        _print(f"index: {args.index} (schema {info['schema_version']}, created {info['created_at']})")
-        _print(
-            f"documents: {docs.get('present', 0):,} present, {docs.get('removed', 0):,} removed; "
-            f"texts: {info['texts']:,} ({info['searchable_texts']:,} searchable)"
-        )
-        _print(f"audits recorded: {info['audits']:,}; decisions: {info['decisions']:,}")
-        s = info["settings"]
-        _print(
-            f"sketches: shingle_size={s.get('shingle_size')} char_ngrams={s.get('char_ngrams')} "
-            f"num_perm={s.get('num_perm')} seed={s.get('seed')} hash_scheme={s.get('hash_scheme')} "
-            f"tfidf_features={s.get('tfidf_features')} sublinear_tf={s.get('sublinear_tf')}"
-        )
-        if args.check:
-            _print("integrity check: " + "; ".join(info["integrity_check"]))
+        for line in _info_lines(info):
+            _print(line)
     if args.check and info["integrity_check"] != ["ok"]:
         return EXIT_USAGE
     return EXIT_OK
+
+
+def _info_lines(info: dict) -> list[str]:
+    """``dedup index info`` in words."""
+    docs, b, s = info["documents"], info["baseline"], info["settings"]
+    lines = [
+        f"index: {info['index']} (schema {info['schema_version']}, created {info['created_at']})",
+        f"documents: {docs.get('present', 0):,} present, {docs.get('removed', 0):,} removed; "
+        f"texts: {info['texts']:,} ({info['searchable_texts']:,} searchable)",
+        f"audits recorded: {info['audits']:,}; decisions: {info['decisions']:,}",
+        f"baseline: audit {b['audit_id']} of {b['recorded_at']}, accepted {b['accepted_at']}"
+        if b
+        else "baseline: none (audits are compared with the last one; see dedup index baseline)",
+        f"sketches: shingle_size={s.get('shingle_size')} char_ngrams={s.get('char_ngrams')} "
+        f"num_perm={s.get('num_perm')} seed={s.get('seed')} hash_scheme={s.get('hash_scheme')} "
+        f"tfidf_features={s.get('tfidf_features')} sublinear_tf={s.get('sublinear_tf')}",
+    ]
+    if "integrity_check" in info:
+        lines.append("integrity check: " + "; ".join(info["integrity_check"]))
+    return lines
 
 
 def _run_import(args: argparse.Namespace) -> int:
@@ -290,44 +339,130 @@ def _run_import(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _run_baseline(args: argparse.Namespace) -> int:
+    from .index import accept_latest, open_index
+
+    with open_index(args.index) as index:
+        baseline = accept_latest(index)
+    if baseline is None:
+        return _error(
+            f"the index {args.index} has no audit recorded yet: run dedup audit --index {args.index} "
+            "(with --accept to accept it at once)"
+        )
+    if args.json:
+        print(
+            terminal_text(
+                json.dumps(baseline, indent=1, sort_keys=True, ensure_ascii=False), json_escapes=True
+            )
+        )
+        return EXIT_OK
+    _print(
+        f"baseline: audit {baseline['audit_id']} of {baseline['recorded_at']} ({baseline['clusters']:,} clusters) "
+        "accepted; dedup audit --index with --fail-on new, grown or changed now compares with it"
+    )
+    return EXIT_OK
+
+
 def _run_similar(args: argparse.Namespace) -> int:
     from .index import QueryError, open_index, query_text_of_file, similar
 
-    if (args.text is None) == (args.file is None):
-        raise QueryError("give the query as TEXT or with --file, not both")
+    if args.text is None and args.file is None:
+        raise QueryError(
+            "give the text to search for, as TEXT or with --file FILE "
+            f"(e.g. dedup similar 'how to reset a password' --index {args.index})"
+        )
+    if args.text is not None and args.file is not None:
+        raise QueryError("give the text to search for either as TEXT or with --file FILE, not both")
     if args.top < 1 or args.terms < 0:
         raise QueryError("-k must be at least 1 and --terms at least 0")
     with open_index(args.index) as index:
         text = args.text if args.file is None else query_text_of_file(args.file, index.settings)
-        results = similar(index, text, k=args.top, terms=args.terms)
+        results = similar(index, text, k=args.top, terms=args.terms, ranking=args.ranking)
     if args.json:
-        out = {"query": {"file": args.file, "characters": len(text)}, "k": args.top, "results": results}
+        out = {
+            "query": {"file": args.file, "characters": len(text)},
+            "k": args.top,
+            "ranking": args.ranking,
+            "results": results,
+        }
         print(terminal_text(json.dumps(out, indent=1, ensure_ascii=False), json_escapes=True))
         return EXIT_OK
     if not results:
         _print("no indexed document shares a term with the query")
         return EXIT_OK
+    from .normalize import canonical_text, token_text
+
+    draft = len(token_text(canonical_text(text)).split()) >= _DRAFT_WORDS
     for r in results:
-        copies = (
-            f"  (+{len(r['copies'])} exact {'copy' if len(r['copies']) == 1 else 'copies'})"
-            if r["copies"]
+        for line in _result_lines(r, draft):
+            _print(line)
+    _print(
+        "note: similarity is evidence for review, not a verdict; the passage is shown as normalized."
+        + (
+            " 'holds' is the share of the query's word sequences (shingles) found in the document."
+            if draft
             else ""
         )
-        title = f"  {r['title']!r}" if r["title"] else ""
-        _print(f"{r['rank']:>3}. cosine {r['cosine']:.3f}  {r['document_id']}{copies}{title}")
-        terms = ", ".join(f"{t['term']} {t['share']:.3f}" for t in r["terms"])
-        _print(
-            f"     Jaccard {r['jaccard_estimate']:.2f} (MinHash estimate), {r['jaccard']:.2f} exact; terms: {terms}"
-        )
-    _print("note: similarity is evidence for review, not a verdict.")
+    )
     return EXIT_OK
 
 
-def audit_with_index(index_path: str, result, fail_on: str = "none") -> tuple[dict | None, int]:
-    """For ``dedup audit --index FILE``: apply reviews, compare with the last audit, record this one.
+# From this many words on a query is a draft: how much of it a document holds is shown.
+_DRAFT_WORDS = 20
+
+
+def _result_lines(r: dict, draft: bool) -> list[str]:
+    """The lines of one search result; shingle figures only for a ``draft`` (a few words share none)."""
+    copies = (
+        f"  (+{len(r['copies'])} exact {'copy' if len(r['copies']) == 1 else 'copies'})"
+        if r["copies"]
+        else ""
+    )
+    title = f"  {r['title']!r}" if r["title"] else ""
+    terms = ", ".join(f"{t['term']} {t['share']:.0%}" for t in r["terms"])
+    snippet = r["snippet"]
+    before = "… " if snippet["start"] > 0 else ""
+    after = " …" if snippet["end"] < snippet["characters"] else ""
+    return [
+        f"{r['rank']:>3}. {r['ranking']} {r['score']:.3f}  {r['document_id']}{copies}{title}",
+        "     "
+        + (
+            f"holds {r['containment']:.0%} of the query; Jaccard {r['jaccard']:.2f} "
+            f"(MinHash estimate {r['jaccard_estimate']:.2f}); "
+            if draft
+            else ""
+        )
+        + f"cosine {r['cosine']:.3f}"
+        + (f"; terms: {terms}" if terms else ""),
+        f"     “{before}{snippet['text']}{after}”",
+    ]
+
+
+def audit_with_index(
+    index_path: str,
+    result: AuditResult,
+    fail_on: str = "none",
+    *,
+    accept: bool = False,
+    leave_out: list[tuple[str, str]] | None = None,
+    quiet: bool = True,
+) -> tuple[dict | None, int]:
+    """For ``dedup audit --index FILE``: refresh the index over the audit's inputs, apply
+    reviews, compare with the baseline (else the last audit), record this one.
 
     Call it after `dedup.audit` and before ``result.write(out)``: it marks ``result`` in
-    place (reviews on pairs and clusters, actions of reviewed clusters).
+    place (reviews on pairs, members and clusters, actions of reviewed members, stable
+    ids of clusters).
+
+    Parameters
+    ----------
+    accept : bool
+        ``--accept``: this audit becomes the baseline.
+    leave_out : list of (path, reason), optional
+        What the refresh must not read (the audit's own output and work folders), as
+        for the audit (`dedup.ingest.leaving_out`).
+    quiet : bool
+        No progress of the refresh on stderr.
 
     Returns
     -------
@@ -339,36 +474,139 @@ def audit_with_index(index_path: str, result, fail_on: str = "none") -> tuple[di
         been printed on stderr).
     """
     from .index import IndexFileError, track_audit
+    from .ingest import InputError, leaving_out
 
     try:
-        delta, failed = track_audit(index_path, result, fail_on)
-    except IndexFileError as err:
+        with leaving_out(leave_out or []):
+            delta, failed = track_audit(
+                index_path, result, fail_on, accept=accept, progress=_progress_of(quiet)
+            )
+    except (IndexFileError, InputError) as err:
         _error(str(err))
         return None, EXIT_USAGE
     return delta, EXIT_FOUND if failed else EXIT_OK
 
 
+def _progress_of(quiet: bool) -> Progress:
+    from .progress import Progress, StderrProgress
+
+    return Progress.silent() if quiet else StderrProgress()
+
+
+# Clusters named one per line under the delta's counts; the rest are counted.
+_DELTA_NAMED = 20
+_RAISED = ("new", "grown", "changed", "shrunk", "resolved")
+
+
 def delta_lines(delta: dict) -> list[str]:
     """Summary lines of a delta for the audit command's terminal output."""
     c = delta["counts"]
-    if delta["previous"] is None:
+    p = delta["previous"]
+    if p is None:
         head = "since last audit: no earlier audit in the index; every cluster is new"
+    elif delta.get("basis") == "baseline":
+        b = delta["baseline"] if not delta.get("accepted") else None
+        head = f"since the baseline ({p['audit_id']}" + (f", accepted {b['accepted_at']})" if b else ")")
     else:
-        p = delta["previous"]
         head = f"since last audit ({p['audit_id']}, {p['recorded_at']})"
     lines = [
-        f"{head}: {c['new']} new, {c['grown']} grown, {c['shrunk']} shrunk, {c['resolved']} resolved, "
-        f"{c['unchanged']} unchanged clusters; {c['reviewed']} settled by review"
+        f"{head}: {c['new']} new, {c['grown']} grown, {c.get('changed', 0)} changed, {c['shrunk']} shrunk, "
+        f"{c['resolved']} resolved, {c['unchanged']} unchanged clusters; {c['reviewed']} settled by review"
     ]
+    lines += _raised_lines(delta["clusters"])
     docs = delta.get("documents")
     if docs:
         lines.append(
-            f"documents since last audit: {len(docs['added'])} added, {len(docs['changed'])} changed, "
+            f"documents since then: {len(docs['added'])} added, {len(docs['changed'])} changed, "
             f"{len(docs['removed'])} removed"
         )
-    lapsed = delta.get("review", {}).get("clusters", {}).get("lapsed", 0)
-    if lapsed:
-        lines.append(f"reviews lapsed (texts changed since): {lapsed} clusters raised again")
+    lines += _review_lines(delta.get("review", {}))
     if delta["settings_changed"]:
-        lines.append("settings changed since last audit: " + ", ".join(delta["settings_changed"]))
+        lines.append("settings changed since then: " + ", ".join(delta["settings_changed"]))
+    lines += _index_lines(delta.get("index"))
+    if delta.get("accepted"):
+        lines.append(
+            "accepted as the baseline: later audits with --fail-on new, grown or changed compare with it"
+        )
+    elif delta.get("basis") != "baseline":
+        lines.append(
+            "no baseline: accept today's clusters with --accept, or dedup index baseline --index FILE"
+        )
     return lines
+
+
+def _raised_lines(entries: list[dict]) -> list[str]:
+    """One line per cluster that changed state (by stable id), reviewed ones marked."""
+    raised = [e for e in entries if e["status"] in _RAISED]
+    lines = []
+    for e in raised[:_DELTA_NAMED]:
+        number = f" ({e['cluster_id']})" if e["cluster_id"] else f" (was {e['previous_cluster_id']})"
+        parts = [f"  {e['stable_id']}{number} {e['status']}"]
+        for key, sign in (("added", "+"), ("changed", "~"), ("removed", "-")):
+            if e[key] and e["status"] != "resolved":
+                parts.append(" ".join(sign + d for d in e[key][:5]) + (" …" if len(e[key]) > 5 else ""))
+        if e["status"] == "new" and e.get("from_clusters"):
+            parts.append("from " + ", ".join(e["from_clusters"]))
+        if e["status"] == "resolved" and e.get("now_in"):
+            parts.append("now in " + ", ".join(e["now_in"]))
+        review = e.get("review")
+        if isinstance(review, dict) and review.get("decision") is not None:
+            parts.append(
+                f"review {review['status']}: earlier {review['decision']} on {review['decided_at'][:10]}"
+            )
+        lines.append("; ".join(parts))
+    if len(raised) > _DELTA_NAMED:
+        lines.append(f"  … and {len(raised) - _DELTA_NAMED} more (audit.json: delta)")
+    return lines
+
+
+def _review_lines(review: dict) -> list[str]:
+    clusters, members = review.get("clusters", {}), review.get("members", {})
+    lines = []
+    if clusters.get("lapsed"):
+        lines.append(f"reviews lapsed (a text changed since): {clusters['lapsed']} clusters raised again")
+    if members.get("unreviewed") and (clusters.get("partly-reviewed") or clusters.get("lapsed")):
+        lines.append(
+            f"members not covered by an earlier review: {members['unreviewed']} (raised beside that review)"
+        )
+    return lines
+
+
+def _index_lines(index: dict | None) -> list[str]:
+    if not index:
+        return []
+    if not index["refreshed"]:
+        why = "the inputs were read from standard input" if index["reason"] == "stdin" else "not asked"
+        return [f"index: documents not refreshed ({why}); dedup similar searches what it held before"]
+    lines = [
+        f"index: {index['documents']:,} documents ({index['added']:,} added, {index['changed']:,} changed, "
+        f"{index['removed']:,} removed), {index['texts']:,} searchable; search statistics refreshed"
+    ]
+    if index["differ"]:
+        lines.append(
+            f"warning: {index['differ']:,} documents differ between the audit and the index (changed while "
+            "the audit ran?): " + ", ".join(index["differ_ids"])
+        )
+    return lines
+
+
+def audit_json(
+    result: AuditResult, paths: dict[str, str], delta: dict | None, code: int, fail_on: str
+) -> str:
+    """``dedup audit --json``: the summary and the delta as one JSON document for a pipeline.
+
+    Keys: ``audit_id``, ``exit_code``, ``fail_on``, ``summary``, ``warnings``,
+    ``outputs`` (file name -> path) and ``delta`` (None without ``--index``). Escaped for
+    the terminal like every printed text (`dedup.cli.terminal_text`).
+    """
+    out = {
+        "audit_id": result.audit_id,
+        "exit_code": code,
+        "fail_on": fail_on,
+        "summary": result.summary,
+        "warnings": result.warnings,
+        "outputs": paths,
+        "delta": delta,
+    }
+    text = json.dumps(out, indent=1, sort_keys=True, ensure_ascii=False, default=str)
+    return terminal_text(text, json_escapes=True)

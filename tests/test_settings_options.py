@@ -19,7 +19,7 @@ from dedup.settings import AuditSettings, Option, setting_options
 
 # `dedup audit` before the options were generated, in the order they were declared, and
 # the command-line options added since (they are no settings).
-ADDED_RUN_FLAGS = ["--no-report", "--engine", "--spark-master"]
+ADDED_RUN_FLAGS = ["--no-report", "--engine", "--spark-master", "--accept", "--json"]
 ADDED_SETTING_FLAGS = [
     "--min-passage-words",
     "--min-unique-words",

@@ -18,8 +18,9 @@ Use::
     with open_index("docs.index") as index:
         similar(index, "how do I reset my password", k=5)
 
-The index is written only by `build`, `update`, `record_audit` (through `track_audit`)
-and `import_decisions`, each in one transaction; documents are only ever read.
+The index is written only by `build`, `update`, `track_audit` (a refresh over the
+audit's inputs, the reviews and the audit record, together), `accept_latest` and
+`import_decisions`, each in one transaction; documents are only ever read.
 """
 
 from importlib import import_module
@@ -39,10 +40,16 @@ _WHERE = {
     "similar": "search",
     "query_text_of_file": "search",
     "STATES": "history",
+    "FAIL_ON": "history",
     "MATCHING_RULE": "history",
     "compare_clusters": "history",
     "record_audit": "history",
+    "accept_latest": "history",
+    "baseline_of": "history",
     "fails": "history",
+    "assign_stable_ids": "lineage",
+    "STOP_WORDS": "stopwords",
+    "RANKINGS": "search",
     "DecisionsFileError": "decisions",
     "load_decisions_file": "decisions",
     "import_decisions": "decisions",

@@ -25,20 +25,40 @@ Schema ``dedup-review-decisions``, version 1::
 A pair lists its two documents, a cluster all its members. Content hashes (BLAKE2b of
 the normalized text, as in ``audit.json``) let a later audit match a decision to the
 same text even if cluster numbers change; a decision whose texts changed no longer holds.
+
+The same schema is published as a JSON Schema (draft 2020-12) in the package,
+``dedup/schemas/decisions.schema.json`` (`json_schema`), for other tools that write or
+read these files; the tests check that it and `validate_decisions` accept the same files.
 """
 
 from __future__ import annotations
 
+import json
 import re
+from importlib import resources
 
-__all__ = ["SCHEMA", "SCHEMA_VERSION", "DECISION_VALUES", "validate_decisions"]
+__all__ = ["SCHEMA", "SCHEMA_VERSION", "DECISION_VALUES", "validate_decisions", "json_schema"]
 
 SCHEMA = "dedup-review-decisions"
 SCHEMA_VERSION = 1
 DECISION_VALUES = ("confirmed-duplicate", "not-duplicate", "keep-both")
+# ASCII digits only (``\\d`` would take any Unicode digit): the JSON Schema holds the same patterns.
 _HASH = re.compile(r"^[0-9a-f]{32}$")
 _AUDIT_ID = re.compile(r"^[0-9a-f]{16}$")
-_TIME = re.compile(r"^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}(\.\d+)?(Z|[+-]\d{2}:\d{2})$")
+_TIME = re.compile(
+    r"^[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}(\.[0-9]+)?(Z|[+-][0-9]{2}:[0-9]{2})$"
+)
+
+
+def json_schema() -> dict:
+    """The published JSON Schema of decisions files (``dedup/schemas/decisions.schema.json``)."""
+    text = (
+        resources.files("dedup")
+        .joinpath("schemas")
+        .joinpath("decisions.schema.json")
+        .read_text(encoding="utf-8")
+    )
+    return json.loads(text)
 
 
 def validate_decisions(data: object) -> list[str]:
@@ -48,7 +68,7 @@ def validate_decisions(data: object) -> list[str]:
         return ["the file is not a JSON object"]
     if data.get("schema") != SCHEMA:
         problems.append(f"schema is {data.get('schema')!r}, expected {SCHEMA!r}")
-    if data.get("schema_version") != SCHEMA_VERSION:
+    if data.get("schema_version") != SCHEMA_VERSION or isinstance(data.get("schema_version"), bool):
         problems.append(f"schema_version is {data.get('schema_version')!r}, expected {SCHEMA_VERSION}")
     if not isinstance(data.get("audit_id"), str) or not _AUDIT_ID.match(data["audit_id"]):
         problems.append("audit_id must be 16 hex digits")

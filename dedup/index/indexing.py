@@ -32,6 +32,7 @@ from __future__ import annotations
 import functools
 import json
 import os
+import sqlite3
 import time
 from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import asdict, dataclass, field
@@ -49,7 +50,7 @@ from .store import Index, IndexFileError, open_index, read_keys, utc_now
 from .templates import CorpusLines, TemplateRule, changed_lines, load_templates, store_templates
 from .texts import NewTexts, delete_unused_texts, renumber, sketch_texts, stripped_otherwise, text_sequence
 
-__all__ = ["RunSummary", "build", "update", "index_paths"]
+__all__ = ["RunSummary", "build", "update", "index_paths", "run_in", "checkpoint"]
 
 # The audit's normalize step, canonical lines joined by LF whatever the template
 # settings: the lines are what template lines are found among, and with the breaks made
@@ -276,7 +277,9 @@ class _Run:
         """The TF-IDF statistics after the run (refreshed when the texts changed)."""
         self.progress.start("statistics")
         if self.sketched or self.deleted or self.kind == "build":
-            statistics = refresh_statistics(self.db, self.run, self.settings.sublinear_tf)
+            statistics = refresh_statistics(
+                self.db, self.run, self.settings.sublinear_tf, n_features=self.settings.tfidf_features
+            )
         else:  # the same texts as before: the stored statistics still hold
             statistics = _stored_statistics(self.db)
         self.progress.done()
@@ -306,31 +309,59 @@ class _Run:
         )
 
 
-def _run(
-    index: Index, paths: Sequence[str], settings: AuditSettings, kind: str, progress: Progress
+def run_in(
+    index: Index,
+    db: sqlite3.Connection,
+    paths: Sequence[str],
+    settings: AuditSettings,
+    progress: Progress,
+    kind: str | None = None,
 ) -> RunSummary:
+    """One build or update inside the caller's write transaction (`Index.writing`).
+
+    `build` and `update` run it alone; ``dedup audit --index`` runs it in the transaction
+    that records the audit, over the audit's inputs (`dedup.index.tracking`). ``kind``
+    defaults to ``build`` for an index without runs, else ``update``.
+
+    Raises
+    ------
+    dedup.InputError
+        A path, or the ignore-text file, does not exist (nothing has been written).
+    """
     started = time.perf_counter()
     missing = [p for p in paths if p != "-" and not os.path.exists(p)]
     if missing:
         raise InputError(f"no such file or folder: {missing[0]}")
     roots = [p if p == "-" else os.path.abspath(p) for p in paths]
     rule = TemplateRule.of(settings)  # reads the ignore-text file: fails before anything is written
-    with index.writing() as db:
-        run = _Run(db, settings, kind, rule, progress)
-        db.execute(
-            "INSERT INTO runs (run, kind, started_at, roots) VALUES (?, ?, ?, ?)",
-            (run.run, kind, utc_now(), json.dumps(roots)),
-        )
-        run.read(paths)
-        run.remove_missing()
-        run.sketch(run.templates())
-        statistics = run.statistics()
-        index.store_settings(settings)
-        db.execute("DELETE FROM meta WHERE key = ?", (schema.NEEDS_UPDATE,))
-        summary = run.finish(statistics, round(time.perf_counter() - started, 3))
-    # Fold the write-ahead log back into the file, so it does not stay as large as the run.
+    if kind is None:
+        kind = "update" if db.execute("SELECT count(*) FROM runs").fetchone()[0] else "build"
+    run = _Run(db, settings, kind, rule, progress)
+    db.execute(
+        "INSERT INTO runs (run, kind, started_at, roots) VALUES (?, ?, ?, ?)",
+        (run.run, kind, utc_now(), json.dumps(roots)),
+    )
+    run.read(paths)
+    run.remove_missing()
+    run.sketch(run.templates())
+    statistics = run.statistics()
+    index.store_settings(settings)
+    db.execute("DELETE FROM meta WHERE key = ?", (schema.NEEDS_UPDATE,))
+    return run.finish(statistics, round(time.perf_counter() - started, 3))
+
+
+def checkpoint(index: Index) -> None:
+    """Fold the write-ahead log back into the file, so it does not stay as large as the run."""
     with index.guard():
         index.connection.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+
+
+def _run(
+    index: Index, paths: Sequence[str], settings: AuditSettings, kind: str, progress: Progress
+) -> RunSummary:
+    with index.writing() as db:
+        summary = run_in(index, db, paths, settings, progress, kind)
+    checkpoint(index)
     return summary
 
 

@@ -14,6 +14,11 @@ cosine of a query with every text is a sum over the query's few columns only. Af
 each write `refresh_statistics` recomputes df and every norm in one pass over the
 postings, O(entries), so the stored statistics always equal a fit from scratch.
 
+The same pass gives the search's statistics (`dedup.index.search`): each text's norm
+with sublinear tf (``1 + ln(count)``) and the stop words' columns left out
+(`dedup.index.stopwords`), which is scikit-learn's ``TfidfVectorizer(sublinear_tf=True,
+stop_words=...)``, and each text's length in words for BM25.
+
 Writes are incremental: each build or update adds one *segment* of postings holding
 just the texts it sketched. A text that is gone keeps its entries in old segments until
 a merge rewrites all postings as one segment without them; that happens when there are
@@ -32,6 +37,7 @@ from numba import njit
 
 from ..sketch import tfidf
 from .blobs import BlobError, pack_array, pack_sorted, pack_uints, unpack_array, unpack_sorted, unpack_uints
+from .stopwords import stop_columns
 
 __all__ = [
     "MAX_SEGMENTS",
@@ -84,6 +90,10 @@ class Statistics:
         Every column some searchable text uses (sorted) and its document frequency.
     entries, live_entries, segments : int
         Stored postings entries, those of searchable texts, and segments.
+    search_norms : ndarray of float64
+        Norm of each text's row with sublinear tf and without the stop words' columns.
+    lengths : ndarray of int64
+        Words of each text as sketched (template lines left out).
     """
 
     text_ids: np.ndarray
@@ -93,6 +103,8 @@ class Statistics:
     entries: int
     live_entries: int
     segments: int
+    search_norms: np.ndarray
+    lengths: np.ndarray
 
     @property
     def n_texts(self) -> int:
@@ -163,13 +175,14 @@ def write_segment(
     return int(counts.nnz)
 
 
-def _searchable(connection: sqlite3.Connection) -> tuple[np.ndarray, int, int]:
+def _searchable(connection: sqlite3.Connection) -> tuple[np.ndarray, int, int, np.ndarray]:
     # Every stored text has words (texts without are not stored): all are searchable.
-    rows = connection.execute("SELECT text_id, terms FROM texts ORDER BY text_id").fetchall()
+    rows = connection.execute("SELECT text_id, terms, words FROM texts ORDER BY text_id").fetchall()
     ids = np.asarray([r[0] for r in rows], dtype=np.int64)
     live = int(sum(r[1] for r in rows))
+    lengths = np.asarray([r[2] for r in rows], dtype=np.int64)
     top = connection.execute("SELECT seq FROM sqlite_sequence WHERE name = 'texts'").fetchone()
-    return ids, live, int(top[0]) if top else 0
+    return ids, live, int(top[0]) if top else 0, lengths
 
 
 @njit(cache=True, nogil=True)
@@ -231,33 +244,36 @@ def _uint_at(buf, i, width):
 
 @njit(cache=True, nogil=True)
 def _df_and_norms(
-    id_buf, id_offsets, count_buf, count_offsets, row_group, position, n_groups, n_texts, sublinear
+    id_buf, id_offsets, count_buf, count_offsets, row_group, position, n_groups, n_texts, sublinear, stop
 ):
     # Straight from the packed blobs, without materialising the entries: pass 1 counts
     # the document frequency of every column over searchable texts, pass 2 sums each
-    # text's squared tf * idf. Row r is one posting list of column row_group[r].
-    # Returns (df, squared norms, stored entries, ok); ok is False for a damaged blob.
+    # text's squared tf * idf, and its squared (1 + ln tf) * idf over the columns whose
+    # stop[group] is False (the search's norm). Row r is one posting list of column
+    # row_group[r]. Returns (df, squared norms, squared search norms, stored entries,
+    # ok); ok is False for a damaged blob.
     df = np.zeros(n_groups, dtype=np.int64)
     norm2 = np.zeros(n_texts, dtype=np.float64)
+    search2 = np.zeros(n_texts, dtype=np.float64)
     n_rows = id_offsets.shape[0] - 1
     entries = np.int64(0)
     for r in range(n_rows):
         a, b = id_offsets[r], id_offsets[r + 1]
         c, d = count_offsets[r], count_offsets[r + 1]
         if b <= a or d <= c:
-            return df, norm2, entries, False
+            return df, norm2, search2, entries, False
         wi, wc = np.int64(id_buf[a]), np.int64(count_buf[c])
         if (wi != 1 and wi != 2 and wi != 4 and wi != 8) or (wc != 1 and wc != 2 and wc != 4 and wc != 8):
-            return df, norm2, entries, False
+            return df, norm2, search2, entries, False
         if (b - a - 1) % wi != 0 or (d - c - 1) % wc != 0 or (b - a - 1) // wi != (d - c - 1) // wc:
-            return df, norm2, entries, False
+            return df, norm2, search2, entries, False
         entries += (b - a - 1) // wi
         text_id = np.int64(0)
         g = row_group[r]
         for i in range(a + 1, b, wi):
             text_id += _uint_at(id_buf, i, wi)
             if text_id >= position.shape[0]:
-                return df, norm2, entries, False
+                return df, norm2, search2, entries, False
             if position[text_id] >= 0:
                 df[g] += 1
     idf = np.log((1.0 + n_texts) / (1.0 + df.astype(np.float64))) + 1.0
@@ -266,6 +282,7 @@ def _df_and_norms(
         c = count_offsets[r]
         wi, wc = np.int64(id_buf[a]), np.int64(count_buf[c])
         weight = idf[row_group[r]]
+        searched = not stop[row_group[r]]
         text_id = np.int64(0)
         k = c + 1
         for i in range(a + 1, b, wi):
@@ -276,8 +293,11 @@ def _df_and_norms(
                 tf = 1.0 + np.log(count) if sublinear else count
                 w = tf * weight
                 norm2[p] += w * w
+                if searched:
+                    s = (1.0 + np.log(count)) * weight
+                    search2[p] += s * s
             k += wc
-    return df, norm2, entries, True
+    return df, norm2, search2, entries, True
 
 
 def _joined(blobs: list[bytes]) -> tuple[np.ndarray, np.ndarray]:
@@ -287,7 +307,7 @@ def _joined(blobs: list[bytes]) -> tuple[np.ndarray, np.ndarray]:
 
 
 def refresh_statistics(
-    connection: sqlite3.Connection, run: int, sublinear: bool, *, merge: bool | None = None
+    connection: sqlite3.Connection, run: int, sublinear: bool, *, n_features: int, merge: bool | None = None
 ) -> dict:
     """Recompute df and every norm from the postings, and merge segments when due.
 
@@ -298,7 +318,10 @@ def refresh_statistics(
     run : int
         The run writing; a merged segment takes its number.
     sublinear : bool
-        tf = 1 + ln(count) instead of the count.
+        tf = 1 + ln(count) instead of the count (the audit's norms; the search's always
+        use it).
+    n_features : int
+        The hashed space, which says where the stop words' columns are.
     merge : bool, optional
         Force (True) or forbid (False) a merge; by default merge when there are more
         than `MAX_SEGMENTS` segments or the live share of entries is below `MIN_LIVE_SHARE`.
@@ -314,29 +337,33 @@ def refresh_statistics(
     summed straight from the packed bytes in compiled code (about 2.5 bytes of memory
     per stored entry; a merge decodes them, about 30 bytes per entry).
     """
-    ids, live_entries, top = _searchable(connection)
+    ids, live_entries, top, lengths = _searchable(connection)
     position = np.full(top + 1, -1, dtype=np.int64)
     position[ids] = np.arange(ids.shape[0])
     rows = connection.execute(
         "SELECT term_column, text_ids, counts FROM postings ORDER BY term_column, segment"
     ).fetchall()
     segments = connection.execute("SELECT count(DISTINCT segment) FROM postings").fetchone()[0]
-    columns, df, norm2, entries = _column_statistics(rows, position, int(ids.shape[0]), sublinear)
+    columns, df, norm2, search2, entries = _column_statistics(
+        rows, position, int(ids.shape[0]), sublinear, stop_columns(n_features)
+    )
     if merge is None:
         merge = segments > MAX_SEGMENTS or (entries > 0 and live_entries < MIN_LIVE_SHARE * entries)
     if merge:
         entries, segments = _merge_segments(connection, run, rows, columns, df, position)
     used = df > 0
-    stored = (
+    blobs = (
         pack_sorted(ids),
         pack_array(np.sqrt(norm2), "<f8"),
         pack_sorted(columns[used]),
         pack_uints(df[used]),
+        pack_array(np.sqrt(search2), "<f8"),
+        pack_uints(lengths),
     )
     connection.execute(
-        "UPDATE tfidf SET texts = ?, text_ids = ?, norms = ?, term_columns = ?, df = ?, entries = ?, "
-        "live_entries = ?, segments = ?, run = ? WHERE id = 1",
-        (int(ids.shape[0]), *stored, entries, live_entries, int(segments), run),
+        "UPDATE tfidf SET texts = ?, text_ids = ?, norms = ?, term_columns = ?, df = ?, search_norms = ?, "
+        "lengths = ?, entries = ?, live_entries = ?, segments = ?, run = ? WHERE id = 1",
+        (int(ids.shape[0]), *blobs, entries, live_entries, int(segments), run),
     )
     return {
         "texts": int(ids.shape[0]),
@@ -348,17 +375,18 @@ def refresh_statistics(
 
 
 def _column_statistics(
-    rows: list, position: np.ndarray, n: int, sublinear: bool
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
+    rows: list, position: np.ndarray, n: int, sublinear: bool, stop: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, int]:
     """Over posting rows ``(column, ids blob, counts blob)`` ordered by column: the columns,
-    their document frequency over searchable texts, each searchable text's squared norm,
-    and the entries stored. Raises `BlobError` on a damaged blob."""
+    their document frequency over searchable texts, each searchable text's squared norm
+    and squared search norm (without the columns ``stop``), and the entries stored.
+    Raises `BlobError` on a damaged blob."""
     row_columns = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
     id_buf, id_offsets = _joined([r[1] for r in rows])
     count_buf, count_offsets = _joined([r[2] for r in rows])
     # Rows are ordered by column, so each column's posting lists are neighbours.
     columns, group_of_row = np.unique(row_columns, return_inverse=True)
-    df, norm2, entries, ok = _df_and_norms(
+    df, norm2, search2, entries, ok = _df_and_norms(
         id_buf,
         id_offsets,
         count_buf,
@@ -368,10 +396,11 @@ def _column_statistics(
         columns.shape[0],
         n,
         bool(sublinear),
+        np.isin(columns, stop),
     )
     if not ok:
         raise BlobError("the postings do not fit the stored texts")
-    return columns, df, norm2, int(entries)
+    return columns, df, norm2, search2, int(entries)
 
 
 def _merge_segments(
@@ -408,21 +437,25 @@ def _merge_segments(
 def load_statistics(connection: sqlite3.Connection) -> Statistics:
     """The stored statistics (O(texts + columns) to decode)."""
     row = connection.execute(
-        "SELECT texts, text_ids, norms, term_columns, df, entries, live_entries, segments FROM tfidf WHERE id = 1"
+        "SELECT texts, text_ids, norms, term_columns, df, entries, live_entries, segments, search_norms, "
+        "lengths FROM tfidf WHERE id = 1"
     ).fetchone()
     if row is None:
         raise BlobError("the TF-IDF statistics are missing")
-    n, id_blob, norm_blob, column_blob, df_blob, entries, live, segments = row
+    n, id_blob, norm_blob, column_blob, df_blob, entries, live, segments, search_blob, length_blob = row
+    counts = (int(entries), int(live), int(segments))
     if n == 0:
         empty = np.zeros(0, np.int64)
-        return Statistics(empty, np.zeros(0), empty, empty, int(entries), int(live), int(segments))
+        return Statistics(empty, np.zeros(0), empty, empty, *counts, np.zeros(0), empty)
     text_ids = unpack_sorted(id_blob)
     norms = unpack_array(norm_blob, "<f8", n)
     columns = unpack_sorted(column_blob)
     df = unpack_uints(df_blob)
-    if text_ids.shape[0] != n or columns.shape != df.shape:
+    search_norms = unpack_array(search_blob, "<f8", n)
+    lengths = unpack_uints(length_blob)
+    if text_ids.shape[0] != n or columns.shape != df.shape or lengths.shape[0] != n:
         raise BlobError("the TF-IDF statistics do not fit together")
-    return Statistics(text_ids, norms, columns, df, int(entries), int(live), int(segments))
+    return Statistics(text_ids, norms, columns, df, *counts, search_norms, lengths)
 
 
 def postings_of(connection: sqlite3.Connection, column: int) -> tuple[np.ndarray, np.ndarray]:

@@ -7,13 +7,14 @@ naming a file format) and a ``meta`` row ``format = dedup-index``. ``meta`` also
 newer dedup and is refused, a lower one is brought up to date by `MIGRATIONS`, each step
 in the same transaction as the version bump.
 
-Tables (version 2)
+Tables (version 3)
 ------------------
 meta(key, value)
     ``format``, ``schema_version``, ``created_at``, ``created_by`` (tool version),
     ``settings`` (JSON: the settings the sketches were built with, template rule
-    included) and, after a migration from version 1 until the next update,
-    ``needs_update`` (why the texts must be sketched again).
+    included), after a migration from version 1 until the next update,
+    ``needs_update`` (why the texts must be sketched again), and once an audit is
+    accepted, ``baseline`` (its ``seq``) and ``baseline_accepted_at``.
 runs(run, kind, started_at, seconds, roots, documents, added, changed, removed, unchanged, sketched)
     One row per build or update; ``run`` numbers the documents' history columns.
 texts(text_id, content_hash, characters, words, terms, shingle_count, sketched_hash, run)
@@ -46,14 +47,21 @@ postings(segment, term_column, df, text_ids, counts)
     (`blobs.pack_sorted`) and how often (`blobs.pack_uints`). Each build or update adds a
     segment holding only the texts it sketched; segments are merged when there are many
     or when many of their texts are gone.
-tfidf(id, texts, text_ids, norms, term_columns, df, entries, live_entries, segments, run)
+tfidf(id, texts, text_ids, norms, term_columns, df, entries, live_entries, segments, run,
+      search_norms, lengths)
     One row: the TF-IDF statistics of the present texts, refreshed by every write: the
-    searchable texts (sorted ids), the Euclidean norm of each one's TF-IDF row, and the
-    document frequency of every used column.
+    searchable texts (sorted ids), the Euclidean norm of each one's TF-IDF row (as the
+    audit weighs it), the document frequency of every used column, and for the search
+    (`dedup.index.search`) each text's norm with sublinear tf and the stop words left out,
+    and its length in words.
 audits(seq, audit_id, recorded_at, settings, summary, clusters, documents)
     Every audit recorded with ``--index``: its clusters as member ids with content
-    hashes (JSON). ``documents`` (id and hash of every document) is kept for the latest
-    audit only, for the next delta.
+    hashes and stable ids (JSON). ``documents`` (id and hash of every document) is kept
+    for the latest audit and the baseline only, for the next delta.
+cluster_ids(stable_id, minted_seq, last_seq, members)
+    Every stable cluster id ever given (`dedup.index.lineage`): the audit that gave it,
+    the latest audit it named a cluster in, and that cluster's document ids (JSON). An
+    id is never given to another cluster.
 decisions(decision_id, subject, kind, cluster_id, audit_id, decision, comment,
           decided_at, imported_at, documents)
     Review decisions imported from reports. ``subject`` names what was decided on
@@ -68,7 +76,7 @@ from collections.abc import Callable
 
 __all__ = ["SCHEMA_VERSION", "APPLICATION_ID", "FORMAT", "CREATE", "MIGRATIONS", "NEEDS_UPDATE"]
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 FORMAT = "dedup-index"
 # "DDUP" in ASCII, stored in the SQLite header by PRAGMA application_id.
 APPLICATION_ID = 0x44445550
@@ -109,6 +117,15 @@ CREATE TABLE templates (
     threshold INTEGER NOT NULL,
     line_hashes BLOB NOT NULL,
     counts BLOB NOT NULL
+);
+"""
+
+CLUSTER_IDS = """
+CREATE TABLE cluster_ids (
+    stable_id TEXT PRIMARY KEY,
+    minted_seq INTEGER NOT NULL,
+    last_seq INTEGER NOT NULL,
+    members TEXT NOT NULL
 );
 """
 
@@ -164,7 +181,9 @@ CREATE TABLE tfidf (
     entries INTEGER NOT NULL,
     live_entries INTEGER NOT NULL,
     segments INTEGER NOT NULL,
-    run INTEGER NOT NULL
+    run INTEGER NOT NULL,
+    search_norms BLOB NOT NULL DEFAULT x'',
+    lengths BLOB NOT NULL DEFAULT x''
 );
 CREATE TABLE audits (
     seq INTEGER PRIMARY KEY AUTOINCREMENT,
@@ -190,6 +209,7 @@ CREATE TABLE decisions (
 );
 """
     + TEXT_TABLES
+    + CLUSTER_IDS
 )
 
 EMPTY_TFIDF = (
@@ -229,6 +249,48 @@ def _sketch_texts_again(connection: sqlite3.Connection) -> None:
     )
 
 
+def _stable_ids_and_search_statistics(connection: sqlite3.Connection) -> None:
+    """Version 2 to 3: stable cluster ids (`dedup.index.lineage`) and the search's statistics.
+
+    The clusters of the latest recorded audit are given ids from their content, so the
+    next audit keeps them; older audits are never compared with again. The search's norms
+    and text lengths are computed from the stored postings (`refresh_statistics`).
+    Cost: one pass over the postings, and the latest audit's clusters.
+    """
+    import json
+
+    from .lineage import assign_stable_ids, store_lineage
+    from .postings import refresh_statistics
+
+    connection.execute("ALTER TABLE tfidf ADD COLUMN search_norms BLOB NOT NULL DEFAULT x''")
+    connection.execute("ALTER TABLE tfidf ADD COLUMN lengths BLOB NOT NULL DEFAULT x''")
+    for statement in statements(CLUSTER_IDS):
+        connection.execute(statement)
+    latest = connection.execute("SELECT seq, clusters FROM audits ORDER BY seq DESC LIMIT 1").fetchone()
+    if latest is not None:
+        records = json.loads(latest[1])
+        ids = assign_stable_ids([[(m[0], m[1]) for m in r["members"]] for r in records], [], None, set())
+        for record, given in zip(records, ids):
+            record.update(given)
+        connection.execute(
+            "UPDATE audits SET clusters = ? WHERE seq = ?",
+            (json.dumps(records, ensure_ascii=False), latest[0]),
+        )
+        store_lineage(connection, latest[0], records)
+    settings = json.loads(connection.execute("SELECT value FROM meta WHERE key = 'settings'").fetchone()[0])
+    run = connection.execute("SELECT coalesce(max(run), 0) FROM runs").fetchone()[0]
+    refresh_statistics(
+        connection,
+        run,
+        bool(settings.get("sublinear_tf")),
+        n_features=int(settings.get("tfidf_features", 2**20)),
+        merge=False,
+    )
+
+
 # Version n -> function that brings a version-n file to version n + 1 (run inside the
 # transaction that also writes the new version number).
-MIGRATIONS: dict[int, Callable[[sqlite3.Connection], None]] = {1: _sketch_texts_again}
+MIGRATIONS: dict[int, Callable[[sqlite3.Connection], None]] = {
+    1: _sketch_texts_again,
+    2: _stable_ids_and_search_statistics,
+}

@@ -107,3 +107,20 @@ def test_bad_index_and_fail_on_without_index_are_usage_errors(kb, tmp_path, caps
     assert "Traceback" not in capsys.readouterr().err
     assert main(["audit", str(kb), "--out", str(tmp_path / "o2"), "--fail-on", "new", "--quiet"]) == 2
     assert "give --index FILE" in capsys.readouterr().err
+
+
+def test_json_on_stdout_for_a_pipeline(kb, tmp_path, capsys):
+    code = main(["audit", str(kb), "--out", str(tmp_path / "j1"), *ARGS, "--json", "--fail-on", "any"])
+    printed = json.loads(capsys.readouterr().out)  # nothing else on stdout
+    assert code == printed["exit_code"] == 1 and printed["delta"] is None
+    assert printed["summary"]["clusters"] > 0 and printed["outputs"]["audit.json"].endswith("audit.json")
+    assert printed["audit_id"] == json.loads((tmp_path / "j1" / "audit.json").read_text())["audit_id"]
+    assert _audit(kb, tmp_path, "j2", "--json", "--accept", "--fail-on", "changed") == 0
+    printed = json.loads(capsys.readouterr().out)
+    assert (
+        printed["delta"]["accepted"] and printed["delta"]["counts"]["new"] == printed["summary"]["clusters"]
+    )
+    for flags in (["--fail-on", "changed"], ["--accept"]):
+        assert main(["audit", str(kb), "--out", str(tmp_path / "j3"), *ARGS, *flags]) == 2
+        err = capsys.readouterr().err
+        assert "give --index FILE" in err and err.count("\n") == 1

@@ -78,7 +78,8 @@ def test_compiled_decoding_equals_one_blob_at_a_time(lists):
 
 
 def test_statistics_kernel_equals_numpy_sums():
-    """Reference: df and squared norms summed with numpy from the decoded lists."""
+    """Reference: df, squared norms (raw tf) and squared search norms (sublinear tf, some columns left out)
+    summed with numpy from the decoded lists."""
     rng = np.random.default_rng(3)
     n_texts, n_columns = 40, 15
     position = np.full(50, -1, dtype=np.int64)
@@ -93,8 +94,18 @@ def test_statistics_kernel_equals_numpy_sums():
             groups.append(column)
     id_buf, id_offsets = _joined([pack_sorted(v) for v in lists])
     count_buf, count_offsets = _joined([pack_uints(c) for c in counts])
-    df, norm2, entries, ok = _df_and_norms(
-        id_buf, id_offsets, count_buf, count_offsets, np.array(groups), position, n_columns, n_texts, True
+    stop = np.arange(n_columns) % 4 == 0  # the search's norms leave these columns out
+    df, norm2, search2, entries, ok = _df_and_norms(
+        id_buf,
+        id_offsets,
+        count_buf,
+        count_offsets,
+        np.array(groups),
+        position,
+        n_columns,
+        n_texts,
+        False,
+        stop,
     )
     assert ok and entries == sum(v.shape[0] for v in lists)
     expected_df = np.zeros(n_columns, np.int64)
@@ -102,8 +113,12 @@ def test_statistics_kernel_equals_numpy_sums():
         expected_df[g] += int(np.sum(position[ids] >= 0))
     idf = np.log((1 + n_texts) / (1 + expected_df)) + 1
     expected_norm2 = np.zeros(n_texts)
+    expected_search2 = np.zeros(n_texts)
     for ids, c, g in zip(lists, counts, groups):
         keep = position[ids] >= 0
-        np.add.at(expected_norm2, position[ids][keep], ((1 + np.log(c[keep])) * idf[g]) ** 2)
+        np.add.at(expected_norm2, position[ids][keep], (c[keep] * idf[g]) ** 2)
+        if not stop[g]:
+            np.add.at(expected_search2, position[ids][keep], ((1 + np.log(c[keep])) * idf[g]) ** 2)
     assert df.tolist() == expected_df.tolist()
     np.testing.assert_allclose(norm2, expected_norm2, rtol=1e-12)
+    np.testing.assert_allclose(search2, expected_search2, rtol=1e-12)

@@ -116,7 +116,9 @@ def test_a_reviewed_pair_is_not_raised_again_until_a_text_changes(
     assert c["review"]["decision"] == "not-duplicate"
     assert any(m["action"] == "retire" for m in c["members"])  # raised again
     entry = next(e for e in delta["clusters"] if e["cluster_id"] == c["id"])
-    assert entry["status"] == "grown" and entry["changed"] == ["c/two.txt"] and failed
+    # A text changed, no member joined: "changed", which --fail-on changed catches and grown does not.
+    assert entry["status"] == "changed" and entry["changed"] == ["c/two.txt"] and entry["added"] == []
+    assert not failed and fails(delta, "changed")
 
 
 def test_a_reviewed_cluster_that_gains_a_member_is_raised_again(
@@ -191,3 +193,67 @@ def test_no_decisions_leave_the_audit_as_it_was_and_fail_on_counts_everything(
     assert [a["action"] for a in tracked.actions] == [a["action"] for a in plain.actions]
     assert all(c["review"] is None for c in tracked.clusters) and failed
     assert not fails(delta, "none")
+
+
+def test_a_near_copy_joining_a_kept_cluster_leaves_the_reviewed_members_kept(
+    tmp_path, write_corpus, corpus_files, base_texts
+):
+    root = write_corpus(corpus_files)
+    index = tmp_path / "r.index"
+    first = dedup.audit([str(root)])
+    pair = ["c/one.txt", "c/two.txt"]
+    _import(index, _export(first, [("pair", pair, "keep-both", "two editions", "2024-05-01T09:00:00Z")]))
+    track_audit(str(index), dedup.audit([str(root)]))
+    (root / "c/zz-near.txt").write_text(edited(base_texts[2], "lynx", 0.4), encoding="utf-8")
+    third = dedup.audit([str(root)])
+    delta, failed = track_audit(str(index), third, "grown")
+    c = _cluster_with(third, "c/one.txt")
+    members = {m["document_id"]: m for m in c["members"]}
+    assert all(members[d]["action"] == "keep" and members[d]["review"]["status"] == "reviewed" for d in pair)
+    assert members["c/zz-near.txt"]["review"] == {"status": "unreviewed"}
+    assert c["review"]["status"] == "partly-reviewed" and c["review"]["unreviewed"] == ["c/zz-near.txt"]
+    assert c["retire_documents"] + c["merge_documents"] == sum(
+        1 for m in c["members"] if m["action"] in ("retire", "merge-then-retire")
+    )
+    actions = {a["document_id"]: a["action"] for a in third.actions}
+    assert actions["c/one.txt"] == actions["c/two.txt"] == "keep"
+    entry = next(e for e in delta["clusters"] if e["cluster_id"] == c["id"])
+    assert entry["status"] == "grown" and entry["added"] == ["c/zz-near.txt"] and failed
+
+
+def test_an_exact_copy_joining_a_reviewed_cluster_is_raised_not_settled(tmp_path, write_corpus, corpus_files):
+    root = write_corpus(corpus_files)
+    index = tmp_path / "r.index"
+    first = dedup.audit([str(root)])
+    _import(
+        index, _export(first, [("pair", ["c/one.txt", "c/two.txt"], "keep-both", "", "2024-05-01T09:00:00Z")])
+    )
+    track_audit(str(index), dedup.audit([str(root)]))
+    (root / "c/zz-copy.txt").write_text((root / "c/one.txt").read_text(encoding="utf-8"), encoding="utf-8")
+    third = dedup.audit([str(root)])
+    delta, failed = track_audit(str(index), third, "grown")
+    c = _cluster_with(third, "c/one.txt")
+    assert c["review"]["status"] == "partly-reviewed" and c["review"]["unreviewed"] == ["c/zz-copy.txt"]
+    assert failed and delta["counts"]["reviewed"] == 0
+
+
+def test_a_changed_text_lapses_only_that_members_decisions(tmp_path, write_corpus, corpus_files, base_texts):
+    root = write_corpus(corpus_files)
+    index = tmp_path / "r.index"
+    first = dedup.audit([str(root)])
+    members = [m["document_id"] for m in _cluster_with(first, "a/one.txt")["members"]]
+    assert len(members) == 3
+    _import(index, _export(first, [("cluster", members, "keep-both", "", "2024-05-01T09:00:00Z")]))
+    track_audit(str(index), dedup.audit([str(root)]))
+    (root / "a/three.md").write_text(edited(edited(base_texts[0], "yak", 0.3), "emu", 0.8), encoding="utf-8")
+    third = dedup.audit([str(root)])
+    delta, _ = track_audit(str(index), third, "none")
+    a = _cluster_with(third, "a/one.txt")
+    status = {m["document_id"]: m["review"]["status"] for m in a["members"]}
+    assert status == {"a/one.txt": "reviewed", "a/two.txt": "reviewed", "a/three.md": "lapsed"}
+    assert a["review"]["status"] == "lapsed" and a["review"]["changed"] == ["a/three.md"]
+    kept = {m["document_id"] for m in a["members"] if m["action"] == "keep"}
+    assert {"a/one.txt", "a/two.txt"} <= kept
+    entry = next(e for e in delta["clusters"] if e["cluster_id"] == a["id"])
+    assert entry["status"] == "changed" and entry["changed"] == ["a/three.md"]
+    assert fails(delta, "changed") and not fails(delta, "grown")

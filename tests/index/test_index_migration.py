@@ -9,6 +9,7 @@ every text again.
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
@@ -85,3 +86,37 @@ def test_decisions_made_before_the_migration_still_hold(v1_index, v1_corpus):
     delta, failed = track_audit(str(v1_index), result, "any")
     assert delta["review"]["clusters"]["reviewed"] == 1 and not failed
     assert delta["previous"] is not None and delta["counts"]["unchanged"] == 1
+
+
+def _as_version_2(path) -> None:
+    """Turn a version-3 index into what version 2 wrote: no stable ids, no search statistics."""
+    with sqlite(path) as db:
+        db.execute("DROP TABLE cluster_ids")
+        db.execute("ALTER TABLE tfidf DROP COLUMN search_norms")
+        db.execute("ALTER TABLE tfidf DROP COLUMN lengths")
+        for seq, clusters in db.execute("SELECT seq, clusters FROM audits").fetchall():
+            records = [
+                {k: v for k, v in r.items() if k not in ("stable_id", "origin", "from")}
+                for r in json.loads(clusters)
+            ]
+            db.execute("UPDATE audits SET clusters = ? WHERE seq = ?", (json.dumps(records), seq))
+        db.execute("DELETE FROM meta WHERE key IN ('baseline', 'baseline_accepted_at')")
+        db.execute("UPDATE meta SET value = '2' WHERE key = 'schema_version'")
+
+
+def test_a_version_2_index_gets_stable_ids_and_search_statistics(tmp_path, v1_corpus):
+    path = str(tmp_path / "v2.index")
+    settings = AuditSettings(threshold=0.5)
+    first = dedup.audit([str(v1_corpus)], settings)
+    track_audit(path, first)
+    ids = [c["stable_id"] for c in first.clusters]
+    query = V1_CORPUS["pages/gamma.txt"]
+    with open_index(path) as index:
+        before = similar(index, query, k=3)
+    _as_version_2(path)
+    with open_index(path) as index:
+        assert index.meta("schema_version") == str(index_schema.SCHEMA_VERSION)
+        assert similar(index, query, k=3) == before
+    second = dedup.audit([str(v1_corpus)], settings)
+    delta, _ = track_audit(path, second, "any")
+    assert [c["stable_id"] for c in second.clusters] == ids and delta["counts"]["unchanged"] == len(ids)
