@@ -14,8 +14,7 @@ from collections.abc import Sequence
 from .engines import ENGINES, run_audit, spark_engine
 from .engines.tuning import lean_allocation
 from .features import tokenize
-from .ingest import InputError, decode_text
-from .normalize.boilerplate import canonical_lines
+from .normalize.boilerplate import read_ignore_text
 from .plan import Plan
 from .progress import Progress
 from .result import NOTICE, SCHEMA_VERSION, AuditResult
@@ -94,7 +93,7 @@ def audit(
         raise SettingsError(f"engine must be one of {', '.join(ENGINES)}, got {engine!r}")
     plan = Plan.of(settings)
     progress = progress or Progress.silent()
-    known_boilerplate = _read_ignore_text(settings.ignore_text_file)
+    known_boilerplate = list(read_ignore_text(settings.ignore_text_file))
     if engine == "spark":
         run_spark = spark_engine()  # a clear error when pyspark or Java is missing
         with WorkFolder(work_dir, keep=keep_work) as work:
@@ -123,18 +122,3 @@ def audit(
             # Freed while the heap keeps what is freed: after, its pages would go back
             # to the system at once.
             tokenize.release_scratch()
-
-
-def _read_ignore_text(path: str | None) -> list[str]:
-    """Lines of the user's known shared text, normalized; an unreadable file is an input error."""
-    if not path:
-        return []
-    try:
-        with open(path, "rb") as handle:
-            data = handle.read()
-    except OSError as err:
-        raise InputError(f"cannot read the ignore-text file {path}: {err.strerror}") from None
-    text, _, problem = decode_text(data)
-    if text is None:
-        raise InputError(f"cannot read the ignore-text file {path}: {problem}")
-    return canonical_lines(text)

@@ -34,8 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..features.hashing import sort_unique_segments
-from ..ingest import InputError, decode_text
-from ..normalize.boilerplate import Boilerplate, BoilerplateCounter, canonical_lines
+from ..normalize.boilerplate import Boilerplate, BoilerplateCounter, read_ignore_text
 from ..normalize.lines import line_hashes, line_spans
 from .blobs import pack_array, pack_uints, unpack_array, unpack_uints
 
@@ -50,27 +49,6 @@ __all__ = [
     "store_templates",
     "changed_lines",
 ]
-
-
-def read_ignore_text(path: str | None) -> tuple[str, ...]:
-    """The canonical lines of a file of known shared text (as `dedup.audit` reads it).
-
-    Raises
-    ------
-    dedup.InputError
-        The file cannot be read or decoded.
-    """
-    if not path:
-        return ()
-    try:
-        with open(path, "rb") as handle:
-            data = handle.read()
-    except OSError as err:
-        raise InputError(f"cannot read the ignore-text file {path}: {err.strerror}") from None
-    text, _, problem = decode_text(data)
-    if text is None:
-        raise InputError(f"cannot read the ignore-text file {path}: {problem}")
-    return tuple(canonical_lines(text))
 
 
 @dataclass(frozen=True)

@@ -33,6 +33,7 @@ from ..features.hashing import sort_unique_segments
 from .lines import join_kept_lines, line_characters, line_hashes, line_spans
 
 __all__ = [
+    "read_ignore_text",
     "canonical_lines",
     "find_boilerplate",
     "without_boilerplate",
@@ -204,3 +205,26 @@ class Boilerplate:
         rows = [(count, self.texts.get(h, "")) for h, count in self.counts.items()]
         rows.sort(key=lambda r: (-r[0], r[1]))
         return [{"text": text[:300], "texts": count} for count, text in rows[:n]]
+
+
+def read_ignore_text(path: str | None) -> tuple[str, ...]:
+    from ..ingest import InputError, decode_text  # the reader's decoding; imported late (ingest is large)
+
+    """The canonical lines of a file of known shared text (as `dedup.audit` reads it).
+
+    Raises
+    ------
+    dedup.InputError
+        The file cannot be read or decoded.
+    """
+    if not path:
+        return ()
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read()
+    except OSError as err:
+        raise InputError(f"cannot read the ignore-text file {path}: {err.strerror}") from None
+    text, _, problem = decode_text(data)
+    if text is None:
+        raise InputError(f"cannot read the ignore-text file {path}: {problem}")
+    return tuple(canonical_lines(text))
