@@ -14,15 +14,10 @@ SHA-256 hashes. Cost O(text of the submissions + passages).
 
 from __future__ import annotations
 
-import base64
-import hashlib
 import os
-from functools import lru_cache
-
-import jinja2
 
 from .._version import __version__
-from ..report.html import template_folder
+from ..report.html import csp_hash, template_environment, template_folder
 from .result import CheckResult
 from .wording import CAUTION, REASON_WORDS
 
@@ -30,24 +25,6 @@ __all__ = ["render_check_html", "reading_segments", "SOURCE_EXCERPT_CHARS"]
 
 # Characters of a source shown under each passage (longer stretches are cut, and marked).
 SOURCE_EXCERPT_CHARS = 1500
-
-
-@lru_cache(maxsize=1)
-def _environment() -> jinja2.Environment:
-    env = jinja2.Environment(
-        loader=jinja2.FileSystemLoader(template_folder()),
-        autoescape=True,
-        undefined=jinja2.StrictUndefined,
-        trim_blocks=True,
-        lstrip_blocks=True,
-    )
-    env.filters["pct"] = lambda x: "" if x is None else f"{x:.1%}"
-    env.filters["thousands"] = lambda x: f"{x:,}"
-    return env
-
-
-def _hash(text: str) -> str:
-    return "sha256-" + base64.b64encode(hashlib.sha256(text.encode("utf-8")).digest()).decode()
 
 
 def reading_segments(text: str, marks: list[tuple[int, int, str]], left_out: list[dict]) -> list[dict]:
@@ -134,7 +111,7 @@ def render_check_html(result: CheckResult) -> str:
         style = handle.read()
     pages = _pages(result)
     return (
-        _environment()
+        template_environment()
         .get_template("check.html.j2")
         .render(
             result=result,
@@ -146,7 +123,7 @@ def render_check_html(result: CheckResult) -> str:
             settings=result.settings,
             script=script,
             style=style,
-            script_hash=_hash(script),
-            style_hash=_hash(style),
+            script_hash=csp_hash(script),
+            style_hash=csp_hash(style),
         )
     )

@@ -79,7 +79,8 @@ def template_folder() -> str:
 
 
 @lru_cache(maxsize=1)
-def _environment() -> jinja2.Environment:
+def template_environment() -> jinja2.Environment:
+    """The jinja environment of every page dedup writes: autoescaped, strict, our filters."""
     env = jinja2.Environment(
         loader=jinja2.FileSystemLoader(template_folder()),
         autoescape=True,
@@ -485,7 +486,8 @@ def unpack_blob(packed: str) -> str:
     return zlib.decompress(base64.b64decode(packed)).decode("utf-8")
 
 
-def _csp_hash(script: str) -> str:
+def csp_hash(script: str) -> str:
+    """The Content-Security-Policy source that allows exactly this inline script or style."""
     return "sha256-" + base64.b64encode(hashlib.sha256(script.encode("utf-8")).digest()).decode()
 
 
@@ -503,7 +505,7 @@ _BLOBS_MARK = "<dedup-audit-blobs/>"
 
 def iter_html(result, progress=None) -> Iterator[str]:
     """The report in pieces, for writing without holding the page twice (it can be large)."""
-    env = _environment()
+    env = template_environment()
     folder = template_folder()
     with open(os.path.join(folder, "report.js"), encoding="utf-8") as handle:
         script = handle.read()
@@ -529,8 +531,8 @@ def iter_html(result, progress=None) -> Iterator[str]:
         blobs=_BLOBS_MARK,
         script=script,
         style=style,
-        script_hash=_csp_hash(script),
-        style_hash=_csp_hash(style),
+        script_hash=csp_hash(script),
+        style_hash=csp_hash(style),
     )
     if page.count(_DATA_MARK) != 1 or page.count(_BLOBS_MARK) != 1:
         raise RuntimeError("report template: the data marks must each appear once")
