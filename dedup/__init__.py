@@ -26,6 +26,7 @@ __all__ = [
     "check",
     "CheckResult",
     "CheckSettings",
+    "Index",
 ]
 
 
@@ -35,6 +36,10 @@ def __getattr__(name: str):
         from . import api
 
         return getattr(api, name)
+    if name == "Index":
+        from .corpus_index import Index
+
+        return Index
     if name in ("check", "CheckResult", "CheckSettings"):
         # The package `dedup.check` is callable: ``dedup.check(...)`` runs a check.
         import importlib

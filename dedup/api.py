@@ -9,11 +9,11 @@ actions.
 from __future__ import annotations
 
 import contextlib
-from collections.abc import Sequence
 
 from .engines import ENGINES, run_audit, spark_engine
 from .engines.tuning import lean_allocation
 from .features import tokenize
+from .ingest import Records, as_inputs
 from .normalize.boilerplate import read_ignore_text
 from .plan import Plan
 from .progress import Progress
@@ -25,9 +25,11 @@ __all__ = ["audit", "AuditResult", "SCHEMA_VERSION", "NOTICE"]
 
 
 def audit(
-    paths: Sequence[str],
+    inputs,
     settings: AuditSettings | None = None,
     *,
+    id_col: str = "id",
+    text_col: str = "text",
     progress: Progress | None = None,
     work_dir: str | None = None,
     keep_work: bool = False,
@@ -41,10 +43,18 @@ def audit(
 
     Parameters
     ----------
-    paths : sequence of str
-        Files and folders to read (folders are walked recursively).
+    inputs : path, sequence of paths, rows or table
+        What to audit: a file or folder (a str or path-like is one path; folders are
+        walked recursively), a sequence of them, or documents already in memory: an
+        iterable of ``(id, text)`` pairs or of dicts, a pandas DataFrame or a pyarrow
+        Table. Rows are read as the records of a record file: one ledger entry each, a
+        row without an id or a text skipped with its reason, other columns kept as
+        metadata (``date_field`` can name one; the result's frames carry them).
     settings : AuditSettings, optional
         Every knob; defaults to ``AuditSettings()``.
+    id_col, text_col : str
+        For rows and tables: the column (key) of the id and of the text. A DataFrame
+        without ``id_col`` gives its index as the ids.
     progress : Progress, optional
         Receives stage progress (the CLI draws it on stderr).
     work_dir : str, optional
@@ -78,6 +88,8 @@ def audit(
         A setting is invalid (checked before any work).
     dedup.InputError
         A given path does not exist.
+    KeyError
+        A table has no ``text_col`` (or, for a pyarrow Table, no ``id_col``).
 
     Examples
     --------
@@ -87,7 +99,12 @@ def audit(
     >>> _ = (d / "b.txt").write_text("The  quick brown fox\\njumps over the LAZY dog")
     >>> audit([str(d)]).summary["exact_groups"]
     1
+    >>> result = audit([("a", "the quick brown fox jumps over the lazy dog"),
+    ...                 ("b", "The quick brown fox jumps over the lazy dog!")])
+    >>> result
+    AuditResult(2 documents read, 0 exact groups, 1 cluster)
     """
+    paths = as_inputs(inputs, id_col=id_col, text_col=text_col)
     settings = (settings or AuditSettings()).validate()
     if engine not in ENGINES:
         raise SettingsError(f"engine must be one of {', '.join(ENGINES)}, got {engine!r}")
@@ -97,7 +114,7 @@ def audit(
     if engine == "spark":
         run_spark = spark_engine()  # a clear error when pyspark or Java is missing
         with WorkFolder(work_dir, keep=keep_work) as work:
-            return run_spark(
+            result = run_spark(
                 plan,
                 paths,
                 spark=spark_session,
@@ -107,6 +124,17 @@ def audit(
                 work=work,
                 workers=workers,
             )
+    else:
+        result = _run_local(
+            plan, paths, known_boilerplate, progress, work_dir, keep_work, workers, tune_process
+        )
+    if isinstance(paths, Records):
+        result.metadata = paths.metadata
+    return result
+
+
+def _run_local(plan, paths, known_boilerplate, progress, work_dir, keep_work, workers, tune_process):
+    """The plan on the local engine, the process tuned around it when asked."""
     with lean_allocation() if tune_process else contextlib.nullcontext():
         try:
             with WorkFolder(work_dir, keep=keep_work) as work:

@@ -14,7 +14,7 @@ __all__ = ["AuditResult", "SCHEMA_VERSION", "NOTICE"]
 SCHEMA_VERSION = "1.0"
 
 
-@dataclass
+@dataclass(repr=False)
 class AuditResult:
     """Everything an audit found, ready to be written as JSON, CSV and HTML.
 
@@ -51,6 +51,13 @@ class AuditResult:
         Original text of every clustered document, for the report's evidence view.
     delta : dict or None
         With an index: what changed since the last audit (see `dedup.index`).
+    metadata : dict
+        Document id → the other columns of its row, for rows given in memory (a
+        DataFrame's columns besides the id and the text); carried into the frames, not
+        into ``audit.json``.
+
+    Tables: ``pairs_frame()``, ``clusters_frame()``, ``actions_frame()``,
+    ``documents_frame()``, ``ledger_frame()``, ``passages_frame()`` (see `dedup.frames`).
     """
 
     settings: AuditSettings
@@ -72,6 +79,54 @@ class AuditResult:
     unique_runs: list[dict] = field(default_factory=list)
     texts: dict = field(default_factory=dict)
     delta: dict | None = None
+    metadata: dict = field(default_factory=dict)
+
+    def __repr__(self) -> str:
+        s = self.summary
+        return (
+            f"AuditResult({_count(s.get('documents_with_text', 0), 'document')} read, "
+            f"{_count(s.get('exact_groups', 0), 'exact group')}, {_count(s.get('clusters', 0), 'cluster')})"
+        )
+
+    def _repr_html_(self) -> str:
+        """A compact summary for notebooks (see `dedup.report.summary_html`)."""
+        from .report.summary import summary_html
+
+        return summary_html(self)
+
+    def frame(self, name: str, kind: str | None = None):
+        """The table ``name`` (pairs, clusters, actions, documents, ledger, passages) as a
+        pandas DataFrame, or a pyarrow Table (``kind="arrow"``, or without pandas)."""
+        from .frames import FRAMES, frame_of
+
+        if name not in FRAMES:
+            raise KeyError(f"no frame {name!r}; the frames are {', '.join(FRAMES)}")
+        rows, columns = FRAMES[name](self)
+        return frame_of(rows, columns, kind)
+
+    def pairs_frame(self, kind: str | None = None):
+        """Confirmed pairs with every score: the rows of pairs.csv."""
+        return self.frame("pairs", kind)
+
+    def clusters_frame(self, kind: str | None = None):
+        """One row per cluster member with its role and scores: the rows of clusters.csv."""
+        return self.frame("clusters", kind)
+
+    def actions_frame(self, kind: str | None = None):
+        """One proposed action per document (with the rows' metadata): actions.csv."""
+        return self.frame("actions", kind)
+
+    def documents_frame(self, kind: str | None = None):
+        """Every document read, with the rows' metadata."""
+        return self.frame("documents", kind)
+
+    def ledger_frame(self, kind: str | None = None):
+        """What became of every input: the rows of ledger.csv."""
+        return self.frame("ledger", kind)
+
+    def passages_frame(self, kind: str | None = None):
+        """Shared passages with character offsets into both texts: passages.csv."""
+        return self.frame("passages", kind)
 
     def to_dict(self, lazy: bool = False) -> dict:
         """The content of ``audit.json`` (deterministic: no clock, no host, no absolute path).
@@ -114,3 +169,7 @@ NOTICE = (
     "templates and common phrasing match too. This tool only reads its inputs; the actions are "
     "proposals and no file has been changed, moved or deleted."
 )
+
+
+def _count(n: int, noun: str) -> str:
+    return f"{n:,} {noun}" + ("" if n == 1 else "s")

@@ -22,7 +22,7 @@ from ..cluster import build_clusters
 from ..cluster.actions import ClusterInputs
 from ..cluster.keeper import input_positions, unmatched_prefer
 from ..cluster.loss import align_members, settle_actions
-from ..ingest import LedgerEntry, summarize
+from ..ingest import LedgerEntry, input_names, summarize
 from ..normalize import exact_groups
 from ..report import records
 from ..report.wording import describe_roles, describe_warning
@@ -248,7 +248,7 @@ def assemble(plan, paths: Sequence[str], found: Findings) -> AuditResult:
     )
     return AuditResult(
         settings=settings,
-        inputs=list(paths),
+        inputs=input_names(paths),
         ledger=found.ledger,
         documents=found.documents,
         exact_groups=records.exact_group_records(

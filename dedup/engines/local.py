@@ -29,7 +29,7 @@ import numpy as np
 from ..candidates import exhaustive_candidate_pairs, lsh_candidate_pairs
 from ..features.segment_sort import sorted_distinct
 from ..features.shingles import from_word_hashes
-from ..ingest import LedgerEntry, iter_documents
+from ..ingest import LedgerEntry, Records, documents_of
 from ..normalize.batch import prepare_documents
 from ..normalize.boilerplate import Boilerplate
 from ..plan import Plan, reading_keywords
@@ -122,12 +122,12 @@ class _Run:
         self.word_store = None
 
     def read(
-        self, paths: Sequence[str], ledger: list[LedgerEntry]
+        self, paths: Sequence[str] | Records, ledger: list[LedgerEntry]
     ) -> tuple[ReadResult, ChunkSketcher | None]:
         """The read step (with the sketch step overlapped when nothing is to be stripped)."""
         s = self.settings
         self.progress.start("reading")
-        documents_in = iter_documents(
+        documents_in = documents_of(
             paths,
             ledger=ledger,
             workers=self.workers,

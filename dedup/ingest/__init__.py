@@ -3,6 +3,7 @@
 from .document import Item, RawDocument
 from .encoding import decode_text
 from .ledger import STATUSES, LedgerEntry, summarize
+from .memory import Records, as_inputs, documents_of, input_names
 from .options import ReadOptions
 from .readers import FORMATS, format_of
 from .walk import InputError, iter_documents, leaving_out
@@ -20,4 +21,8 @@ __all__ = [
     "InputError",
     "iter_documents",
     "leaving_out",
+    "Records",
+    "as_inputs",
+    "documents_of",
+    "input_names",
 ]

@@ -41,7 +41,7 @@ from collections.abc import Sequence
 import numpy as np
 import pyarrow as pa
 
-from ...ingest import LedgerEntry
+from ...ingest import LedgerEntry, Records
 from ...plan import Plan
 from ...progress import Progress
 from ...report import records
@@ -144,7 +144,7 @@ class _SparkRun:
         the ledger entries made on the driver."""
         self.step("reading")
         s = self.settings
-        if any(is_uri(p) for p in paths):
+        if not isinstance(paths, Records) and any(is_uri(p) for p in paths):
             if not all(is_uri(p) for p in paths):
                 raise SettingsError("give either local paths or URIs (scheme://…), not both")
             normalized, entries = read_uris(self.spark, paths, s, self.share)

@@ -17,8 +17,9 @@ from collections.abc import Iterator, Sequence
 
 import pyarrow as pa
 
-from ...ingest import LedgerEntry, RawDocument, iter_documents
+from ...ingest import LedgerEntry, RawDocument, Records, documents_of
 from ...ingest.dates import date_value
+from ...plan import reading_keywords
 from ..reading import _date_getter
 from .columns import ddl
 from .normalizing import DOCUMENTS
@@ -85,7 +86,7 @@ def stage_batches(batches: Iterator[pa.RecordBatch], folder: str) -> int:
 
 def read_documents(
     spark,
-    paths: Sequence[str],
+    paths: Sequence[str] | Records,
     settings,
     ledger: list[LedgerEntry],
     *,
@@ -100,22 +101,7 @@ def read_documents(
     on the driver (``workers`` processes read and decode files in parallel).
     """
     s = settings
-    documents = iter_documents(
-        paths,
-        id_field=s.id_field,
-        text_fields=s.text_fields,
-        max_file_bytes=s.max_file_bytes,
-        include_hidden=s.include_hidden,
-        ledger=ledger,
-        max_text_chars=s.max_text_chars,
-        max_archive_ratio=s.max_archive_ratio,
-        max_archive_bytes=s.max_archive_bytes,
-        html_keep_all=s.html_keep_all,
-        include=s.include,
-        exclude=s.exclude,
-        include_vcs=s.include_vcs,
-        workers=workers,
-    )
+    documents = documents_of(paths, ledger=ledger, workers=workers, **reading_keywords(s))
     batches = document_batches(documents, settings)
     if staging is not None:
         stage_batches(batches, staging)
