@@ -17,7 +17,10 @@ from typing import Any
 from ..ingest import LedgerEntry, iter_documents
 from .settings import CheckSettings
 
-__all__ = ["Input", "read_texts", "ledger_rows", "is_path"]
+__all__ = ["Input", "read_texts", "index_texts", "ledger_rows", "is_path", "INDEX_FORMAT"]
+
+# The format name, in the ledger, of a reference read from an index.
+INDEX_FORMAT = "index"
 
 # An input: a path, or an (id, text) pair.
 Input = Any
@@ -82,6 +85,28 @@ def _read_paths(
         elif entries and entries[-1].document_id == doc.id and entries[-1].status == "read":
             entries[-1].status, entries[-1].reason = "empty", "no words"
     ledger.extend((role, e) for e in entries[taken:])
+
+
+def index_texts(path: str, role: str, ledger: list[tuple[str, LedgerEntry]]) -> Iterator[tuple[str, str]]:
+    """``(id, text)`` of every distinct text of the index at ``path``, in its stored form.
+
+    The index keeps texts normalized (lower case, markup removed), so passages in them show
+    that form and their offsets point into it. A document whose text another indexed
+    document has is compared once, under the first id, and says so in the ledger. Raises
+    `dedup.index.IndexFileError` when ``path`` is not a usable index.
+    """
+    from ..index import open_index
+    from ..index.stored import stored_texts
+
+    with open_index(path) as index:
+        for stored in stored_texts(index):
+            first, *copies = stored.doc_ids
+            size = len(stored.text)
+            ledger.append((role, LedgerEntry(first, "read", "", INDEX_FORMAT, size, "", "", first)))
+            for copy in copies:
+                reason = f"same text as {first} in the index: compared once, under that id"
+                ledger.append((role, LedgerEntry(copy, "read", reason, INDEX_FORMAT, size, "", "", first)))
+            yield first, stored.text
 
 
 def ledger_rows(ledger: Sequence[tuple[str, LedgerEntry]]) -> list[dict]:

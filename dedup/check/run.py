@@ -16,6 +16,7 @@ references that can be candidates are kept.
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 
@@ -25,7 +26,7 @@ from ..align import word_spans
 from ..ingest import InputError, LedgerEntry
 from ..progress import Progress
 from .candidates import HitLog, SubmissionIndex, common_limit, peer_candidates, source_candidates
-from .inputs import Input, read_texts
+from .inputs import Input, index_texts, read_texts
 from .masks import reason_codes, template_regions
 from .passages import align_candidates, directed_passages
 from .result import CheckResult
@@ -105,6 +106,7 @@ def check(
     *,
     workers: int = 1,
     progress: Progress | None = None,
+    against_index: str | None = None,
 ) -> CheckResult:
     """Compare a class of submissions with reference material and with each other.
 
@@ -114,6 +116,9 @@ def check(
         The students' texts: files, folders, archives, records files, or pairs in memory.
     against : iterable of path or (id, text)
         Reference material; read as a stream (only candidate references are kept).
+    against_index : str, optional
+        An index file (`dedup.Index`) whose texts are references too, in their stored
+        (normalized) form: source offsets of their passages point into that form.
     settings : CheckSettings, optional
         Validated here; ``settings.templates`` names the template files.
     workers : int
@@ -131,6 +136,8 @@ def check(
         A setting is invalid.
     dedup.InputError
         A path does not exist, or no submission holds a word.
+    dedup.index.IndexFileError
+        ``against_index`` is not a usable index.
 
     Notes
     -----
@@ -145,7 +152,10 @@ def check(
         raise InputError("no submission with any words was read (see the ledger for what was found)")
     templates = [t for _, t in read_texts(s.templates, s, "template", ledger)]
     klass = _prepare_class(subs, templates, s)
-    hits, kept = _scan(read_texts(against, s, "reference", ledger), klass.index, s, progress)
+    references = read_texts(against, s, "reference", ledger)
+    if against_index is not None:
+        references = itertools.chain(references, index_texts(against_index, "reference", ledger))
+    hits, kept = _scan(references, klass.index, s, progress)
     seeds = s.seed_shingles
     ref_pairs = source_candidates(
         klass.index, hits, seed_shingles=seeds, limit=common_limit(s.common_share, s.common_min, hits.count)

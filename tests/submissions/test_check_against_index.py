@@ -1,0 +1,64 @@
+"""References kept in an index: the check finds in them what it finds in the same files."""
+
+from __future__ import annotations
+
+import pytest
+
+from dedup.check import CheckSettings, check
+from dedup.index import IndexFileError, build
+
+SETTINGS = CheckSettings(min_words=12, short_words=8)
+
+
+def _by_submission(result) -> dict:
+    """Submission → (share matched, top source, counted passages' submission offsets)."""
+    out = {}
+    for record in result.submissions:
+        name = record["submission"]
+        spans = sorted(
+            (m["source"], m["submission_start"], m["submission_end"])
+            for m in result.matches
+            if m["submission"] == name and m["status"] == "counted"
+        )
+        out[name] = (record["share_matched"], record["top_source"], spans)
+    return out
+
+
+def test_an_indexed_reference_set_gives_the_same_matches_as_its_files(small_class, tmp_path):
+    subs, refs, _ = small_class
+    build([str(refs)], str(tmp_path / "refs.index"))
+    from_files = check([str(subs)], against=[str(refs)], settings=SETTINGS)
+    from_index = check([str(subs)], settings=SETTINGS, against_index=str(tmp_path / "refs.index"))
+    expected = _by_submission(from_files)
+    assert any(top == "brisk.txt" for _, top, _ in expected.values())  # something to compare
+    assert _by_submission(from_index) == expected
+    formats = {e["format"] for e in from_index.ledger if e["role"] == "reference"}
+    assert formats == {"index"}
+
+
+def test_index_references_add_to_given_ones_and_copies_are_compared_once(small_class, tmp_path):
+    subs, refs, texts = small_class
+    (refs / "copy-of-brisk.txt").write_text(
+        (refs / "brisk.txt").read_text(encoding="utf-8"), encoding="utf-8"
+    )
+    build([str(refs)], str(tmp_path / "refs.index"))
+    extra = tmp_path / "extra"
+    extra.mkdir()
+    (extra / "essay-bank.txt").write_text(texts["clean.txt"], encoding="utf-8")
+    result = check(
+        [str(subs)], against=[str(extra)], settings=SETTINGS, against_index=str(tmp_path / "refs.index")
+    )
+    entries = {e["input"]: e for e in result.ledger if e["role"] == "reference"}
+    assert entries["essay-bank.txt"]["format"] != "index"
+    assert entries["copy-of-brisk.txt"]["document_id"] == "brisk.txt"
+    assert "same text as brisk.txt" in entries["copy-of-brisk.txt"]["reason"]
+    clean = next(r for r in result.submissions if r["submission"] == "clean.txt")
+    assert clean["top_source"] == "essay-bank.txt"
+
+
+def test_a_file_that_is_not_an_index_is_a_clear_error(small_class, tmp_path):
+    subs, _, _ = small_class
+    fake = tmp_path / "notes.index"
+    fake.write_text("not an index", encoding="utf-8")
+    with pytest.raises(IndexFileError):
+        check([str(subs)], settings=SETTINGS, against_index=str(fake))
