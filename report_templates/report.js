@@ -679,17 +679,18 @@
     return say(w.chain.length, "passage", "passages") + " in both, in the same order; " + say(n.reworded, "place", "places") + " reworded, " +
       say(n["only-a"], "place", "places") + " only A has, " + say(n["only-b"], "place", "places") + " only B has; " + say(w.moved.length, "passage", "passages") + " moved.";
   }
-  // "A shares 306 of its 306 words (100%) with B, 290 of them word for word." Counted here, on
-  // the text shown: words inside passages, and of those the ones not reworded or only on one side.
+  // "A: 289 of its 306 words (94%) read word for word in B; 306 (100%) lie inside the passages they
+  // share." Counted here, on the text shown: words inside passages, and of those the ones not
+  // reworded or only on one side (a passage spans small edits, so the two counts differ).
   function coverageLine(side, text, w, i, other) {
     var inside = 0, alike = 0;
     w.chain.concat(w.moved).forEach(function (p) { inside += countWords(side === "a" ? text.slice(p.as, p.ae) : text.slice(p.bs, p.be)); });
     alike = inside;
     w.blocks.forEach(function (b) { if (b.pieces) alike -= side === "a" ? b.aOnly : b.bOnly; });
     var total = countWords(text), meta = docMeta[i];
-    var line = el("p", { cls: "coverage" }, [sideTag(side), " shares " + num(inside) + " of its " + words(total) +
-      (total ? " (" + pct(inside / total) + ")" : "") + " with " + other.toUpperCase() +
-      (inside ? ", " + num(alike) + " of them word for word" : "") + "."]);
+    function share(n) { return total ? " (" + pct(n / total) + ")" : ""; }
+    var line = el("p", { cls: "coverage" }, [sideTag(side), " " + num(alike) + " of its " + words(total) + share(alike) +
+      " read word for word in " + other.toUpperCase() + "; " + num(inside) + share(inside) + " lie inside the passages they share."]);
     if (meta[3]) line.appendChild(document.createTextNode(" This report holds its first " + num(data.text_limit) + " of " + num(meta[2]) + " characters; the rest is not shown."));
     return line;
   }

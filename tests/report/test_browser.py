@@ -136,7 +136,7 @@ def test_a_pair_reads_in_order_with_what_each_text_alone_has(page, demo_report):
     a_line, b_line = reading.locator(".coverage").all_inner_texts()
     assert _share(a_line) >= 90 and _share(b_line) < 60
     # Nothing reworded here: the folded lines hold exactly the words said to be shared.
-    shared = int(re.search(r"shares ([\d,]+)", a_line).group(1).replace(",", ""))
+    shared = int(re.search(r"; ([\d,]+) \(\d+%\) lie inside", a_line).group(1).replace(",", ""))
     folded = reading.locator(".run-both .run-size").all_inner_texts()
     assert reading.locator(".run-reworded").count() == 0
     assert sum(int(size.split()[0].replace(",", "")) for size in folded) == shared
@@ -325,7 +325,10 @@ def test_the_page_reads_a_pair_without_passages(page, demo_without_passages, tmp
     # Both texts follow each other whole, each as what only it has.
     assert reading.locator(".run-only.run-a").count() == 1 and reading.locator(".run-only.run-b").count() == 1
     assert reading.locator(".run-both").count() == 0
-    assert all("shares 0 of its" in line for line in reading.locator(".coverage").all_inner_texts())
+    assert all(
+        " 0 of its" in line and "; 0 (0%) lie inside" in line
+        for line in reading.locator(".coverage").all_inner_texts()
+    )
     # An exact copy still reads as one text both hold.
     exact = next(c for c in result.clusters if c["kind"] == "exact")
     member = next(m["document_id"] for m in exact["members"] if m["role"] == "exact-copy")
@@ -414,7 +417,8 @@ def test_a_moved_passage_is_shown_at_its_place_in_each_text(page, tmp_path):
     assert "1 passage moved" in reading.locator(".walk-summary").inner_text()
     for line in reading.locator(".coverage").all_inner_texts():
         assert re.search(
-            r"shares [\d,]+ of its [\d,]+ words \(\d+%\) with [AB], [\d,]+ of them word for word\.", line
+            r"[\d,]+ of its [\d,]+ words \(\d+%\) read word for word in [AB]; [\d,]+ \(\d+%\) lie inside the passages",
+            line,
         )
     closing = reading.locator(".run-only").filter(has_text="closing line")
     assert closing.locator(".doc-text").inner_text().startswith("A closing line")
