@@ -405,3 +405,48 @@ def test_unknown_outputs_are_refused(tmp_path):
     with pytest.raises(ValueError, match="unknown output"):
         write_parquet({"everything": pa.table({"a": [1]})}, str(tmp_path))
     assert os.path.isdir(tmp_path)
+
+
+@needs_spark
+def test_uris_read_names_spark_would_hide_as_the_walk_does(spark, tmp_path):
+    # Spark's file sources leave out names starting with "_" or "."; the walk's rules decide here.
+    text = "Meter readings are taken every quarter and estimated bills are corrected afterwards. "
+    files = {
+        "ok.txt": text * 3,
+        "_notes.txt": text * 3 + "A note.",
+        "_drafts/draft.txt": text * 2,
+        ".hidden.txt": text,
+        ".cache/kept.txt": text,
+        "_empty.txt": "",
+    }
+    for name, body in files.items():
+        (tmp_path / "docs" / name).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / "docs" / name).write_text(body, encoding="utf-8")
+    settings = AuditSettings(threshold=0.5, candidates="lsh")
+    local = dedup.audit([str(tmp_path / "docs")], settings)
+    on_spark = dedup.audit([(tmp_path / "docs").as_uri()], settings, engine="spark", spark_session=spark)
+    same = _same_outputs(local, on_spark, tmp_path / "compared", skip_keys=("inputs",))
+    assert all(same.values()), same
+    inputs = {e.input: e.status for e in on_spark.ledger}
+    assert inputs["_notes.txt"] == "read" and inputs["_drafts/draft.txt"] == "read"
+    assert inputs["_empty.txt"] == "empty" and inputs[".hidden.txt"] == "skipped"
+
+
+@needs_spark
+def test_rows_in_memory_give_the_local_engine_outputs(spark, tmp_path):
+    pd = pytest.importorskip("pandas")
+    rng = random.Random(7)
+    words = [f"w{i}" for i in range(400)]
+    base = [" ".join(rng.choice(words) for _ in range(120)) for _ in range(30)]
+    rows = [{"id": f"doc-{i:02d}", "text": t, "owner": f"team-{i % 3}"} for i, t in enumerate(base)]
+    rows += [
+        {"id": f"copy-{i:02d}", "text": t + " edited", "owner": "copies"} for i, t in enumerate(base[:8])
+    ]
+    frame = pd.DataFrame(rows)
+    settings = AuditSettings(threshold=0.7, candidates="lsh")
+    local = dedup.audit(frame, settings)
+    on_spark = dedup.audit(frame, settings, engine="spark", spark_session=spark)
+    same = _same_outputs(local, on_spark, tmp_path)
+    assert all(same.values()), same
+    assert local.summary["clusters"] == 8
+    assert on_spark.metadata["copy-03"] == {"owner": "copies"}

@@ -2,18 +2,19 @@
 
 For inputs given as URIs Spark can read (``hdfs://``, ``s3a://``, ``gs://``, ``file://`` …):
 
-1. Spark lists the files (the ``binaryFile`` source, recursively, without reading them);
+1. Hadoop's file system lists the files (recursively, without reading them; Spark's own
+   file sources would leave out every name starting with ``_`` or ``.``);
 2. the driver puts them in the order the local engine walks a folder (a folder's files
    by name, then its subfolders by name), numbers them, and applies the same rules as
    on one machine: hidden names, ``--include``/``--exclude``, unsupported types and the
    size limit become ledger entries made here;
-3. the files to read are loaded by the ``binaryFile`` source and each partition reads
-   its files with our readers (`dedup.ingest.readers.read_bytes`: the same formats,
+3. the files to read are loaded by the ``binaryFile`` source (those whose name starts
+   with ``_`` or ``.``, which it refuses to load, and empty files are read on the driver)
+   and each partition reads its files with our readers (`dedup.ingest.readers.read_bytes`: the same formats,
    records, limits and ledger entries) and normalizes the documents at once (the
    normalize map), leaving documents and ledger entries with their read position.
 
-Differences from reading local paths: Spark's listing leaves out names starting with
-``_`` or ``.`` (so these get no ledger entry), links are Spark's business, and every
+Differences from reading local paths: links are the file system's business, and every
 file is read whole (at most 2 GiB: a larger Parquet file or archive is skipped with a
 reason). Document ids are paths relative to the folder given, as on one machine.
 """
@@ -24,7 +25,6 @@ import posixpath
 import re
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
-from urllib.parse import unquote, urlsplit
 
 import pyarrow as pa
 
@@ -72,15 +72,18 @@ def read_options(settings) -> ReadOptions:
 
 @dataclass
 class _Listed:
-    """A file Spark listed under a root: where it is, its id, its size, and the name to load
-    it by (None for an empty file, which Spark never loads: it is read on the driver)."""
+    """A file listed under a root: where it is, its id, its size, the name to load it by
+    (Hadoop's spelling), when it was changed, and whether the driver reads it (an empty
+    file, or a name the ``binaryFile`` source refuses)."""
 
     root: int
     where: tuple[str, str, str]
     rel: str
     size: int
-    load: str | None
+    load: str
     walked: bool
+    mtime: float | None = None
+    on_driver: bool = False
 
 
 _DECODED = re.compile(r"^([A-Za-z][A-Za-z0-9+.-]*):(?://([^/]*))?(.*)$")
@@ -94,39 +97,49 @@ def _decoded_location(path: str) -> tuple[str, str, str]:
     return found.group(1).lower(), found.group(2) or "", found.group(3) or "/"
 
 
-def _encoded_location(uri: str) -> tuple[str, str, str]:
-    """``(scheme, authority, path)`` of a percent-encoded URI (as ``inputFiles`` gives them)."""
-    parts = urlsplit(uri)
-    return parts.scheme.lower(), parts.netloc, unquote(parts.path) or "/"
+def _hadoop(spark):
+    """The JVM and the Hadoop configuration of the session (Py4J: not on Spark Connect)."""
+    context = spark.sparkContext
+    return context._jvm, context._jsc.hadoopConfiguration()
 
 
-def _list_root(spark, root: str) -> list[tuple[tuple[str, str, str], int, str | None]]:
-    """Every file under ``root``: its location, size and the name to load it by.
-
-    The file index names every file (``inputFiles``); a scan of the names and lengths
-    (no content is read) gives the sizes — of the files with bytes: a scan leaves empty
-    files out.
-    """
-    from pyspark.errors import AnalysisException
-
-    try:
-        frame = spark.read.format("binaryFile").option("recursiveFileLookup", "true").load(root)
-        names = frame.inputFiles()
-        table = frame.select("path", "length").toArrow()
-    except AnalysisException as err:
-        if "PATH_NOT_FOUND" in str(err) or "does not exist" in str(err):
-            raise InputError(f"no such file or folder: {root}") from None
-        raise
-    sized = {
-        _decoded_location(path): (path, size)
-        for path, size in zip(table.column("path").to_pylist(), numbers(table.column("length")).tolist())
-    }
+def _list_root(spark, root: str) -> list[tuple[tuple[str, str, str], int, str, float]]:
+    """Every file under ``root`` (a glob is expanded first): its location, size, the name
+    to load it by and its modification time, sorted by location. Hadoop's listing, unlike
+    Spark's file sources, keeps names starting with ``_`` or ``.`` (the walk's rules then
+    decide, as on one machine). Cost: one listing call per folder, no content read."""
+    jvm, conf = _hadoop(spark)
+    path = jvm.org.apache.hadoop.fs.Path(root)
+    system = path.getFileSystem(conf)
+    matches = system.globStatus(path)
+    if not matches:
+        raise InputError(f"no such file or folder: {root}")
     listed = []
-    for name in names:
-        where = _encoded_location(name)
-        load, size = sized.get(where, (None, 0))
-        listed.append((where, size, load))
+    for match in matches:
+        files = system.listFiles(match.getPath(), True)
+        while files.hasNext():
+            status = files.next()
+            name = status.getPath().toString()
+            listed.append(
+                (_decoded_location(name), int(status.getLen()), name, status.getModificationTime() / 1e3)
+            )
     return sorted(listed)
+
+
+def _refused_by_spark(where: tuple[str, str, str]) -> bool:
+    """Whether the ``binaryFile`` source refuses to load this file, even when named."""
+    return posixpath.basename(where[2]).startswith(("_", "."))
+
+
+def read_on_driver(spark, name: str) -> bytes:
+    """The bytes of one file, read through Hadoop's file system on the driver."""
+    jvm, conf = _hadoop(spark)
+    path = jvm.org.apache.hadoop.fs.Path(name)
+    stream = path.getFileSystem(conf).open(path)
+    try:
+        return bytes(jvm.org.apache.commons.io.IOUtils.toByteArray(stream))
+    finally:
+        stream.close()
 
 
 def _listed(spark, roots: Sequence[str]) -> list[_Listed]:
@@ -139,12 +152,21 @@ def _listed(spark, roots: Sequence[str]) -> list[_Listed]:
         files = _list_root(spark, root)
         single = len(files) == 1 and files[0][0][2] == root_path
         bases.append(posixpath.dirname(root_path) if single else root_path)
-        found.extend((number, where, size, load, not single) for where, size, load in files)
+        found.extend((number, *file, not single) for file in files)
     places = {_decoded_location(r)[:2] for r in roots}
     base = posixpath.commonpath(bases) if len(places) == 1 else ""
     return [
-        _Listed(number, where, _relative(where, base), size, load, walked)
-        for number, where, size, load, walked in found
+        _Listed(
+            number,
+            where,
+            _relative(where, base),
+            size,
+            load,
+            walked,
+            mtime,
+            on_driver=size == 0 or _refused_by_spark(where),
+        )
+        for number, where, size, load, mtime, walked in found
     ]
 
 
@@ -190,7 +212,7 @@ class RemoteInputs:
 
     driver_entries: list[tuple[tuple[int, int], LedgerEntry]] = field(default_factory=list)
     to_read: dict[str, tuple[int, str, str]] = field(default_factory=dict)
-    empty: list[tuple[int, str, str]] = field(default_factory=list)
+    on_driver: list[tuple[str, tuple[int, str, str], float | None, int]] = field(default_factory=list)
     repeated: set[tuple[int, int]] = field(default_factory=set)
 
     def entries(self, rows: pa.Table) -> list[LedgerEntry]:
@@ -259,8 +281,9 @@ def plan_reading(listed: list[_Listed], opts: ReadOptions) -> RemoteInputs:
         what, value = events[key]
         if what == "entry":
             inputs.driver_entries.append(((file_no, 0), value))
-        elif value.load is None:  # empty: Spark never loads it
-            inputs.empty.append((file_no, value.rel, format_of(value.rel)))
+        elif value.on_driver:
+            found = (file_no, value.rel, format_of(value.rel))
+            inputs.on_driver.append((value.load, found, value.mtime, value.size))
         else:
             inputs.to_read[value.load] = (file_no, value.rel, format_of(value.rel))
     return inputs
@@ -319,10 +342,13 @@ def read_uris(spark, roots: Sequence[str], settings, share):
     `NORMALIZED`), and the `RemoteInputs` that orders the ledger. ``share`` broadcasts."""
     opts = read_options(settings)
     inputs = plan_reading(_listed(spark, roots), opts)
-    # Empty files (never loaded by Spark) are read here: no bytes, at most an empty document.
-    empty = [(b"", found, None) for found in inputs.empty]
+    # Empty files and names the binaryFile source refuses are read here.
+    here_files = [
+        (read_on_driver(spark, name) if size else b"", found, mtime)
+        for name, found, mtime, size in inputs.on_driver
+    ]
     here = pa.Table.from_batches(
-        list(_outcome_batches(empty, settings, opts, _date_getter(settings))), schema=NORMALIZED
+        list(_outcome_batches(here_files, settings, opts, _date_getter(settings))), schema=NORMALIZED
     )
     normalized = spark.createDataFrame(here, schema=ddl(NORMALIZED))
     if inputs.to_read:
