@@ -450,3 +450,14 @@ def test_rows_in_memory_give_the_local_engine_outputs(spark, tmp_path):
     assert all(same.values()), same
     assert local.summary["clusters"] == 8
     assert on_spark.metadata["copy-03"] == {"owner": "copies"}
+
+
+def test_a_spark_connect_session_is_refused_with_the_reason(monkeypatch):
+    from dedup.engines.spark import session as sessions
+
+    class ConnectLike:  # stands for pyspark.sql.connect.session.SparkSession
+        pass
+
+    ConnectLike.__module__ = "pyspark.sql.connect.session"
+    with pytest.raises(dedup.SettingsError, match="Spark Connect"):
+        sessions.own_session(ConnectLike())

@@ -126,8 +126,24 @@ def shuffle_partitions(parallelism: int, n_texts: int) -> int:
     return max(2 * parallelism, -(-n_texts // TEXTS_PER_PARTITION))
 
 
+def is_connect_session(spark) -> bool:
+    """Whether ``spark`` is a Spark Connect client session (no JVM, no SparkContext here)."""
+    return type(spark).__module__.startswith("pyspark.sql.connect")
+
+
 def own_session(spark):
-    """A session for one audit, sharing ``spark``'s context (see the module notes)."""
+    """A session for one audit, sharing ``spark``'s context (see the module notes).
+
+    Raises `dedup.SettingsError` for a Spark Connect session: the engine needs the
+    driver's SparkContext (broadcasts, Hadoop's file listing, the default parallelism).
+    """
+    if is_connect_session(spark):
+        from ...settings import SettingsError
+
+        raise SettingsError(
+            "the Spark engine needs a classic session with a SparkContext on this driver; "
+            "a Spark Connect session cannot run it (start one with SparkSession.builder.master(...))"
+        )
     session = spark.newSession()
     session.conf.set(
         "spark.sql.shuffle.partitions", str(shuffle_partitions(spark.sparkContext.defaultParallelism, 0))
