@@ -75,6 +75,7 @@ CLUSTER_COLUMNS = [
     "cosine_to_keeper",
     "linked_through",
     "action",
+    "stable_id",
 ]
 ACTION_COLUMNS = ["document_id", "action", "in_favour_of", "cluster_id", "reason"]
 LEDGER_COLUMNS = ["input", "record", "status", "reason", "format", "size", "encoding", "document_id"]
@@ -194,6 +195,7 @@ def cluster_rows(clusters: list[dict]) -> list[dict]:
                     "cosine_to_keeper": similarity.get("cosine"),
                     "linked_through": member["linked_through"],
                     "action": member["action"],
+                    "stable_id": cluster.get("stable_id"),
                 }
             )
     return rows
