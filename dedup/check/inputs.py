@@ -1,7 +1,8 @@
 """What a check reads: submissions, references and templates, each with its ledger.
 
 An input is a path (file, folder or archive, read by `dedup.ingest.iter_documents` with
-its limits and its ledger) or an ``(id, text)`` pair given in memory. Every input ends in
+its limits and its ledger) or an ``(id, text)`` pair given in memory; a pandas DataFrame
+or pyarrow Table (or `dedup.ingest.Records`) gives its rows, as `dedup.audit` reads them. Every input ends in
 the ledger with its role (``submission``, ``reference``, ``template``), so nothing is
 left out without a trace; a document without a single word is recorded as empty.
 
@@ -14,7 +15,7 @@ import os
 from collections.abc import Iterable, Iterator, Sequence
 from typing import Any
 
-from ..ingest import LedgerEntry, iter_documents
+from ..ingest import LedgerEntry, ReadOptions, Records, as_inputs, iter_documents
 from .settings import CheckSettings
 
 __all__ = ["Input", "read_texts", "index_texts", "ledger_rows", "is_path", "INDEX_FORMAT"]
@@ -44,6 +45,9 @@ def read_texts(
     their common folder); pairs are taken as given. Raises `dedup.InputError` for a path that
     does not exist.
     """
+    if _is_table(items):
+        yield from _read_rows(as_inputs(items), settings, role, ledger)
+        return
     run: list[str] = []
     for item in items:
         if is_path(item):
@@ -59,6 +63,30 @@ def read_texts(
         else:
             ledger.append((role, LedgerEntry(ident, "empty", "no words", "record", len(text), "", "", "")))
     yield from _read_paths(run, settings, role, ledger)
+
+
+def _is_table(items: object) -> bool:
+    """A DataFrame, a pyarrow Table or `Records`: rows, not a list of inputs."""
+    if isinstance(items, Records):
+        return True
+    module = type(items).__module__.split(".")[0]
+    return module in ("pandas", "pyarrow") and (hasattr(items, "columns") or hasattr(items, "to_batches"))
+
+
+def _read_rows(
+    records: Records, settings: CheckSettings, role: str, ledger: list[tuple[str, LedgerEntry]]
+) -> Iterator[tuple[str, str]]:
+    """The rows of a table, each a text with its ledger entry (as `dedup.audit` reads them)."""
+    entries: list[LedgerEntry] = []
+    taken = 0
+    for doc in records.documents(entries, ReadOptions(max_text_chars=settings.max_text_chars)):
+        ledger.extend((role, e) for e in entries[taken:])
+        taken = len(entries)
+        if _has_words(doc.text):
+            yield doc.id, doc.text
+        else:
+            entries[-1].status, entries[-1].reason = "empty", "no words"
+    ledger.extend((role, e) for e in entries[taken:])
 
 
 def _read_paths(

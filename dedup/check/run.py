@@ -112,9 +112,10 @@ def check(
 
     Parameters
     ----------
-    submissions : iterable of path or (id, text)
-        The students' texts: files, folders, archives, records files, or pairs in memory.
-    against : iterable of path or (id, text)
+    submissions : iterable of path or (id, text), or a table
+        The students' texts: files, folders, archives, records files, or pairs in memory;
+        or a pandas DataFrame / pyarrow Table with ``id`` and ``text`` columns.
+    against : iterable of path or (id, text), or a table
         Reference material; read as a stream (only candidate references are kept).
     against_index : str, optional
         An index file (`dedup.Index`) whose texts are references too, in their stored

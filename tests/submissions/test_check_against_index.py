@@ -62,3 +62,19 @@ def test_a_file_that_is_not_an_index_is_a_clear_error(small_class, tmp_path):
     fake.write_text("not an index", encoding="utf-8")
     with pytest.raises(IndexFileError):
         check([str(subs)], settings=SETTINGS, against_index=str(fake))
+
+
+def test_tables_give_the_same_check_as_files(small_class):
+    pd = pytest.importorskip("pandas")
+    subs, refs, texts = small_class
+    from_files = check([str(subs)], against=[str(refs)], settings=SETTINGS)
+    frame = pd.DataFrame({"id": list(texts), "text": list(texts.values())})
+    references = pd.DataFrame(
+        {
+            "id": [p.name for p in sorted(refs.iterdir())],
+            "text": [p.read_text() for p in sorted(refs.iterdir())],
+        }
+    )
+    from_tables = check(frame, against=references, settings=SETTINGS)
+    assert _by_submission(from_tables) == _by_submission(from_files)
+    assert {e["format"] for e in from_tables.ledger} == {"record"}
