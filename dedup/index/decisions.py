@@ -38,13 +38,13 @@ members no decision covers) and ``changed`` (members whose text changed since).
 from __future__ import annotations
 
 import json
+import re
 import sqlite3
 from collections import Counter
 from dataclasses import dataclass
-from datetime import datetime, timezone
 from typing import TYPE_CHECKING
 
-from .decisions_file import validate_decisions
+from .decisions_file import nesting_problem, place, utc_time, validate_decisions
 from .store import Index, utc_now
 
 if TYPE_CHECKING:
@@ -61,25 +61,44 @@ class DecisionsFileError(ValueError):
 
 
 def load_decisions_file(path: str) -> dict:
-    """Read and validate a decisions file; the error names the first problems."""
+    """Read and validate a decisions file.
+
+    Raises
+    ------
+    DecisionsFileError
+        In one line naming the file, where (``decision 3``, or a line and column) and
+        the first problems: it cannot be read, is not UTF-8, nests too deep, is not JSON,
+        or does not follow the schema (`dedup.index.decisions_file.validate_decisions`).
+
+    Notes
+    -----
+    Cost O(file size): one scan for the nesting depth, the parse, the validation.
+    """
     try:
-        with open(path, encoding="utf-8") as handle:
-            data = json.load(handle)
+        with open(path, encoding="utf-8-sig") as handle:  # a byte order mark is left out (RFC 8259 8.1)
+            text = handle.read()
     except OSError as err:
         raise DecisionsFileError(f"cannot read {path}: {err.strerror}") from err
-    except (UnicodeDecodeError, json.JSONDecodeError) as err:
+    except UnicodeDecodeError as err:
+        raise DecisionsFileError(f"{path} is not a JSON file: byte {err.start + 1} is not UTF-8") from err
+    deep = nesting_problem(text)
+    if deep:
+        raise DecisionsFileError(f"{path} is not a decisions file: {deep}")
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as err:
         raise DecisionsFileError(f"{path} is not a JSON file: {err}") from err
+    except ValueError as err:  # a whole number of more digits than Python converts (4,300)
+        long = re.search("[0-9]{1000,}", text)
+        where = f" at {place(text, long.start())}" if long else ""
+        raise DecisionsFileError(
+            f"{path} is not a decisions file: a number{where} is too long to read"
+        ) from err
     problems = validate_decisions(data)
     if problems:
         more = f" (and {len(problems) - 3} more)" if len(problems) > 3 else ""
         raise DecisionsFileError(f"{path} is not a decisions file: {'; '.join(problems[:3])}{more}")
     return data
-
-
-def _utc(text: str) -> str:
-    """An ISO 8601 time as UTC ``YYYY-MM-DDTHH:MM:SS.ffffffZ``, so that times compare as text."""
-    parsed = datetime.fromisoformat(text.replace("Z", "+00:00"))
-    return parsed.astimezone(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 
 
 def import_decisions(index: Index, data: dict) -> dict:
@@ -118,7 +137,7 @@ def import_decisions(index: Index, data: dict) -> dict:
                 data["audit_id"],
                 d.get("decision"),
                 d["comment"],
-                _utc(d["decided_at"]),
+                utc_time(d["decided_at"]),
                 imported_at,
                 json.dumps(documents, ensure_ascii=False),
             )

@@ -45,6 +45,7 @@ from ..normalize.boilerplate import Boilerplate
 from ..progress import Progress
 from ..settings import AuditSettings
 from . import schema
+from .damage import StoredValueError
 from .postings import refresh_statistics
 from .store import Index, IndexFileError, open_index, read_keys, utc_now
 from .templates import CorpusLines, TemplateRule, changed_lines, load_templates, store_templates
@@ -110,9 +111,19 @@ class RunSummary:
 
 
 def index_paths(index: Index) -> list[str]:
-    """The paths the last run read (absolute), for an update given no paths."""
-    row = index.connection.execute("SELECT roots FROM runs ORDER BY run DESC LIMIT 1").fetchone()
-    return json.loads(row[0]) if row else []
+    """The paths the last run read (absolute), for an update given no paths.
+
+    Raises
+    ------
+    IndexFileError
+        The stored list does not read back (a damaged index).
+    """
+    with index.guard():
+        row = index.connection.execute("SELECT roots FROM runs ORDER BY run DESC LIMIT 1").fetchone()
+        roots = json.loads(row[0]) if row else []
+        if not isinstance(roots, list) or not all(isinstance(root, str) for root in roots):
+            raise StoredValueError("the paths of its last run are not a list of paths")
+    return roots
 
 
 def _batches(documents: Iterable) -> Iterator[list]:

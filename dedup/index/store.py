@@ -9,9 +9,14 @@ leaves the file as it was before that write or as it is after it, never in betwe
 What is refused, with a one-line `IndexFileError` (the command line exits with code 2):
 a path that is not an SQLite file, an SQLite file of another program, a file written by
 a newer dedup (higher schema version), a damaged file, and settings that would mix
-sketches built differently (`IndexSettingsError`). A file of an older version is
-migrated when opened (`dedup.index.schema.MIGRATIONS`); a search of an index whose
-sketches a migration left to be made again names the command that makes them.
+sketches built differently (`IndexSettingsError`). A damaged file is one whose pages
+SQLite cannot read, whose settings row or schema version does not read back
+(`dedup.index.damage.stored_settings`, checked when it is opened), or whose stored JSON
+or blobs do not decode; every write transaction first runs SQLite's integrity check
+(`dedup.index.damage.page_problems`) and writes nothing into a file that fails it.
+Damage is never repaired in place: the message says to build a new index. A file of an
+older version is migrated when opened (`dedup.index.schema.MIGRATIONS`); a search of an
+index whose sketches a migration left to be made again names the command that makes them.
 """
 
 from __future__ import annotations
@@ -21,6 +26,7 @@ import dataclasses
 import inspect
 import json
 import os
+import re
 import sqlite3
 import time
 from collections.abc import Iterator
@@ -30,6 +36,7 @@ from .. import __version__
 from ..settings import AuditSettings
 from . import schema
 from .blobs import BlobError
+from .damage import StoredValueError, page_problems, stored_settings
 
 __all__ = [
     "Index",
@@ -67,6 +74,8 @@ TEMPLATE_KEYS = (
 PAGE_SIZE = 16384
 # How long a writer waits for another writer to finish before giving up.
 BUSY_SECONDS = 600.0
+# What a message about a damaged index tells to do (the file is never repaired in place).
+REBUILD = "move it aside and build a new index with 'dedup index build'"
 
 
 class IndexFileError(Exception):
@@ -134,11 +143,17 @@ class Index:
         """One write transaction: all of it is committed, or none of it.
 
         ``BEGIN IMMEDIATE`` takes the write lock at once (waiting up to `BUSY_SECONDS`
-        for another writer), so two updates never interleave.
+        for another writer), so two updates never interleave. Under the lock, SQLite's
+        integrity check runs first (`dedup.index.damage.page_problems`: one read of the
+        file, 0.1 to 0.7 s for 20,000 documents); a damaged file is refused with nothing
+        written.
         """
         with self.guard():
             self.connection.execute("BEGIN IMMEDIATE")
             try:
+                problems = page_problems(self.connection)
+                if problems:
+                    raise IndexFileError(self.damaged("; ".join(problems) + "; nothing was written to it"))
                 yield self.connection
             except BaseException:
                 self.connection.execute("ROLLBACK")
@@ -157,7 +172,8 @@ class Index:
 
     @contextlib.contextmanager
     def guard(self) -> Iterator[None]:
-        """Turn SQLite's errors (and blobs that do not decode) into one-line `IndexFileError` messages."""
+        """Turn SQLite's errors, and stored values that do not decode (blobs, JSON, the settings
+        row), into one-line `IndexFileError` messages."""
         try:
             yield
         except sqlite3.OperationalError as err:
@@ -166,9 +182,17 @@ class Index:
                 raise IndexBusyError(
                     f"the index {self.path} is being written by another process; try again when it is done"
                 ) from err
-            raise IndexFileError(f"cannot use the index {self.path}: {text}") from err
-        except (sqlite3.DatabaseError, BlobError) as err:
-            raise IndexFileError(f"the index {self.path} is damaged: {err}") from err
+            if text.startswith("Could not decode"):  # the text would follow: it is not UTF-8
+                raise IndexFileError(self.damaged("a stored text is not UTF-8")) from err
+            raise IndexFileError(f"cannot use the index {self.path}: {_one_line(text)}") from err
+        except (sqlite3.DatabaseError, BlobError, StoredValueError) as err:
+            raise IndexFileError(self.damaged(_one_line(str(err)))) from err
+        except json.JSONDecodeError as err:
+            raise IndexFileError(self.damaged(f"a stored JSON value does not parse ({err})")) from err
+
+    def damaged(self, detail: str) -> str:
+        """The message for a damaged index: what is wrong and what to do."""
+        return f"the index {self.path} is damaged: {detail}; {REBUILD}"
 
     # -- what the index is --------------------------------------------------------------
     def meta(self, key: str) -> str | None:
@@ -177,22 +201,26 @@ class Index:
 
     @property
     def settings(self) -> AuditSettings:
-        """The settings the index was built with (others at their defaults)."""
-        with self.guard():
-            stored = json.loads(self.meta("settings") or "{}")
-        known = {f.name for f in dataclasses.fields(AuditSettings)}
-        values = {k: tuple(v) if isinstance(v, list) else v for k, v in stored.items() if k in known}
-        return AuditSettings().replace(**values)
+        """The settings the index was built with (others at their defaults).
 
-    def check_settings(self, settings: AuditSettings) -> None:
-        """Refuse settings whose sketches could not be compared with the stored ones.
+        Raises
+        ------
+        IndexFileError
+            The settings row is missing or does not read back (`dedup.index.damage.stored_settings`).
+        """
+        with self.guard():
+            return stored_settings(self.meta("settings"), SKETCH_KEYS)
+
+    def check_settings(self, settings: AuditSettings, stored: AuditSettings | None = None) -> None:
+        """Refuse settings whose sketches could not be compared with the stored ones
+        (``stored``: the index's settings, when already read).
 
         Raises
         ------
         IndexSettingsError
             Naming every setting that differs, with both values.
         """
-        stored, given = _index_settings(self.settings), _index_settings(settings)
+        stored, given = _index_settings(stored or self.settings), _index_settings(settings)
         differ = [key for key in SKETCH_KEYS if stored[key] != given[key]]
         if differ:
             words = ", ".join(f"{key} {stored[key]!r} (given {given[key]!r})" for key in differ)
@@ -223,6 +251,12 @@ class Index:
                 f"the index {self.path} has no sketches yet ({reason}): run 'dedup index update' once "
                 "to read and sketch its documents again"
             )
+
+
+def _one_line(text: str, limit: int = 300) -> str:
+    """An error's text on one line and not too long (SQLite quotes stored values in some)."""
+    text = " ".join(text.split())
+    return text if len(text) <= limit else text[: limit - 1] + "…"
 
 
 def _connect(path: str) -> sqlite3.Connection:
@@ -264,8 +298,8 @@ def _check_ours(index: Index) -> int:
     if app_id != schema.APPLICATION_ID or not has_meta.fetchone()[0] or index.meta("format") != schema.FORMAT:
         raise IndexFileError(f"{index.path} is an SQLite file but not a dedup index")
     version = index.meta("schema_version")
-    if version is None or not version.isdigit():
-        raise IndexFileError(f"the index {index.path} is damaged: it has no schema version")
+    if version is None or not re.fullmatch("[0-9]{1,9}", version):
+        raise IndexFileError(index.damaged("it has no schema version"))
     return int(version)
 
 
@@ -360,5 +394,6 @@ def _prepare(index: Index, settings: AuditSettings | None, create: bool) -> None
         )
     if version < schema.SCHEMA_VERSION:
         _migrate(index, version)
+    stored = index.settings  # refuses a settings row that does not read back
     if settings is not None:
-        index.check_settings(settings)
+        index.check_settings(settings, stored)
