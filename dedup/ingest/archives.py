@@ -11,8 +11,10 @@ library reads that whole list before the first member, so the list is counted fi
 before it is opened.
 
 Tar archives are read as a stream (``.tar``, ``.tar.gz``/``.tgz``, ``.tar.bz2``,
-``.tar.xz``): the decompressor is ours, so every byte it produces is counted before
-the tar reader sees it, pax headers included.
+``.tar.xz``, and ``.tar.zst`` with the ``zstandard`` package): the decompressor is ours,
+so every byte it produces is counted before the tar reader sees it, pax headers
+included. A single compressed file that is not an archive (``notes.txt.gz``) is read
+by `dedup.ingest.compressed`.
 """
 
 from __future__ import annotations
@@ -32,10 +34,11 @@ from dataclasses import dataclass
 from typing import BinaryIO
 
 from .budget import ExpansionBudget, ExpansionExceeded
+from .compressed import decompressing
 from .filters import clean_name
 from .options import ReadOptions
 
-__all__ = ["Member", "iter_zip", "iter_tar", "unsafe_path", "read_bounded"]
+__all__ = ["Member", "iter_zip", "iter_tar", "unsafe_path", "read_bounded", "Counted"]
 
 _CHUNK = 1 << 16
 _DRIVE = re.compile(r"^[A-Za-z]:")
@@ -247,7 +250,7 @@ def iter_zip(
             yield member
 
 
-class _Counted(io.RawIOBase):
+class Counted(io.RawIOBase):
     """A read-only stream that counts every byte against the budget as it is read."""
 
     def __init__(self, raw: BinaryIO, budget: ExpansionBudget) -> None:
@@ -277,6 +280,8 @@ def _decompressed(handle: BinaryIO) -> BinaryIO:
         return bz2.BZ2File(handle)
     if magic.startswith(b"\xfd7zXZ\x00"):
         return lzma.LZMAFile(handle)
+    if magic.startswith(b"\x28\xb5\x2f\xfd"):  # zstd: needs the zstandard package
+        return decompressing(handle, ".zst")
     return handle
 
 
@@ -304,7 +309,7 @@ def iter_tar(
     try:
         # Stream mode reads the members in order and never seeks; closing it is not
         # needed (it owns no file) and the generator may stop between members.
-        archive = tarfile.open(fileobj=_Counted(_decompressed(handle), budget), mode="r|")  # noqa: SIM115
+        archive = tarfile.open(fileobj=Counted(_decompressed(handle), budget), mode="r|")  # noqa: SIM115
         seen: dict[str, int] = {}
         for info in archive:
             if info.isdir():

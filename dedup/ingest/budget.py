@@ -1,8 +1,9 @@
 """How much an input may cost: archive expansion (zip bombs) and readers' work.
 
-An archive gets an allowance of uncompressed bytes: ``max_archive_ratio`` times its own
-size (at least `ARCHIVE_RATIO_FLOOR`, so that a tiny archive of repetitive text still
-opens), and never more than ``max_archive_bytes``. An archive nested inside another
+An archive, or a single compressed file (``.gz``, ``.bz2``, ``.xz``, ``.zst``), gets an
+allowance of uncompressed bytes: ``max_archive_ratio`` times its own size (at least
+`ARCHIVE_RATIO_FLOOR`, so that a tiny archive of repetitive text still opens), and
+never more than ``max_archive_bytes``. An archive nested inside another
 draws from both its own allowance and its parent's, so nesting cannot multiply the
 total. Every byte that comes out of a decompressor is counted, not the sizes an
 archive declares, because a hostile archive declares whatever it likes.
@@ -54,8 +55,9 @@ class MemberTally:
 
 
 class ExpansionBudget:
-    """Uncompressed bytes an archive (and the archives inside it) may still produce, and
-    the members it may still hold (its own ``max_archive_members``, and the run's tally)."""
+    """Uncompressed bytes an archive (and the archives inside it) or a compressed file may
+    still produce, and the members it may still hold (its own ``max_archive_members``,
+    and the run's tally)."""
 
     def __init__(
         self,
@@ -63,8 +65,10 @@ class ExpansionBudget:
         opts: ReadOptions,
         parent: ExpansionBudget | None = None,
         tally: MemberTally | None = None,
+        bomb: str = "a zip bomb?",
     ):
         self.opts = opts
+        self.bomb = bomb  # what an input that expands beyond its ratio may be, in the reason
         self.parent = parent
         self.members = 0
         if tally is None:
@@ -87,7 +91,7 @@ class ExpansionBudget:
         if self._by_ratio:
             return (
                 f"it would expand beyond {self.opts.max_archive_ratio:g} times its size "
-                f"({self.allowed:,} bytes; a zip bomb?) (raise --max-archive-ratio)"
+                f"({self.allowed:,} bytes; {self.bomb}) (raise --max-archive-ratio)"
             )
         return f"it would expand beyond {self.allowed:,} bytes (raise --max-archive-bytes)"
 

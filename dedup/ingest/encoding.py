@@ -4,12 +4,21 @@ The order matters. A byte-order mark is certain; UTF-16 and UTF-32 text without 
 recognised by its pattern of NUL bytes (Latin-script text in them has a NUL in every
 second or every three of four bytes); other NUL bytes mean binary data. UTF-8 is tried
 next: text that decodes as UTF-8 almost never is anything else. A charset the file
-declares itself (HTML ``<meta charset>``) comes after that, and only then a statistical
-guess (charset-normalizer, part of the ``dedup[docs]`` extra) for legacy single-byte
-encodings such as cp1252 or koi8-r. The guess needs some text to go on, so very short
-files that are not UTF-8 are skipped rather than decoded wrongly; a guess is recorded as
-one (the ledger's encoding reads ``guessed cp1251``), and a guess that its close rivals
-contradict is not used (see `_guess`): the file is skipped with the reason.
+declares itself (HTML ``<meta charset>``) comes after that, and only then a guess.
+
+The guess first reads the bytes in each single-byte legacy encoding (windows-1252 and
+ISO-8859-1/15 for Western Europe, windows-1250 and ISO-8859-2 for Central Europe,
+windows-1251, KOI8-R/U, ISO-8859-5 and DOS 866 for Cyrillic, Greek, Turkish, Baltic,
+Hebrew, Arabic) and keeps the reading whose non-ASCII characters are the letters of one
+language, in words cased as text is (`dedup.ingest.legacy`; no extra package needed).
+When no reading fits well enough (`TRUSTED_READING`), as for the multi-byte encodings
+of East Asian text, the statistical detector charset-normalizer (part of the
+``dedup[docs]`` extra) is asked. Either guess needs some text to go on, so very short
+files that are not UTF-8 are skipped rather than decoded wrongly, and so are UTF-8 files
+with a few bad bytes (`damaged_utf8`: no legacy encoding reads them right); a guess is recorded as
+one (the ledger's encoding reads ``guessed cp1252``), never as a certainty, and a
+detector's guess that its close rivals contradict is not used (see `_detected`): the
+file is skipped with the reason.
 
 Whatever decoded, text full of control characters is binary data with a text name.
 """
@@ -20,7 +29,9 @@ import codecs
 import importlib
 import re
 
-__all__ = ["decode_text", "MIN_DETECT_BYTES", "GUESSED"]
+from .legacy import readings
+
+__all__ = ["decode_text", "damaged_utf8", "MIN_DETECT_BYTES", "GUESSED", "TRUSTED_READING"]
 
 _BOMS = (
     (codecs.BOM_UTF32_LE, "utf-32-le"),
@@ -39,8 +50,13 @@ _SAMPLE = 65536
 _NEAR_CHAOS = 0.05
 _NEAR_COHERENCE = 0.1
 _AGREEMENT = 0.9
-# The ledger's encoding of a text decoded by a statistical guess: "guessed cp1251".
+# The ledger's encoding of a text decoded by a guess: "guessed cp1251".
 GUESSED = "guessed "
+# A single-byte reading is used when at least this share of its non-ASCII characters
+# reads as one language's text (`dedup.ingest.legacy.score`). Real text scores 0.95-1
+# in its own encoding (0.8 at worst on manual pages in 20 languages, with markup left
+# in); East Asian multi-byte text read byte by byte scores below 0.7.
+TRUSTED_READING = 0.85
 # Control characters, less those that real text does contain: backspace (overstruck
 # manual pages), tab, line ends (NEL too), vertical tab, form feed, escape (coloured logs).
 _CONTROLS = re.compile("[\x00-\x07\x0e-\x1a\x1c-\x1f\x7f-\x84\x86-\x9f]")
@@ -115,6 +131,30 @@ def _control_problem(text: str, encoding: str, skip: int, utf8: bytes | None = N
     return f"binary data: control character 0x{ord(first.group()):02x} at offset {offset}"
 
 
+# A character of two to four bytes in UTF-8 (RFC 3629, section 4, less overlong forms).
+_UTF8_SEQUENCE = re.compile(rb"[\xc2-\xdf][\x80-\xbf]|[\xe0-\xef][\x80-\xbf]{2}|[\xf0-\xf4][\x80-\xbf]{3}")
+_HIGH_BYTES = re.compile(rb"[\x80-\xff]")
+
+
+def damaged_utf8(data: bytes) -> bool:
+    """True when at least 95% of the bytes beyond ASCII (in the first 64 KB from the first
+    of them) form UTF-8 characters: UTF-8 text with a few bad bytes, which a single-byte
+    reading would turn into "Ã©" (a legacy encoding seldom puts its bytes in such
+    sequences: East Asian multi-byte text in EUC-JP does, about half of them). Cost: two
+    regular-expression scans of 64 KB.
+
+    >>> damaged_utf8("café, thé, crème ".encode() * 5 + bytes([255])), damaged_utf8("café".encode("cp1252") * 9)
+    (True, False)
+    """
+    first = _HIGH_BYTES.search(data)
+    if first is None:
+        return False
+    sample = data[first.start() : first.start() + _SAMPLE]
+    high = len(_HIGH_BYTES.findall(sample))
+    in_sequences = sum(len(seq) for seq in _UTF8_SEQUENCE.findall(sample))
+    return (high - in_sequences) * 20 <= high
+
+
 def _codec_name(name: str) -> str | None:
     try:
         return codecs.lookup(name).name
@@ -123,17 +163,28 @@ def _codec_name(name: str) -> str | None:
 
 
 def _guess(data: bytes) -> tuple[str | None, str]:
+    """``(encoding, doubt)``: the single-byte encoding whose reading fits (see the
+    module's notes), else the one charset-normalizer guesses and trusts, else None and
+    why not (``doubt``). Raises ImportError when the detector is needed and missing.
+    Cost: `readings` (a few milliseconds for 64 KB), and the detector only for text that
+    no single-byte encoding reads well.
+    """
+    found = readings(data)
+    if found and found[0].score >= TRUSTED_READING:
+        return found[0].encoding, ""
+    return _detected(data)
+
+
+def _detected(data: bytes) -> tuple[str | None, str]:
     """``(encoding, doubt)``: the encoding charset-normalizer guesses and trusts, or None
     and why not (``doubt``).
 
-    A single-byte guess is often a near tie: French windows-1252 comes out as cp775
-    ("Rķsumķ") as readily as windows-1252. So the guess is trusted only when every
-    encoding rated about as likely (`_NEAR_CHAOS`, `_NEAR_COHERENCE`) reads the sample
-    the same way on at least `_AGREEMENT` of its non-ASCII characters. When they
-    disagree and windows-1252 is among them, windows-1252 wins: the WHATWG Encoding
-    Standard's legacy default for Western text (https://encoding.spec.whatwg.org/#names-and-labels).
-    Otherwise there is no trusted guess. Cost: the detector, plus one decoding of a
-    64 KB sample per close candidate.
+    Asked only for bytes that no single-byte encoding reads as text (East Asian
+    multi-byte encodings, mostly), whose readings the detector often rates as a near
+    tie. So the guess is trusted only when every encoding rated about as likely
+    (`_NEAR_CHAOS`, `_NEAR_COHERENCE`) reads the sample the same way on at least
+    `_AGREEMENT` of its non-ASCII characters; otherwise there is no trusted guess.
+    Cost: the detector, plus one decoding of a 64 KB sample per close candidate.
     """
     detector = importlib.import_module("charset_normalizer")
     matches = list(detector.from_bytes(data))
@@ -153,8 +204,6 @@ def _guess(data: bytes) -> tuple[str | None, str]:
     rivals = [name for name in names[1:] if _agreement(first, _strict(sample, name) or "") < _AGREEMENT]
     if not rivals:
         return names[0], ""
-    if "cp1252" in names and _strict(data, "cp1252") is not None:
-        return "cp1252", ""
     return (
         None,
         f"its encoding cannot be told with confidence ({names[0]} and {rivals[0]} read it differently)",
@@ -247,6 +296,8 @@ def decode_text(data: bytes, *, declared: str | None = None) -> tuple[str | None
             return _checked(text, codec)
     if len(data) < MIN_DETECT_BYTES:
         return None, "", f"{not_utf8} (too short to detect its encoding)"
+    if damaged_utf8(data):
+        return None, "", f"{not_utf8} (its other bytes read as UTF-8: a damaged UTF-8 file?)"
     try:
         guessed, doubt = _guess(data)
     except ImportError:

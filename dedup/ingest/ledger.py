@@ -9,8 +9,8 @@ one entry with a status:
     empty      it was read but has no text (after normalization)
     skipped    it was not read; ``reason`` says why in words a person understands
     refused    it was not read because reading it would be unsafe: an archive member
-               with a path outside the archive, or an archive that would expand
-               beyond its limits
+               with a path outside the archive, or an archive or compressed file that
+               would expand beyond its limits
 """
 
 from __future__ import annotations

@@ -50,14 +50,20 @@ class ReadOptions:
     max_file_bytes : int
         Largest file (or archive member) read into memory; larger ones are skipped.
         Archives and Parquet files on disk are streamed, so for them the archive
-        limits below apply instead.
+        limits below apply instead. Record files (JSONL, CSV, TSV) larger than this,
+        or compressed, are read a record at a time: the limit then applies to each
+        record (a longer one is skipped with the reason), not to the file. A single
+        compressed file (``.gz``, ``.bz2``, ``.xz``, ``.zst``) of another format may
+        hold at most this many bytes once decompressed.
     max_text_chars : int
         Longest text kept per document; longer texts are cut and marked "truncated".
     max_archive_ratio : float
-        An archive may expand to at most this many times its own size (and at least
-        `ARCHIVE_RATIO_FLOOR` bytes, so tiny archives of repetitive text still open).
+        An archive or compressed file may expand to at most this many times its own
+        size (and at least `ARCHIVE_RATIO_FLOOR` bytes, so tiny archives of repetitive
+        text still open).
     max_archive_bytes : int
-        An archive, with the archives nested in it, may expand to at most this many bytes.
+        An archive, with the archives nested in it, or a compressed file may expand to
+        at most this many bytes.
     html_keep_all : bool
         Keep the text of navigation, headers, footers and asides of HTML pages too
         (scripts and styles are never text).

@@ -6,6 +6,12 @@ caller), texts longer than the limit are cut and marked "truncated", texts witho
 any non-space character are marked "empty", and text the output files could not hold
 (lone surrogates from JSON escapes) is repaired. Archives hand each member back to
 `read_bytes`, so a member is read exactly like a file.
+
+A name that ends in a compression suffix after a known format (``corpus.jsonl.gz``,
+``notes.txt.zst``: `format_and_compression`) is read in that format through the
+decompressor (`dedup.ingest.compressed`), on disk or as an archive member. Record
+files (JSONL, CSV, TSV) that are compressed or larger than ``max_file_bytes`` are read
+a record at a time (`dedup.ingest.record_stream`), Parquet a batch of rows at a time.
 """
 
 from __future__ import annotations
@@ -14,11 +20,12 @@ import io
 from collections.abc import Callable, Iterator, Sequence
 from typing import BinaryIO
 
-from .archives import Member, iter_tar, iter_zip
-from .budget import ExpansionBudget, MemberTally, TooCostly, WorkBudget
+from .archives import Counted, Member, iter_tar, iter_zip, read_bounded
+from .budget import ExpansionBudget, ExpansionExceeded, MemberTally, TooCostly, WorkBudget
 from .columnar import read_parquet
+from .compressed import COMPRESSIONS, compressed_format, damage, decompressing, unsupported_compressed
 from .document import Item, Outcome, RawDocument
-from .encoding import decode_text
+from .encoding import damaged_utf8, decode_text
 from .filters import member_reason
 from .html_text import declared_charset, html_to_text
 from .ledger import LedgerEntry
@@ -28,6 +35,7 @@ from .office import read_docx, read_odt
 from .optional import MissingParser
 from .options import ReadOptions
 from .pdf import read_pdf
+from .record_stream import STREAMED_RECORD_FORMATS, stream_records
 from .records import csv_records, json_records, jsonl_records, record_outcomes
 
 __all__ = [
@@ -35,7 +43,9 @@ __all__ = [
     "FORMATS",
     "ARCHIVE_FORMATS",
     "STREAMED_FORMATS",
+    "STREAMED_RECORD_FORMATS",
     "format_of",
+    "format_and_compression",
     "decode_text",
     "read_bytes",
     "read_stream",
@@ -47,9 +57,11 @@ FORMATS = {
     ".tar.gz": "tar.gz",
     ".tar.bz2": "tar.bz2",
     ".tar.xz": "tar.xz",
+    ".tar.zst": "tar.zst",
     ".tgz": "tar.gz",
     ".tbz2": "tar.bz2",
     ".txz": "tar.xz",
+    ".tzst": "tar.zst",
     ".tar": "tar",
     ".zip": "zip",
     ".txt": "text",
@@ -75,7 +87,7 @@ FORMATS = {
     ".tsv": "tsv",
     ".parquet": "parquet",
 }
-ARCHIVE_FORMATS = frozenset({"zip", "tar", "tar.gz", "tar.bz2", "tar.xz"})
+ARCHIVE_FORMATS = frozenset({"zip", "tar", "tar.gz", "tar.bz2", "tar.xz", "tar.zst"})
 # Read from an open file on disk rather than loaded whole: their size is bounded by the
 # archive limits (or, for Parquet, read a batch of rows at a time).
 STREAMED_FORMATS = ARCHIVE_FORMATS | {"parquet"}
@@ -124,6 +136,21 @@ def _one_line(err: BaseException) -> str:
     return (" ".join(str(err).split()) or type(err).__name__)[:200]
 
 
+def format_and_compression(path: str) -> tuple[str | None, str]:
+    """``(format, compression suffix)``: `format_of` the name, or of the name without a
+    compression suffix (``.gz``, ``.bz2``, ``.xz``, ``.zst``) with the suffix; ``(None, "")``
+    when we have no reader for it.
+
+    >>> format_and_compression("corpus.jsonl.gz"), format_and_compression("notes.txt")
+    (('jsonl', '.gz'), ('text', ''))
+    """
+    fmt = format_of(path)
+    if fmt is not None:
+        return fmt, ""
+    found = compressed_format(path, format_of)
+    return found if found is not None else (None, "")
+
+
 # -- formats ------------------------------------------------------------------------------
 def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
     declared = declared_charset(data) if item.format == "html" else None
@@ -147,6 +174,10 @@ def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
 
 def _read_records(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
     text, encoding, problem = decode_text(data)
+    if text is None and item.format in STREAMED_RECORD_FORMATS and damaged_utf8(data):
+        # UTF-8 with a few bad bytes: read line by line, a bad line skipped with its reason.
+        yield from stream_records(io.BytesIO(data), item, opts)
+        return
     if text is None:
         yield None, item.entry("skipped", problem, encoding=encoding)
         return
@@ -181,13 +212,14 @@ def _screen(item: Item, opts: ReadOptions) -> Callable[[str], tuple[str, str] | 
 
     def screen(name: str) -> tuple[str, str] | None:
         member_id = f"{item.id}!/{name}"
-        fmt = format_of(name)
+        fmt, _ = format_and_compression(name)
         reason = member_reason(member_id, name, opts, container=fmt in ARCHIVE_FORMATS)
         if reason:
             return "skipped", reason
         if fmt is None:
-            ext = "." + name.rsplit(".", 1)[-1] if "." in name.rsplit("/", 1)[-1] else "(no extension)"
-            return "skipped", f"unsupported file type {ext}"
+            base = name.rsplit("/", 1)[-1]
+            ext = "." + name.rsplit(".", 1)[-1] if "." in base else "(no extension)"
+            return "skipped", unsupported_compressed(base) or f"unsupported file type {ext}"
         if fmt in ARCHIVE_FORMATS and item.depth + 1 > MAX_NESTING:
             return "skipped", "archive inside a nested archive: not opened (one level of nesting is read)"
         return None
@@ -213,18 +245,62 @@ def _read_archive(
             yield None, item.entry(member.status, member.reason)
             continue
         member_id = f"{item.id}!/{member.name}"
-        child = Item(
-            member_id, member_id, format_of(member.name) or "", member.size or 0, member.mtime, item.depth + 1
-        )
+        fmt, compression = format_and_compression(member.name)
+        child = Item(member_id, member_id, fmt or "", member.size or 0, member.mtime, item.depth + 1)
         if member.status or member.data is None:
             yield (
                 None,
                 child.entry(member.status or "skipped", member.reason or "not read", record=member.copy),
             )
-            continue
-        yield from read_bytes(member.data, child, opts, budget=budget)
+        elif compression:
+            handle = io.BytesIO(member.data)
+            yield from _guarded(_read_compressed(handle, child, compression, opts, budget), child, opts)
+        else:
+            yield from read_bytes(member.data, child, opts, budget=budget)
     if accounted == 0:
         yield None, item.entry("empty", "the archive holds no files")
+
+
+# -- single compressed files -------------------------------------------------------------
+def _read_compressed(
+    handle: BinaryIO,
+    item: Item,
+    suffix: str,
+    opts: ReadOptions,
+    budget: ExpansionBudget | None,
+    tally: MemberTally | None = None,
+) -> Iterator[Outcome]:
+    """Outcomes of one compressed file (see `dedup.ingest.compressed`): record files a
+    record at a time, others read whole up to ``max_file_bytes`` once decompressed.
+    ``budget`` is the enclosing archive's, for an archive member."""
+    budget = (
+        ExpansionBudget(item.size, opts, tally=tally, bomb="a compression bomb?")
+        if budget is None
+        else budget.child(item.size)
+    )
+    produced = 0
+    try:
+        stream = Counted(decompressing(handle, suffix), budget)
+        if item.format in STREAMED_RECORD_FORMATS:
+            for outcome in stream_records(stream, item, opts):
+                produced += 1
+                yield outcome
+            return
+        data = read_bounded(stream, opts.max_file_bytes)
+    except ExpansionExceeded as err:
+        yield None, item.entry("refused", f"{'rest of the file ' if produced else ''}not read: {err}")
+        return
+    except Exception as err:  # the decompressors' complaints; a parser's errors go on up
+        if not damage(err):
+            raise
+        reason = f"damaged {COMPRESSIONS[suffix]} file: {_one_line(err)}"
+        yield None, item.entry("skipped", reason + ("; rest of the file not read" if produced else ""))
+        return
+    if len(data) > opts.max_file_bytes:
+        reason = f"file too large: more than {opts.max_file_bytes} bytes once decompressed (raise --max-file-bytes)"
+        yield None, item.entry("skipped", reason)
+        return
+    yield from _BYTES_READERS[item.format](data, item._replace(size=len(data)), opts)
 
 
 # -- every format -------------------------------------------------------------------------
@@ -308,12 +384,23 @@ def read_bytes(
 
 
 def read_stream(
-    handle: BinaryIO, item: Item, opts: ReadOptions, tally: MemberTally | None = None
+    handle: BinaryIO,
+    item: Item,
+    opts: ReadOptions,
+    tally: MemberTally | None = None,
+    compression: str = "",
 ) -> Iterator[Outcome]:
-    """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`;
-    ``tally`` counts the archive members of the whole run (`MemberTally`)."""
-    if item.format == "parquet":
+    """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`, a
+    record file of `STREAMED_RECORD_FORMATS` (read a record at a time, whatever its
+    size), or a file compressed as ``compression`` says (``.gz`` ...: see
+    `dedup.ingest.compressed`); ``tally`` counts the archive members of the whole run
+    (`MemberTally`)."""
+    if compression:
+        yield from _guarded(_read_compressed(handle, item, compression, opts, None, tally), item, opts)
+    elif item.format == "parquet":
         yield from _guarded(read_parquet(handle, item, opts), item, opts)
+    elif item.format in STREAMED_RECORD_FORMATS:
+        yield from _guarded(stream_records(handle, item, opts), item, opts)
     else:
         yield from _guarded(_read_archive(handle, item, opts, None, tally), item, opts)
 

@@ -13,6 +13,10 @@ outputs, which are strict JSON, could not hold it.
 A broken record costs only itself where the format allows it (JSONL lines, CSV rows);
 in a JSON array, whose structure a broken item destroys, the rest of the file is
 recorded as not read.
+
+JSONL and CSV are also read a line at a time (`jsonl_line_records`, `csv_line_records`),
+for files too large to hold (`dedup.ingest.record_stream`), with the same labels and
+problems as the whole-text readers, which go through the same code.
 """
 
 from __future__ import annotations
@@ -23,11 +27,22 @@ import io
 import json
 import math
 from collections.abc import Iterable, Iterator, Sequence
+from typing import NamedTuple
 
 from .document import Item, Outcome
 from .options import ReadOptions
 
-__all__ = ["jsonl_records", "json_records", "csv_records", "record_outcomes", "join_fields"]
+__all__ = [
+    "jsonl_records",
+    "jsonl_line_records",
+    "json_records",
+    "csv_records",
+    "csv_line_records",
+    "record_outcomes",
+    "join_fields",
+    "Passed",
+    "Line",
+]
 
 Triple = tuple[str, dict | None, str]
 
@@ -66,23 +81,51 @@ def _not_object(label: str, value: object) -> str:
     return f"{label}: a JSON {kind}, not an object with fields"
 
 
+class Passed(NamedTuple):
+    """A line that a record reader could not take (too long, or not in the file's
+    encoding), with the reason and the double quotes it held (for CSV, whose rows may
+    span lines inside quotes)."""
+
+    reason: str
+    quotes: int = 0
+
+
+# A line of a record file: its text (with its line end), or why it was passed over.
+Line = str | Passed
+
+
+def _jsonl_line(number: int, line: str) -> Triple | None:
+    """The record of one JSON Lines line (without its line end); None for a blank line."""
+    if not line.strip():
+        return None
+    label = f"line {number}"
+    try:
+        value = _DECODER.decode(line)
+    except (ValueError, RecursionError) as err:
+        return label, None, f"{label}: {_json_problem(err)}"
+    return (label, value, "") if isinstance(value, dict) else (label, None, _not_object(label, value))
+
+
 def jsonl_records(text: str) -> Iterator[Triple]:
     """Records of a JSON Lines text; a broken line is a problem of that line only."""
     # Split on "\n" only: JSON strings may hold U+2028 and other characters that
     # str.splitlines would take for line ends.
     for number, line in enumerate(text.split("\n"), 1):
-        if not line.strip():
+        triple = _jsonl_line(number, line)
+        if triple is not None:
+            yield triple
+
+
+def jsonl_line_records(lines: Iterable[Line]) -> Iterator[Triple]:
+    """Records of JSON Lines given a line at a time (each ending in ``"\\n"`` but the
+    last), as `jsonl_records` reads them; a line passed over is a skipped record."""
+    for number, line in enumerate(lines, 1):
+        if isinstance(line, Passed):
+            yield f"line {number}", None, f"line {number}: {line.reason}"
             continue
-        label = f"line {number}"
-        try:
-            value = _DECODER.decode(line)
-        except (ValueError, RecursionError) as err:
-            yield label, None, f"{label}: {_json_problem(err)}"
-            continue
-        if isinstance(value, dict):
-            yield label, value, ""
-        else:
-            yield label, None, _not_object(label, value)
+        triple = _jsonl_line(number, line[:-1] if line.endswith("\n") else line)
+        if triple is not None:
+            yield triple
 
 
 def _skip_space(text: str, i: int) -> int:
@@ -148,37 +191,116 @@ def json_records(text: str) -> Iterator[Triple]:
         )
 
 
+class _RowTooLarge(Exception):
+    """The row being read is longer than the limit, or holds a line passed over."""
+
+    def __init__(self, reason: str) -> None:
+        super().__init__(reason)
+        self.reason = reason
+
+
+class _RowLines:
+    """The lines of a CSV text handed to `csv.reader`, counted: physical lines taken
+    (for the rows' labels), and characters and double quotes of the row being read, so
+    that a row longer than ``limit`` stops with `_RowTooLarge` and the rest of it can be
+    passed over (`skip_row`) without holding it. An iterator class, not a generator: it
+    goes on after raising."""
+
+    def __init__(self, lines: Iterable[Line], limit: int) -> None:
+        self._lines = iter(lines)
+        self.limit = limit
+        self.number = 0
+        self.chars = self.quotes = 0
+
+    def __iter__(self) -> _RowLines:
+        return self
+
+    def __next__(self) -> str:
+        line = next(self._lines)
+        self.number += 1
+        self.quotes += line.quotes if isinstance(line, Passed) else line.count('"')
+        if isinstance(line, Passed):
+            raise _RowTooLarge(line.reason)
+        self.chars += len(line)
+        if self.chars > self.limit:
+            # Characters are never more than the bytes that spell them.
+            raise _RowTooLarge(f"record too large: more than {self.limit:,} bytes (raise --max-file-bytes)")
+        return line
+
+    def start_row(self) -> None:
+        self.chars = self.quotes = 0
+
+    def skip_row(self) -> None:
+        """Pass the rest of a row: lines until its double quotes pair up (a quoted field
+        that spans lines is still open while their count is odd)."""
+        while self.quotes % 2:
+            line = next(self._lines, None)
+            if line is None:
+                return
+            self.number += 1
+            self.quotes += line.quotes if isinstance(line, Passed) else line.count('"')
+
+
 def csv_records(text: str, delimiter: str, text_fields: Sequence[str]) -> Iterator[Triple]:
     """Records of a CSV or TSV text with a header row."""
-    if csv.field_size_limit() < len(text) + 1:
-        csv.field_size_limit(min(len(text) + 1, _CSV_FIELD_CEILING))
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    return csv_line_records(io.StringIO(text, newline=""), delimiter, text_fields, len(text) + 1)
+
+
+def _csv_header(reader, lines: _RowLines, text_fields: Sequence[str]) -> tuple[list | None, str]:
+    """``(header, problem)`` of a CSV text: its first row, or None and why not."""
     try:
         header = next(reader)
     except StopIteration:
-        return
-    except csv.Error as err:
-        yield "", None, f"cannot read the header row: {err}"
-        return
+        return None, ""
+    except (csv.Error, _RowTooLarge) as err:
+        return None, f"cannot read the header row: {err}"
     if all(f not in header for f in text_fields):
         columns = ", ".join(header[:12]) + (" …" if len(header) > 12 else "")
         wanted = ", ".join(repr(f) for f in text_fields)
-        yield "", None, f"no column {wanted} (columns: {columns}); choose with --text-field"
+        return None, f"no column {wanted} (columns: {columns}); choose with --text-field"
+    return header, ""
+
+
+def csv_line_records(
+    lines: Iterable[Line], delimiter: str, text_fields: Sequence[str], limit: int
+) -> Iterator[Triple]:
+    """Records of a CSV or TSV text with a header row, given a line at a time (each with
+    its line end, as ``open(..., newline="")`` gives them).
+
+    A row longer than ``limit`` characters, or holding a line passed over, is a skipped
+    record and the rows after it are read on; memory holds one row at a time.
+    """
+    if csv.field_size_limit() < limit + 1:
+        csv.field_size_limit(min(limit + 1, _CSV_FIELD_CEILING))
+    counted = _RowLines(lines, limit)
+    reader = csv.reader(counted, delimiter=delimiter)
+    header, problem = _csv_header(reader, counted, text_fields)
+    if header is None:
+        if problem:
+            yield "", None, problem
         return
-    end_of_previous = reader.line_num
-    try:
-        for row in reader:
-            label = f"row {end_of_previous + 1}"
-            end_of_previous = reader.line_num
-            if not any(cell.strip() for cell in row):
-                continue  # a blank line is not a record
-            if len(row) != len(header):
-                yield label, None, f"{label}: {len(row)} cells where the header has {len(header)}"
-                continue
-            yield label, dict(zip(header, row)), ""
-    except csv.Error as err:
+    while True:
+        end_of_previous = counted.number
+        counted.start_row()
         label = f"row {end_of_previous + 1}"
-        yield label, None, f"{label}: broken CSV ({err}); rest of file not read"
+        try:
+            row = next(reader)
+        except StopIteration:
+            return
+        except _RowTooLarge as err:
+            counted.skip_row()
+            reader = csv.reader(counted, delimiter=delimiter)
+            yield label, None, f"{label}: {err.reason}"
+            continue
+        except csv.Error as err:
+            yield label, None, f"{label}: broken CSV ({err}); rest of file not read"
+            return
+        if not any(cell.strip() for cell in row):
+            continue  # a blank line is not a record
+        if len(row) != len(header):
+            yield label, None, f"{label}: {len(row)} cells where the header has {len(header)}"
+            continue
+        yield label, dict(zip(header, row)), ""
 
 
 def _as_text(value: object) -> str:

@@ -27,6 +27,7 @@ from contextvars import ContextVar
 from typing import IO, NamedTuple
 
 from .budget import MemberTally
+from .compressed import unsupported_compressed
 from .document import Item, Outcome, RawDocument
 from .filters import clean_name, file_reason, folder_reason
 from .ledger import LedgerEntry
@@ -39,7 +40,15 @@ from .options import (
     DEFAULT_MAX_TEXT_CHARS,
     ReadOptions,
 )
-from .readers import ARCHIVE_FORMATS, STREAMED_FORMATS, format_of, read_bytes, read_stream
+from .readers import (
+    ARCHIVE_FORMATS,
+    STREAMED_FORMATS,
+    STREAMED_RECORD_FORMATS,
+    format_and_compression,
+    format_of,
+    read_bytes,
+    read_stream,
+)
 
 __all__ = ["InputError", "iter_documents", "STDIN", "leaving_out", "LINK_OUTSIDE"]
 
@@ -404,7 +413,10 @@ def _start_pool(workers: int, opts: ReadOptions, prepare):
         return None
 
 
-def _too_large(size: int, opts: ReadOptions) -> str:
+def _too_large(size: int, opts: ReadOptions, fmt: str | None = None) -> str:
+    if fmt == "json":  # read whole; JSON Lines are read a record at a time
+        advice = "raise --max-file-bytes, or write the records as JSON Lines"
+        return f"file too large: {size} bytes, limit {opts.max_file_bytes} ({advice})"
     return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
 
@@ -500,7 +512,7 @@ def _read_found(
     first, as `_windows` does: one seen before becomes an entry. A walked file that is to
     be read is then opened at once and examined through its descriptor.
     """
-    fmt = format_of(item.rel)
+    fmt, compression = format_and_compression(item.rel)
     name = item.rel.rsplit("/", 1)[-1]
     reason = file_reason(item.rel, name, opts, found=item.walked, container=fmt in ARCHIVE_FORMATS)
     fd = None
@@ -511,6 +523,7 @@ def _read_found(
             and not reason
             and fmt is not None
             and fmt not in STREAMED_FORMATS
+            and not compression
             and unchanged is None
         ):
             fd, real, info = _opened(item.path)
@@ -522,7 +535,7 @@ def _read_found(
             return _skipped(LedgerEntry(item.rel, "skipped", f"same file as {seen[real]}, read once"))
         seen[real] = item.rel
     try:
-        return _read_examined(item, fmt, reason, opts, unchanged, info, fd, tally)
+        return _read_examined(item, (fmt, compression), reason, opts, unchanged, info, fd, tally)
     finally:
         if fd is not None:
             os.close(fd)
@@ -534,7 +547,7 @@ def _skipped(entry: LedgerEntry) -> list[Outcome]:
 
 def _read_examined(
     item: _Found,
-    fmt: str | None,
+    kind: tuple[str | None, str],
     reason: str,
     opts: ReadOptions,
     unchanged: Callable[[str, float], bool] | None,
@@ -543,11 +556,14 @@ def _read_examined(
     tally: MemberTally | None = None,
 ) -> Iterable[Outcome]:
     # The file is read here, at once (``fd`` can be closed after); its reader runs lazily.
+    # ``kind``: its format and compression suffix (`format_and_compression`).
+    fmt, compression = kind
     if reason:
         return _skipped(LedgerEntry(item.rel, "skipped", reason, fmt or ""))
     if fmt is None:
         ext = os.path.splitext(item.rel)[1] or "(no extension)"  # the path may be a link's target
-        return _skipped(LedgerEntry(item.rel, "skipped", f"unsupported file type {clean_name(ext)}"))
+        reason = unsupported_compressed(item.rel.rsplit("/", 1)[-1]) or f"unsupported file type {ext}"
+        return _skipped(LedgerEntry(item.rel, "skipped", clean_name(reason)))
     try:
         if info is None:
             info = os.stat(item.path)
@@ -557,12 +573,18 @@ def _read_examined(
             return _skipped(
                 LedgerEntry(item.rel, "read", UNCHANGED_REASON, fmt, info.st_size, document_id=item.rel)
             )
-        if fmt in STREAMED_FORMATS:
-            # Streamed: bounded by the archive limits, not by the size of the file.
-            return _streamed(item, Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime), opts, tally)
+        if (
+            fmt in STREAMED_FORMATS
+            or compression
+            or (fmt in STREAMED_RECORD_FORMATS and info.st_size > opts.max_file_bytes)
+        ):
+            # Streamed: bounded by the archive limits (archives, compressed files) or read
+            # a record at a time (record files), not by the size of the file.
+            found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
+            return _streamed(item, found, opts, tally, compression)
         if info.st_size > opts.max_file_bytes:
             return _skipped(
-                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
+                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts, fmt), fmt, info.st_size)
             )
         limit = opts.max_file_bytes
         data = (
@@ -573,11 +595,15 @@ def _read_examined(
     except OSError as err:
         return _skipped(LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt))
     if len(data) > opts.max_file_bytes:  # it grew since it was examined
-        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data)))
+        if fmt in STREAMED_RECORD_FORMATS:
+            return _streamed(item, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts, tally)
+        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts, fmt), fmt, len(data)))
     return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
 
 
-def _streamed(item: _Found, found: Item, opts: ReadOptions, tally: MemberTally | None) -> Iterator[Outcome]:
+def _streamed(
+    item: _Found, found: Item, opts: ReadOptions, tally: MemberTally | None, compression: str = ""
+) -> Iterator[Outcome]:
     # Opened when the outcomes are taken, and open while they are.
     try:
         # Closed below, after the last outcome; links were resolved when the file was found.
@@ -586,7 +612,7 @@ def _streamed(item: _Found, found: Item, opts: ReadOptions, tally: MemberTally |
         yield None, LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", found.format)
         return
     with handle:
-        yield from read_stream(handle, found, opts, tally)
+        yield from read_stream(handle, found, opts, tally, compression)
 
 
 def _found_under(

@@ -88,30 +88,39 @@ def _detector(monkeypatch, *matches: _Match) -> None:
     monkeypatch.setitem(sys.modules, "charset_normalizer", fake)
 
 
-FRENCH = "Résumé de la réunion du comité, à propos des congés payés et de l'été. " * 3
+# Invented Korean text in EUC-KR: no single-byte encoding reads it as text, so the
+# detector is asked.
+KOREAN = "이것은 문서 검사에 관한 짧은 설명입니다. 우리는 비슷한 문단을 찾고 그 관계를 보고합니다. " * 2
+KOREAN_BYTES = KOREAN.encode("euc-kr")
 
 
 def test_a_guess_its_close_rivals_contradict_is_not_used(monkeypatch):
-    # cp775 reads "Rķsumķ"; koi8-r reads it differently again: no trusted guess.
+    # cp775 and koi8-r read the bytes differently: no trusted guess.
     _detector(monkeypatch, _Match("cp775", coherence=0.58), _Match("koi8_r", coherence=0.52))
-    text, encoding, problem = decode_text(FRENCH.encode("cp1252"))
+    text, encoding, problem = decode_text(KOREAN_BYTES)
     assert text is None and encoding == ""
     assert problem.endswith(
         "its encoding cannot be told with confidence (cp775 and koi8-r read it differently)"
     )
 
 
-def test_windows_1252_wins_a_contradicted_guess(monkeypatch):
-    # charset-normalizer 3.x rates cp775 first for this text, windows-1252 close behind.
+def test_windows_1252_does_not_settle_a_contradicted_detector_guess(monkeypatch):
+    # windows-1252 was tried before the detector and did not read these bytes as text.
     _detector(monkeypatch, _Match("cp775", coherence=0.58), _Match("cp1252", coherence=0.53))
-    assert decode_text(FRENCH.encode("cp1252")) == (FRENCH, "guessed cp1252", "")
+    text, _, problem = decode_text(KOREAN_BYTES)
+    assert text is None and "(cp775 and cp1252 read it differently)" in problem
 
 
 def test_a_guess_is_kept_when_rivals_agree_or_are_far_behind(monkeypatch):
-    german = "Grüße aus Köln, die Straße ist naß und die Bäume sind grün. " * 2
-    # cp1250 and cp1252 read these letters alike; mac_roman is rated far worse.
-    _detector(monkeypatch, _Match("cp1250"), _Match("cp1252"), _Match("mac_roman", chaos=0.3))
-    assert decode_text(german.encode("cp1252")) == (german, "guessed cp1250", "")
+    # euc-kr and cp949 read these characters alike; mac_roman is rated far worse.
+    _detector(monkeypatch, _Match("euc_kr"), _Match("cp949"), _Match("mac_roman", chaos=0.3))
+    assert decode_text(KOREAN_BYTES) == (KOREAN, "guessed euc_kr", "")
+
+
+def test_the_detector_reads_east_asian_text():
+    pytest.importorskip("charset_normalizer")
+    text, encoding, problem = decode_text(KOREAN_BYTES)
+    assert text == KOREAN and encoding.startswith("guessed ") and not problem
 
 
 def test_short_non_utf8_is_not_guessed():
@@ -130,9 +139,16 @@ def test_without_the_detector_the_reason_says_what_to_install(monkeypatch):
     import sys
 
     monkeypatch.setitem(sys.modules, "charset_normalizer", None)
-    data = ("Résumé de la réunion du comité " * 3).encode("cp1252")
-    text, _, problem = decode_text(data)
+    text, _, problem = decode_text(KOREAN_BYTES)
     assert text is None and "install dedup[docs] to detect other encodings" in problem
+
+
+def test_western_text_needs_no_detector(monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "charset_normalizer", None)
+    french = "Résumé de la réunion du comité, à propos des congés payés et de l'été."
+    assert decode_text(french.encode("cp1252")) == (french, "guessed cp1252", "")
 
 
 @given(st.binary(max_size=600))

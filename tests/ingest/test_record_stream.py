@@ -1,0 +1,184 @@
+"""Record files larger than the file limit are read a record at a time: the limit
+applies to each record, and every other record reads as in a file read whole."""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import io
+import json
+import tracemalloc
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from dedup.ingest import iter_documents
+from dedup.ingest.document import Item
+from dedup.ingest.options import ReadOptions
+from dedup.ingest.readers import read_bytes, read_stream
+
+TOO_LARGE = "record too large: more than 2,000 bytes (raise --max-file-bytes)"
+
+
+def _jsonl(count: int, long_at: int) -> str:
+    lines = []
+    for n in range(1, count + 1):
+        words = "a long account of the harbour " * 200 if n == long_at else f"the harbour on day {n}"
+        lines.append(json.dumps({"id": f"d{n}", "text": words}))
+    return "\n".join(lines) + "\n"
+
+
+def test_a_jsonl_file_larger_than_the_limit_is_read_with_the_long_record_skipped(write_corpus, read):
+    content = _jsonl(200, long_at=37)
+    assert len(content) > 10_000
+    root = write_corpus({"big.jsonl": content})
+    docs, ledger, by_key = read(root, max_file_bytes=2_000, id_field="id")
+    assert [d.id for d in docs] == [f"big.jsonl#d{n}" for n in range(1, 201) if n != 37]
+    assert by_key["big.jsonl#line 37"].status == "skipped"
+    assert by_key["big.jsonl#line 37"].reason == f"line 37: {TOO_LARGE}"
+    assert docs[40].text == "the harbour on day 42" and docs[40].record == "line 42"
+    assert len(ledger) == 200
+
+
+def test_a_csv_row_over_the_limit_is_skipped_and_the_rows_after_it_keep_their_lines(write_corpus, read):
+    long_field = 'a quoted field over lines, with ""quotes""\n' * 80  # about 3.5 KB, 80 lines
+    rows = ["id,text"] + [f"{n},row {n}" for n in range(1, 300)]
+    rows.insert(5, f'long,"{long_field}"')
+    root = write_corpus({"big.csv": "\r\n".join(rows) + "\r\n", "big.tsv": "id\ttext\n1\tone\n" * 1})
+    docs, _, by_key = read(root, max_file_bytes=2_000, id_field="id")
+    assert by_key["big.csv#row 6"].reason == f"row 6: {TOO_LARGE}"
+    # The long row spans lines 6 to 86; the row after it starts on line 87.
+    assert by_key["big.csv#row 87"].document_id == "big.csv#5"
+    csv_docs = [d for d in docs if d.id.startswith("big.csv")]
+    assert [d.text for d in csv_docs] == [f"row {n}" for n in range(1, 300)]
+
+
+def test_a_line_longer_than_the_limit_is_passed_over_without_being_held(tmp_path, read):
+    path = tmp_path / "huge.jsonl"
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write('{"text": "before"}\n')
+        handle.write('{"text": "' + "x" * 30_000_000 + '"}\n')  # 30 MB on one line
+        handle.write('{"text": "after"}\n')
+    tracemalloc.start()
+    docs, _, by_key = read(path, max_file_bytes=1_000_000)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    assert [d.text for d in docs] == ["before", "after"]
+    assert by_key["huge.jsonl#line 2"].reason == (
+        "line 2: record too large: more than 1,000,000 bytes (raise --max-file-bytes)"
+    )
+    assert peak < 10_000_000
+
+
+def test_text_longer_than_the_text_limit_is_cut_as_in_a_file_read_whole(write_corpus, read):
+    content = _jsonl(40, long_at=3)
+    root = write_corpus({"r.jsonl": content})
+    whole = read(root, max_text_chars=100)
+    streamed = read(root, max_text_chars=100, max_file_bytes=len(content) - 1)
+    assert [e.to_dict() for e in whole[1]] == [e.to_dict() for e in streamed[1]]
+    assert whole[2]["r.jsonl#line 3"].status == "truncated"
+
+
+def test_a_large_legacy_encoded_file_records_its_guess(write_corpus, read):
+    lines = [
+        json.dumps({"text": f"Le comité s'est réuni à l'été {n}, près du marché."}, ensure_ascii=False)
+        for n in range(300)
+    ]
+    root = write_corpus({"fr.jsonl": ("\n".join(lines) + "\n").encode("cp1252")})
+    docs, ledger, _ = read(root, max_file_bytes=1_000)
+    assert len(docs) == 300 and docs[7].text == "Le comité s'est réuni à l'été 7, près du marché."
+    assert {e.encoding for e in ledger} == {"guessed cp1252"}
+
+
+def test_a_line_that_is_not_in_the_files_encoding_costs_only_itself(write_corpus, read):
+    good = "".join(
+        json.dumps({"text": f"line {n} é"}, ensure_ascii=False) + "\n" for n in range(100)
+    ).encode()
+    root = write_corpus({"mixed.jsonl": good + b'{"text": "caf\xe9"}\n' + good})
+    docs, _, by_key = read(root, max_file_bytes=1_000)
+    assert len(docs) == 200
+    assert by_key["mixed.jsonl#line 101"].reason == (
+        "line 101: not utf-8 text: byte 0xe9 at offset 13 of the line cannot be decoded"
+    )
+
+
+def test_utf16_record_files_are_streamed_too(write_corpus, read):
+    content = "id,text\n" + "".join(f"{n},Grüße {n}\n" for n in range(50))
+    root = write_corpus({"w.csv": content.encode("utf-16")})
+    docs, ledger, _ = read(root, max_file_bytes=100, id_field="id")
+    assert [d.text for d in docs] == [f"Grüße {n}" for n in range(50)]
+    assert {e.encoding for e in ledger} == {"utf-16-le"}
+
+
+def test_a_large_record_file_gives_the_same_ledger_with_workers(write_corpus):
+    root = write_corpus({"big.jsonl": _jsonl(100, long_at=10), "small.txt": "a small text"})
+    runs = []
+    for workers in (1, 2):
+        ledger = []
+        docs = list(iter_documents([str(root)], ledger=ledger, workers=workers, max_file_bytes=2_000))
+        runs.append(([dataclasses.asdict(d) for d in docs], [e.to_dict() for e in ledger]))
+    assert runs[0] == runs[1]
+
+
+# -- streamed and whole readings agree -----------------------------------------------------------
+def _outcomes(outcomes):
+    return [
+        (
+            None if doc is None else (doc.id, doc.text, doc.title, doc.record, doc.encoding, doc.metadata),
+            entry.to_dict(),
+        )
+        for doc, entry in outcomes
+    ]
+
+
+_LINE = st.one_of(
+    st.builds(lambda t: json.dumps({"text": t}), st.text(max_size=30)),
+    st.builds(lambda t, i: json.dumps({"text": t, "id": i}), st.text(max_size=10), st.integers(0, 3)),
+    st.sampled_from(["", "   ", "[1, 2]", '{"text": ', "null", '{"title": "t", "text": "x"}', "\r"]),
+)
+_CELL = st.one_of(st.text(alphabet='ab ,"é\n\r\t', max_size=8), st.sampled_from(["", "x y"]))
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    lines=st.lists(_LINE, max_size=12),
+    ending=st.sampled_from(["\n", "\r\n"]),
+    last=st.booleans(),
+    bom=st.booleans(),
+)
+def test_streamed_jsonl_reads_as_the_whole_file(lines, ending, last, bom):
+    text = ending.join(lines) + (ending if last else "")
+    data = (b"\xef\xbb\xbf" if bom else b"") + text.encode("utf-8")
+    _compare(data, "jsonl")
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    rows=st.lists(st.lists(_CELL, min_size=1, max_size=3), max_size=8),
+    ending=st.sampled_from(["\n", "\r\n", "\r"]),
+    delimiter=st.sampled_from([",", "\t"]),
+)
+def test_streamed_csv_reads_as_the_whole_file(rows, ending, delimiter):
+    buffer = io.StringIO(newline="")
+    writer = csv.writer(buffer, delimiter=delimiter, lineterminator=ending)
+    writer.writerow(["text", "id"][: max(1, max((len(r) for r in rows), default=1))])
+    writer.writerows(rows)
+    _compare(buffer.getvalue().encode("utf-8"), "csv" if delimiter == "," else "tsv")
+
+
+def _compare(data: bytes, fmt: str) -> None:
+    """Reference: the reader of a whole file (`read_bytes`), on the same bytes."""
+    opts = ReadOptions(max_file_bytes=1_000_000)
+    item = Item("f." + fmt, "f." + fmt, fmt, len(data))
+    whole = _outcomes(read_bytes(data, item, opts))
+    streamed = _outcomes(read_stream(io.BytesIO(data), item, opts))
+    assert streamed == whole
+
+
+def test_a_json_array_larger_than_the_limit_is_skipped_with_the_way_to_read_it(write_corpus, read):
+    root = write_corpus({"items.json": json.dumps([{"text": f"item {n}"} for n in range(100)])})
+    docs, _, by_key = read(root, max_file_bytes=500)
+    assert docs == []
+    assert by_key["items.json"].reason.endswith(
+        "limit 500 (raise --max-file-bytes, or write the records as JSON Lines)"
+    )
