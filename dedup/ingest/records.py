@@ -268,10 +268,23 @@ def csv_line_records(
     its line end, as ``open(..., newline="")`` gives them).
 
     A row longer than ``limit`` characters, or holding a line passed over, is a skipped
-    record and the rows after it are read on; memory holds one row at a time.
+    record and the rows after it are read on; memory holds one row at a time. The csv
+    module's field size limit (process-wide) is raised to ``limit`` while the rows are
+    read and put back when the generator ends or is closed.
     """
-    if csv.field_size_limit() < limit + 1:
+    previous = csv.field_size_limit()
+    if previous < limit + 1:
         csv.field_size_limit(min(limit + 1, _CSV_FIELD_CEILING))
+    try:
+        yield from _csv_rows(lines, delimiter, text_fields, limit)
+    finally:
+        csv.field_size_limit(previous)
+
+
+def _csv_rows(
+    lines: Iterable[Line], delimiter: str, text_fields: Sequence[str], limit: int
+) -> Iterator[Triple]:
+    """`csv_line_records` with the field size limit already raised."""
     counted = _RowLines(lines, limit)
     reader = csv.reader(counted, delimiter=delimiter)
     header, problem = _csv_header(reader, counted, text_fields)

@@ -182,3 +182,14 @@ def test_a_json_array_larger_than_the_limit_is_skipped_with_the_way_to_read_it(w
     assert by_key["items.json"].reason.endswith(
         "limit 500 (raise --max-file-bytes, or write the records as JSON Lines)"
     )
+
+
+def test_the_csv_field_limit_is_put_back_after_reading(tmp_path):
+    import csv
+
+    import dedup
+
+    before = csv.field_size_limit()
+    (tmp_path / "rows.csv").write_text("id,text\na," + "word " * 40_000 + "\n", encoding="utf-8")
+    dedup.audit([str(tmp_path)])
+    assert csv.field_size_limit() == before
