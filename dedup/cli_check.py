@@ -7,7 +7,12 @@ Exit codes
 ----------
 0  the check ran (whatever it found)
 2  usage error: a bad option, a path that does not exist, no submission with words,
-   an output folder that cannot be written
+   an output folder that cannot be written, a config file that cannot be used
+3  an unexpected internal error
+4  inputs not read: ``--against`` was given and no reference was read, more than
+   ``--max-skipped-share`` of the inputs (submissions, references, templates) could not be
+   read, or (``--fail-on skipped``) any could not; the outputs are written all the same
+   (see `dedup.cli.input_problems`)
 """
 
 from __future__ import annotations
@@ -15,6 +20,8 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+
+from .cli import add_config_options, add_input_options, add_out_option, input_problems, report_input_problems
 
 __all__ = ["register", "run", "COMMAND"]
 
@@ -61,7 +68,11 @@ def register(commands: argparse._SubParsersAction) -> None:
             "show where they share text. References are never compared with each other. Writes "
             "check.json, matches.csv, submissions.csv, ledger.csv and check.html into --out."
         ),
-        epilog=HELP_CAUTION + " Exit codes: 0 ran, 2 usage error, 3 internal error.",
+        epilog=HELP_CAUTION
+        + " Exit codes: 0 ran, 2 usage error (or an unusable config file), 3 internal error, 4 inputs not read "
+        "(no reference read from --against, more than --max-skipped-share of the inputs, or any with --fail-on "
+        "skipped; the outputs are written all the same). Options can also be set in the [check] section of "
+        "dedup.toml (see dedup audit --help).",
     )
     p.add_argument(
         "submissions", nargs="+", metavar="SUBMISSION", help="files and folders of the students' texts"
@@ -73,20 +84,24 @@ def register(commands: argparse._SubParsersAction) -> None:
         metavar="REFERENCE",
         help="files and folders of reference material",
     )
-    p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
+    add_out_option(p)
     _add_settings(p)
     g = p.add_argument_group("running")
     g.add_argument(
-        "--workers", type=_whole, default=1, metavar="N", help="threads aligning passages (default 1)"
+        "--workers", type=_whole, default=1, metavar="N", help="threads aligning passages (default: 1)"
     )
     g.add_argument("--no-report", action="store_true", help="write the data files but not check.html")
-    g.add_argument("--quiet", action="store_true", help="no summary")
+    g.add_argument("-q", "--quiet", action="store_true", help="no summary")
+    add_input_options(
+        g, ("none",), "skipped: exit with code 4 when any submission, reference or template could not be read"
+    )
+    add_config_options(g)
 
 
 def _add_settings(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("what counts")
     g.add_argument("--min-words", type=_whole, default=15, metavar="N",
-                   help="fewest words of a counted passage; shorter shared runs are listed as excluded (default 15)")  # fmt: skip
+                   help="fewest words of a counted passage; shorter shared runs are listed as excluded (default: 15)")  # fmt: skip
     g.add_argument("--template", action="append", default=[], metavar="FILE",
                    help="the assignment prompt or a provided skeleton: text matching it is excluded (repeatable)")  # fmt: skip
     g.add_argument("--count-quotes", dest="exclude_quotes", action="store_false",
@@ -95,21 +110,21 @@ def _add_settings(p: argparse.ArgumentParser) -> None:
                    help="count reference lists (by default excluded from a References, Bibliography or Works "
                    "cited heading to the end)")  # fmt: skip
     g.add_argument(
-        "--shingle-size", type=_whole, default=5, metavar="K", help="words per shingle (default 5)"
+        "--shingle-size", type=_whole, default=5, metavar="K", help="words per shingle (default: 5)"
     )
     g = p.add_argument_group("candidate sources")
     g.add_argument("--seed-shingles", type=_whole, default=4, metavar="N",
-                   help="shared shingles that make a source a candidate (default 4)")  # fmt: skip
+                   help="shared shingles that make a source a candidate (default: 4)")  # fmt: skip
     g.add_argument("--common-share", type=_share, default=0.01, metavar="SHARE",
-                   help="a shingle in more than this share of the references seeds nothing (default 0.01)")  # fmt: skip
+                   help="a shingle in more than this share of the references seeds nothing (default: 0.01)")  # fmt: skip
     g.add_argument("--common-min", type=_whole, default=50, metavar="N",
-                   help="... and in more than this many (default 50)")  # fmt: skip
+                   help="... and in more than this many (default: 50)")  # fmt: skip
     g = p.add_argument_group("inputs")
     g.add_argument(
         "--id-field", default=None, metavar="FIELD", help="record field holding the id (.jsonl/.csv)"
     )
     g.add_argument("--text-field", dest="text_fields", action="append", default=None, metavar="FIELD",
-                   help="record field(s) holding the text (repeatable; default text)")  # fmt: skip
+                   help="record field(s) holding the text (repeatable) (default: text)")  # fmt: skip
     g.add_argument(
         "--include", action="append", default=[], metavar="GLOB", help="read only paths matching this"
     )
@@ -188,8 +203,15 @@ def run(args: argparse.Namespace) -> int:
     try:
         result = check(args.submissions, against=args.against, settings=_settings(args), workers=args.workers)
     except (SettingsError, InputError) as err:
-        print(f"dedup: error: {err}", file=sys.stderr)
+        config = getattr(args, "config_file", None)
+        note = (
+            f" (options from {config} and the command line)"
+            if config and isinstance(err, SettingsError)
+            else ""
+        )
+        print(f"dedup: error: {err}{note}", file=sys.stderr)
         return EXIT_USAGE
+    problems = _input_problems(result.ledger, args)
     try:
         paths = result.write(args.out, report=not args.no_report)
     except OSError as err:
@@ -197,4 +219,23 @@ def run(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     if not args.quiet:
         print("\n".join(_summary_lines(result, paths)))
-    return EXIT_OK
+    return report_input_problems(problems, paths.get("ledger.csv", args.out))
+
+
+def _input_problems(rows: list[dict], args: argparse.Namespace) -> list[str]:
+    """Why the check exits with code 4 (`dedup.cli.input_problems` over its whole ledger), and
+    a ``--against`` from which no reference was read: submissions were compared with nothing."""
+    from .ingest import LedgerEntry, summarize
+
+    def counts(role: str | None) -> dict:
+        return summarize(
+            [
+                LedgerEntry(**{k: v for k, v in row.items() if k != "role"})
+                for row in rows
+                if role in (None, row["role"])
+            ]
+        )
+
+    # With a share of 1 only "no reference was read" can be said of the references.
+    problems = input_problems(counts("reference"), 1.0, False, what="reference") if args.against else []
+    return problems + input_problems(counts(None), args.max_skipped_share, args.fail_on_skipped)

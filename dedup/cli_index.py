@@ -23,7 +23,10 @@ Exit codes
 2  usage error: a bad option, a path that does not exist, a file that is not an index,
    an index written by a newer dedup, a damaged index, settings that would mix sketches,
    a decisions file that does not follow the schema, a query without words, no query,
-   a baseline asked of an index with no audit
+   a baseline asked of an index with no audit, a config file that cannot be used
+4  (``index build`` and ``update``) inputs not read: no document was read, more than
+   ``--max-skipped-share`` of the inputs could not be read, or (``--fail-on skipped``) any
+   could not; the index is written all the same (see `dedup.cli.input_problems`)
 """
 
 from __future__ import annotations
@@ -33,7 +36,15 @@ import json
 import sys
 from typing import TYPE_CHECKING
 
-from .cli import add_setting_options, settings_from_args, terminal_text
+from .cli import (
+    add_config_options,
+    add_input_options,
+    add_setting_options,
+    input_problems,
+    report_input_problems,
+    settings_from_args,
+    terminal_text,
+)
 from .settings import INPUTS, SettingsError, setting_options
 
 if TYPE_CHECKING:
@@ -79,6 +90,14 @@ def register(commands: argparse._SubParsersAction) -> None:
     _register_similar(commands)
 
 
+_BUILD_EPILOG = (
+    "Exit codes: 0 ran, 2 usage error (or an unusable index or config file), 3 internal error, 4 inputs not "
+    "read (no document, more than --max-skipped-share of the inputs, or any with --fail-on skipped; the index "
+    "is written all the same). Options can also be set in the [index] section of dedup.toml (see dedup audit "
+    "--help)."
+)
+
+
 def _register_index(commands: argparse._SubParsersAction, parser_class: type) -> None:
     """``dedup index build|update|info|baseline``."""
     p = commands.add_parser(
@@ -95,6 +114,7 @@ def _register_index(commands: argparse._SubParsersAction, parser_class: type) ->
         "build",
         help="create an index of the documents under PATH",
         description="Create an index of the documents under PATH (read as dedup audit reads them).",
+        epilog=_BUILD_EPILOG,
     )
     b.add_argument("paths", nargs="+", metavar="PATH", help="files and folders to read (folders recursively)")
     b.add_argument("--index", required=True, metavar="FILE", help="the index file to create")
@@ -108,6 +128,7 @@ def _register_index(commands: argparse._SubParsersAction, parser_class: type) ->
             "ones are sketched, documents no longer found are marked removed. The whole update is one "
             "transaction: interrupted, the index stays as it was."
         ),
+        epilog=_BUILD_EPILOG,
     )
     u.add_argument(
         "paths", nargs="*", metavar="PATH", help="files and folders to read (default: those of the last run)"
@@ -170,8 +191,10 @@ def _register_similar(commands: argparse._SubParsersAction) -> None:
     s.add_argument("text", nargs="?", metavar="TEXT", help="the query text")
     s.add_argument("--file", metavar="FILE", help="read the query from a document file instead")
     s.add_argument("--index", required=True, metavar="FILE", help="the index file")
-    s.add_argument("-k", "--top", type=int, default=10, metavar="K", help="how many results")
-    s.add_argument("--terms", type=int, default=5, metavar="N", help="contributing terms shown per result")
+    s.add_argument("-k", "--top", type=int, default=10, metavar="K", help="how many results (default: 10)")
+    s.add_argument(
+        "--terms", type=int, default=5, metavar="N", help="contributing terms shown per result (default: 5)"
+    )
     s.add_argument(
         "--ranking",
         choices=("bm25", "tfidf"),
@@ -182,8 +205,12 @@ def _register_similar(commands: argparse._SubParsersAction) -> None:
 
 
 def _add_output_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--json", action="store_true", help="print the summary as JSON")
-    p.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    """Output, exit-code and config options of ``index build`` and ``update``."""
+    g = p.add_argument_group("running")
+    g.add_argument("--json", action="store_true", help="print the summary as JSON")
+    g.add_argument("-q", "--quiet", action="store_true", help="no progress and no summary")
+    add_input_options(g, ("none",), "skipped: exit with code 4 when any input could not be read")
+    add_config_options(g)
 
 
 def _print(text: str, **kwargs) -> None:
@@ -236,12 +263,20 @@ def _progress(args: argparse.Namespace):
 def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
     from .index import build, open_index, update
 
-    if action == "build":
-        summary = build(args.paths, args.index, settings_from_args(args).validate(), progress=_progress(args))
-    else:
-        with open_index(args.index) as index:
-            settings = settings_from_args(args, index.settings).validate()
-        summary = update(args.paths, args.index, settings, progress=_progress(args))
+    try:
+        if action == "build":
+            settings = settings_from_args(args).validate()
+        else:
+            with open_index(args.index) as index:
+                settings = settings_from_args(args, index.settings).validate()
+    except SettingsError as err:
+        config = getattr(args, "config_file", None)
+        raise SettingsError(
+            f"{err} (options from {config} and the command line)" if config else str(err)
+        ) from None
+    run = build if action == "build" else update
+    summary = run(args.paths, args.index, settings, progress=_progress(args))
+    problems = input_problems(summary.inputs, args.max_skipped_share, args.fail_on_skipped)
     if args.json:
         print(json.dumps(summary.to_dict(), indent=1, sort_keys=True))
     elif not args.quiet:
@@ -256,7 +291,8 @@ def _run_build_or_update(args: argparse.Namespace, action: str) -> int:
             f"{inputs.get('empty', 0):,} empty, {inputs.get('skipped', 0):,} skipped)"
         )
         _print(f"index: {args.index}")
-    return EXIT_OK
+    # The index keeps no ledger: `dedup audit` over the same paths writes one (ledger.csv).
+    return report_input_problems(problems, "")
 
 
 def _run_info(args: argparse.Namespace) -> int:

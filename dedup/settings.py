@@ -27,12 +27,18 @@ __all__ = [
     "MEASURES",
     "KEEPER_POLICIES",
     "CANDIDATE_METHODS",
+    "TFIDF_FEATURES_MAX",
 ]
 
 MEASURES = ("jaccard", "containment", "cosine")
 KEEPER_POLICIES = ("longest", "newest", "oldest", "shortest-path", "first-seen")
 CANDIDATE_METHODS = ("auto", "lsh", "exhaustive")
 HASH_SCHEMES = ("stable64", "binned", "datasketch-sha1")
+# Most hashed TF-IDF columns: column numbers are signed 64-bit integers (beyond 2**63 they
+# overflow) and the token hashes have 64 bits. Nothing is sized by the feature space (rows are
+# sparse; document frequencies are dense only up to `dedup.sketch.tfidf.DENSE_DF_LIMIT` columns),
+# so any space up to this bound costs no more memory than the columns the texts use.
+TFIDF_FEATURES_MAX = 2**62
 
 # Sections of the command-line help, in the order they are shown.
 GROUPS = (
@@ -60,7 +66,8 @@ class Option:
     Attributes
     ----------
     flags : tuple of str
-        The option strings, e.g. ``("--keeper",)``.
+        The option strings, e.g. ``("--keeper",)``: at least one long flag, and a short
+        one (``"-t"``) only for an option used all the time.
     help : str
         What the option does, without its default (the command line adds that).
     group : str
@@ -95,8 +102,20 @@ class Option:
             raise ValueError(f"option group must be one of {GROUPS}, got {self.group!r}")
         if self.form not in FORMS:
             raise ValueError(f"option form must be one of {FORMS}, got {self.form!r}")
-        if not self.flags or not all(flag.startswith("--") for flag in self.flags):
-            raise ValueError(f"option flags must start with '--', got {self.flags!r}")
+        short = [flag for flag in self.flags if not flag.startswith("--")]
+        if not self.flags or len(short) == len(self.flags) or not all(_is_short_flag(f) for f in short):
+            raise ValueError(
+                f"option flags must start with '--' (or be one letter after '-'), got {self.flags!r}"
+            )
+
+    @property
+    def long_flag(self) -> str:
+        """The first ``--`` flag: the option's name in messages and in a config file."""
+        return next(flag for flag in self.flags if flag.startswith("--"))
+
+
+def _is_short_flag(flag: str) -> bool:
+    return len(flag) == 2 and flag[0] == "-" and flag[1].isalpha()
 
 
 def _setting(default: Any, *flags: str, **option: Any) -> Any:
@@ -235,6 +254,7 @@ class AuditSettings:
 
     threshold: float = _setting(
         0.8,
+        "-t",
         "--threshold",
         group=DUPLICATE,
         parse=float,
@@ -607,6 +627,7 @@ class AuditSettings:
         for name, value in positive.items():
             if not isinstance(value, int) or isinstance(value, bool) or value < 1:
                 fail(f"{name} must be a whole number of at least 1, got {value!r}")
+        self._validate_tfidf_features()
         if not isinstance(self.max_archive_ratio, (int, float)) or not self.max_archive_ratio >= 1:
             fail(f"max_archive_ratio must be a number of at least 1, got {self.max_archive_ratio!r}")
         if self.bucket_limit < 2:
@@ -634,3 +655,12 @@ class AuditSettings:
                 f"base_url must be a non-empty URL such as 'https://wiki.example.org/', got {self.base_url!r}"
             )
         return self
+
+    def _validate_tfidf_features(self) -> None:
+        """Refuse a feature space whose column numbers would overflow (see `TFIDF_FEATURES_MAX`)."""
+        n = self.tfidf_features
+        if n > TFIDF_FEATURES_MAX:
+            raise SettingsError(
+                f"tfidf_features must be at most 2**62 = {TFIDF_FEATURES_MAX} (column numbers are 64-bit "
+                f"integers; more columns than that only stay empty), got {n}"
+            )

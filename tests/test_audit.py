@@ -191,10 +191,10 @@ class _nothing:
 def test_empty_folder_and_only_bad_files(write_corpus, tmp_path, capsys):
     empty = tmp_path / "empty"
     empty.mkdir()
-    assert main(["audit", str(empty), "--out", str(tmp_path / "o1")]) == 0
+    assert main(["audit", str(empty), "--out", str(tmp_path / "o1")]) == 4  # nothing read
     assert "inputs: 0" in capsys.readouterr().out
     bad = write_corpus({"x.txt": b"\x00\x00", "y.bin": b"abc", "z.md": "   \n\t"})
-    assert main(["audit", str(bad), "--out", str(tmp_path / "o2"), "--quiet"]) == 0
+    assert main(["audit", str(bad), "--out", str(tmp_path / "o2"), "--quiet"]) == 4
     data = json.loads((tmp_path / "o2" / "audit.json").read_text())
     counts = data["summary"]["inputs"]
     assert (counts["entries"], counts["skipped"], counts["empty"], counts["read"]) == (3, 2, 1, 0)

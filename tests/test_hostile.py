@@ -159,7 +159,7 @@ def test_a_date_that_is_nan_is_an_invalid_record_not_a_crash(write_corpus, tmp_p
     ]
     src = write_corpus({"r.jsonl": "\n".join(json.dumps(line) for line in lines) + "\n"})
     code = _audit(src, tmp_path / "out", "--id-field", "id", "--date-field", "updated", "--keeper", "newest")
-    assert code == 0
+    assert code == 4  # 2 of 3 records not read: more than --max-skipped-share; outputs written all the same
 
     def strict(name):
         raise ValueError(f"{name} in audit.json")
@@ -241,7 +241,7 @@ def test_max_archive_members_is_taken_from_the_command_line(write_corpus, tmp_pa
         for i in range(11):
             archive.writestr(f"{i}.txt", WORDS + str(i))
     src = write_corpus({"many.zip": buffer.getvalue()})
-    assert _audit(src, tmp_path / "out", "--max-archive-members", "10") == 0
+    assert _audit(src, tmp_path / "out", "--max-archive-members", "10") == 4  # nothing read
     assert [e["status"] for e in _ledger(tmp_path / "out")] == ["refused"]
 
 
@@ -308,6 +308,6 @@ def test_any_names_and_record_values_are_audited_without_a_crash_or_a_change(fil
                 "newest",
             ]
         )
-        assert code == 0
+        assert code in (0, 4)  # 4: nothing, or too little, could be read
         assert _tree_digest(src) == before
         assert expected <= {e["input"] for e in _ledger(out)}

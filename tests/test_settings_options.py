@@ -20,7 +20,11 @@ from dedup.settings import AuditSettings, Option, setting_options
 # `dedup audit` before the options were generated, in the order they were declared, and
 # the command-line options added since (they are no settings).
 ADDED_RUN_FLAGS = ["--no-report", "--engine", "--spark-master", "--accept", "--json"]
+# Short flags of the common options, the exit-code options and the config file, added since.
+SHORT_RUN_FLAGS = ["-o", "-q"]
+CHECK_RUN_FLAGS = ["--max-skipped-share", "--config", "--no-config"]
 ADDED_SETTING_FLAGS = [
+    "-t",
     "--min-passage-words",
     "--min-unique-words",
     "--base-url",
@@ -72,6 +76,8 @@ AUDIT_FLAGS = [
     "--keep-work",
     "--workers",
     *ADDED_RUN_FLAGS,
+    *SHORT_RUN_FLAGS,
+    *CHECK_RUN_FLAGS,
     *ADDED_SETTING_FLAGS,
 ]
 # Options of `dedup audit` that are about the run, not the audit: not settings.
@@ -84,6 +90,8 @@ AUDIT_RUN_FLAGS = {
     "--keep-work",
     "--workers",
     *ADDED_RUN_FLAGS,
+    *SHORT_RUN_FLAGS,
+    *CHECK_RUN_FLAGS,
 }
 # `dedup index build` / `update` before, and the reading options they take since.
 INDEX_FLAGS = [
@@ -113,6 +121,9 @@ INDEX_ADDED_FLAGS = [
     "--follow-links",
     "--max-archive-members",
     "--max-run-members",
+    "-q",
+    "--fail-on",
+    *CHECK_RUN_FLAGS,
 ]
 # Settings deliberately not on the command line.
 NOT_ON_COMMAND_LINE = {"false_positive_weight"}
@@ -120,6 +131,7 @@ NOT_ON_COMMAND_LINE = {"false_positive_weight"}
 # Every setting flag, what it was given and the setting it set (checked against the old parser).
 FLAG_CASES = [
     (["--threshold", "0.7"], "threshold", 0.7),
+    (["-t", "0.6"], "threshold", 0.6),
     (["--measure", "containment"], "measure", "containment"),
     (["--shingle-size", "3"], "shingle_size", 3),
     (["--char-ngrams", "4"], "char_ngrams", 4),
@@ -237,7 +249,8 @@ def test_bad_values_are_usage_errors(argv, capsys):
     with pytest.raises(SystemExit) as stop:
         build_parser().parse_args(["audit", "docs", "--out", "out", *argv])
     assert stop.value.code == 2
-    assert f"argument {argv[0]}" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "dedup: error: argument " in err and f"{argv[0]}: " in err
 
 
 def test_settings_fields_and_generated_flags_correspond_one_to_one():
@@ -321,10 +334,14 @@ def test_unknown_setting_names_and_bad_declarations_are_refused():
         Option(flags=("--x",), help="x", group="somewhere else")
     with pytest.raises(ValueError, match="form"):
         Option(flags=("--x",), help="x", group="inputs", form="toggle")
+    for flags in (("-x",), ("-xy", "--x"), ("x", "--x"), ("-1", "--x")):
+        with pytest.raises(ValueError, match="flags"):
+            Option(flags=flags, help="x", group="inputs")
+    assert Option(flags=("-x", "--ex"), help="x", group="inputs").long_flag == "--ex"
 
 
 def _option_helps(parser: argparse.ArgumentParser) -> dict[str, str]:
-    return {a.option_strings[0]: a.help or "" for a in parser._actions if a.option_strings}
+    return {flag: a.help or "" for a in parser._actions for flag in a.option_strings}
 
 
 @pytest.mark.parametrize("command", [("audit",), ("index", "build"), ("index", "update")])
@@ -367,6 +384,18 @@ def test_fail_on_is_a_command_line_choice_not_a_setting():
     assert "fail_on" not in AuditSettings().to_dict()
     assert FAIL_ON == INDEX_FAIL_ON
     by_flag = {flag: a for a in _subparser("audit")._actions for flag in a.option_strings}
-    assert tuple(by_flag["--fail-on"].choices) == FAIL_ON and by_flag["--fail-on"].default == "none"
+    assert (
+        tuple(by_flag["--fail-on"].choices) == (*FAIL_ON, "skipped")
+        and by_flag["--fail-on"].default == "none"
+    )
     args = build_parser().parse_args(["audit", "docs", "--out", "out", "--fail-on", "any"])
     assert args.fail_on == "any" and settings_from_args(args) == AuditSettings()
+    assert args.fail_on_skipped is False and args.max_skipped_share == 0.5
+    # ``skipped`` comes on top of the condition on clusters; neither is a setting.
+    args = build_parser().parse_args(
+        ["audit", "docs", "-o", "out", "--fail-on", "skipped", "--fail-on", "new"]
+    )
+    assert (args.fail_on, args.fail_on_skipped) == ("new", True) and settings_from_args(
+        args
+    ) == AuditSettings()
+    assert "max_skipped_share" not in AuditSettings().to_dict()
