@@ -665,8 +665,9 @@ def _checked_settings(args: argparse.Namespace) -> AuditSettings | str:
     if args.index and os.path.exists(args.index):
         from .index import IndexFileError, open_index
 
-        try:
-            open_index(args.index).close()
+        try:  # a damaged index is refused before the audit, not after it (the check writes nothing)
+            with open_index(args.index) as index, index.writing():
+                pass
         except IndexFileError as err:
             return str(err)
     return settings

@@ -84,6 +84,12 @@ def register(commands: argparse._SubParsersAction) -> None:
         metavar="REFERENCE",
         help="files and folders of reference material",
     )
+    p.add_argument(
+        "--against-index",
+        metavar="FILE",
+        help="an index (dedup index build) whose texts are references too, in their stored form: lower "
+        "case, markup removed; source offsets of their passages point into that form",
+    )
     add_out_option(p)
     _add_settings(p)
     g = p.add_argument_group("running")
@@ -192,7 +198,7 @@ def run(args: argparse.Namespace) -> int:
     from .ingest import InputError
     from .settings import SettingsError
 
-    for path in [*args.submissions, *args.against, *args.template]:
+    for path in [*args.submissions, *args.against, *args.template, *filter(None, [args.against_index])]:
         if not os.path.exists(path):
             print(f"dedup: error: no such file or folder: {path}", file=sys.stderr)
             return EXIT_USAGE
@@ -200,8 +206,19 @@ def run(args: argparse.Namespace) -> int:
     if problem:
         print(f"dedup: error: {problem}", file=sys.stderr)
         return EXIT_USAGE
+    from .index import IndexFileError
+
     try:
-        result = check(args.submissions, against=args.against, settings=_settings(args), workers=args.workers)
+        result = check(
+            args.submissions,
+            against=args.against,
+            settings=_settings(args),
+            workers=args.workers,
+            against_index=args.against_index,
+        )
+    except IndexFileError as err:
+        print(f"dedup: error: {err}", file=sys.stderr)
+        return EXIT_USAGE
     except (SettingsError, InputError) as err:
         config = getattr(args, "config_file", None)
         note = (
@@ -237,5 +254,6 @@ def _input_problems(rows: list[dict], args: argparse.Namespace) -> list[str]:
         )
 
     # With a share of 1 only "no reference was read" can be said of the references.
-    problems = input_problems(counts("reference"), 1.0, False, what="reference") if args.against else []
+    given = args.against or args.against_index
+    problems = input_problems(counts("reference"), 1.0, False, what="reference") if given else []
     return problems + input_problems(counts(None), args.max_skipped_share, args.fail_on_skipped)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 import pytest
 
 from dedup.check import CheckSettings, check
@@ -78,3 +80,23 @@ def test_tables_give_the_same_check_as_files(small_class):
     from_tables = check(frame, against=references, settings=SETTINGS)
     assert _by_submission(from_tables) == _by_submission(from_files)
     assert {e["format"] for e in from_tables.ledger} == {"record"}
+
+
+def test_the_command_line_takes_an_index_of_references(small_class, tmp_path, capsys):
+    from dedup.cli import main
+
+    subs, refs, _ = small_class
+    build([str(refs)], str(tmp_path / "refs.index"))
+    out = tmp_path / "out"
+    assert (
+        main(["check", str(subs), "--against-index", str(tmp_path / "refs.index"), "-o", str(out), "-q"]) == 0
+    )
+    data = json.loads((out / "check.json").read_text(encoding="utf-8"))
+    copier = next(r for r in data["submissions"] if r["submission"] == "copier.txt")
+    assert copier["top_source"] == "brisk.txt"
+    (tmp_path / "broken.index").write_bytes(b"SQLite format 3\x00" + b"\x01" * 200)
+    assert (
+        main(["check", str(subs), "--against-index", str(tmp_path / "broken.index"), "-o", str(out), "-q"])
+        == 2
+    )
+    assert "dedup: error:" in capsys.readouterr().err
