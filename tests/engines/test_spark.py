@@ -461,3 +461,24 @@ def test_a_spark_connect_session_is_refused_with_the_reason(monkeypatch):
     ConnectLike.__module__ = "pyspark.sql.connect.session"
     with pytest.raises(dedup.SettingsError, match="Spark Connect"):
         sessions.own_session(ConnectLike())
+
+
+@needs_spark
+def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp_path):
+    import gzip
+
+    text = "Leaks in the street main are reported to the night desk, which sends a crew within the hour. "
+    docs = tmp_path / "docs"
+    docs.mkdir()
+    (docs / "notes.txt.gz").write_bytes(gzip.compress((text * 4).encode("utf-8")))
+    lines = [json.dumps({"id": f"r{i}", "text": text * 3 + f"case {i}"}) for i in range(30)]
+    (docs / "records.jsonl").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    (docs / "records.jsonl.gz").write_bytes(gzip.compress(("\n".join(lines[:5]) + "\n").encode("utf-8")))
+    settings = AuditSettings(threshold=0.5, candidates="lsh", id_field="id", max_file_bytes=2000)
+    local = dedup.audit([str(docs)], settings)
+    on_spark = dedup.audit([docs.as_uri()], settings, engine="spark", spark_session=spark)
+    same = _same_outputs(local, on_spark, tmp_path / "compared", skip_keys=("inputs",))
+    assert all(same.values()), same
+    statuses = {e.input: e.status for e in on_spark.ledger if not e.record}
+    assert statuses.get("notes.txt.gz") == "read"
+    assert sum(e.status == "read" for e in on_spark.ledger if e.input == "records.jsonl") == 30

@@ -21,6 +21,7 @@ reason). Document ids are paths relative to the folder given, as on one machine.
 
 from __future__ import annotations
 
+import io
 import posixpath
 import re
 from collections.abc import Callable, Iterator, Sequence
@@ -29,10 +30,18 @@ from dataclasses import dataclass, field
 import pyarrow as pa
 
 from ...ingest import InputError, LedgerEntry, ReadOptions
+from ...ingest.compressed import unsupported_compressed
 from ...ingest.dates import date_value
 from ...ingest.document import Item
 from ...ingest.filters import file_reason, folder_reason
-from ...ingest.readers import ARCHIVE_FORMATS, STREAMED_FORMATS, format_of, read_bytes
+from ...ingest.readers import (
+    ARCHIVE_FORMATS,
+    STREAMED_FORMATS,
+    STREAMED_RECORD_FORMATS,
+    format_and_compression,
+    read_bytes,
+    read_stream,
+)
 from ..reading import _date_getter
 from .columns import ddl, numbers
 from .normalizing import DOCUMENTS, NORMALIZED, ledger_batch, normalized_batch
@@ -189,15 +198,25 @@ def _passed_folder(rel: str, opts: ReadOptions) -> str | None:
 def _screened(item: _Listed, opts: ReadOptions) -> LedgerEntry | None:
     """The entry of a file that is not read (as the local engine makes it), or None."""
     name = item.rel.rsplit("/", 1)[-1]
-    fmt = format_of(item.rel)
+    fmt, compression = format_and_compression(item.rel)
     reason = file_reason(item.rel, name, opts, found=item.walked, container=fmt in ARCHIVE_FORMATS)
     if reason:
         return LedgerEntry(item.rel, "skipped", reason, fmt or "")
     if fmt is None:
         ext = posixpath.splitext(name)[1] or "(no extension)"
-        return LedgerEntry(item.rel, "skipped", f"unsupported file type {ext}")
-    if fmt not in STREAMED_FORMATS and item.size > opts.max_file_bytes:
-        reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
+        return LedgerEntry(
+            item.rel, "skipped", unsupported_compressed(name) or f"unsupported file type {ext}"
+        )
+    # Archives, compressed files and record files are read as streams (limits per record or
+    # on the expansion), as on one machine.
+    streamed = fmt in STREAMED_FORMATS or fmt in STREAMED_RECORD_FORMATS or compression
+    if not streamed and item.size > opts.max_file_bytes:
+        advice = (
+            "raise --max-file-bytes, or write the records as JSON Lines"
+            if fmt == "json"
+            else "raise --max-file-bytes"
+        )
+        reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} ({advice})"
         return LedgerEntry(item.rel, "skipped", reason, fmt, item.size)
     if item.size > SPARK_FILE_LIMIT:
         reason = f"file too large for Spark to read whole: {item.size} bytes, limit {SPARK_FILE_LIMIT}"
@@ -282,10 +301,10 @@ def plan_reading(listed: list[_Listed], opts: ReadOptions) -> RemoteInputs:
         if what == "entry":
             inputs.driver_entries.append(((file_no, 0), value))
         elif value.on_driver:
-            found = (file_no, value.rel, format_of(value.rel))
+            found = (file_no, value.rel, format_and_compression(value.rel)[0])
             inputs.on_driver.append((value.load, found, value.mtime, value.size))
         else:
-            inputs.to_read[value.load] = (file_no, value.rel, format_of(value.rel))
+            inputs.to_read[value.load] = (file_no, value.rel, format_and_compression(value.rel)[0])
     return inputs
 
 
@@ -293,13 +312,22 @@ def _read_file(data: bytes, found: tuple[int, str, str], mtime: float, opts, dat
     """Documents (`DOCUMENTS` rows) and positioned entries of one file, read by our readers."""
     file_no, rel, fmt = found
     rows, positions, entries = [], [], []
-    for k, (doc, entry) in enumerate(read_bytes(data, Item(rel, rel, fmt, len(data), mtime), opts)):
+    for k, (doc, entry) in enumerate(_outcomes(data, Item(rel, rel, fmt, len(data), mtime), opts)):
         positions.append((file_no, k))
         entries.append(entry)
         if doc is not None:
             date = date_value(date_of(doc)) if date_of is not None else None
             rows.append((file_no, k, doc.id, doc.text, doc.source, doc.format, doc.title, date))
     return rows, positions, entries
+
+
+def _outcomes(data: bytes, item: Item, opts: ReadOptions):
+    """A file's outcomes as the local walk reads it: compressed and large record files as
+    streams, the rest from its bytes."""
+    _, compression = format_and_compression(item.id)
+    if compression or (item.format in STREAMED_RECORD_FORMATS and len(data) > opts.max_file_bytes):
+        return read_stream(io.BytesIO(data), item, opts, compression=compression)
+    return read_bytes(data, item, opts)
 
 
 def read_partition(settings, to_read) -> Callable[[Iterator[pa.RecordBatch]], Iterator[pa.RecordBatch]]:
