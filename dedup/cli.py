@@ -540,6 +540,12 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
     if s.get("distinct_texts", 0) < 2:
         # Nothing was compared: no statement about what a comparison would have caught.
         lines.append(f"candidates: none ({s.get('distinct_texts', 0):,} distinct texts: nothing to compare)")
+    elif result.candidates["expected_recall"].get("value", 1.0) is None:
+        lines.append(f"candidates: {result.candidates['reason']}")
+        measure = result.settings.measure
+        lines.append(
+            f"expected recall: none promised for {measure} with LSH (--candidates exhaustive finds every pair)"
+        )
     else:
         lines.append(f"candidates: {result.candidates['reason']}")
         lines.append(

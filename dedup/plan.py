@@ -16,7 +16,7 @@ An audit is a fixed sequence of steps over plain arrays and tables. Each step is
     templates       reduce   normalize.boilerplate.BoilerplateCounter (.add, .merge, .find)
     sketch          map      sketch_batch: features → MinHash → band keys, term counts
     frequencies     reduce   sketch.tfidf.DocumentFrequency (.add, .merge)
-    candidates      shuffle  candidates.lsh_candidate_pairs (or exhaustive on small corpora)
+    candidates      shuffle  candidates.lsh_candidate_pairs, or candidates.exact_candidate_pairs
     verify          map      verify.may_reach, verify.score_pairs (over pairs)
     cluster         driver   cluster.build_clusters (components, keepers, actions as data)
     align           map      align.align_pairs over confirmed pairs and member-keeper pairs
@@ -89,15 +89,23 @@ class Plan:
         return self.bands, self.rows
 
     def candidate_method(self, distinct_texts: int) -> str:
-        """``lsh`` or ``exhaustive``: ``auto`` compares every pair up to ``exhaustive_max_docs``."""
+        """``lsh`` or ``exhaustive`` (the measure's exact search, `dedup.candidates.exact`).
+
+        ``auto`` searches containment and cosine exactly at any size — LSH catches pairs
+        by Jaccard, which does not bound them — and Jaccard exactly up to
+        ``exhaustive_max_docs`` distinct texts, by LSH beyond.
+        """
         method = self.settings.candidates
         if method == "auto":
+            if self.settings.measure != "jaccard":
+                return "exhaustive"
             return "exhaustive" if distinct_texts <= self.settings.exhaustive_max_docs else "lsh"
         return method
 
     def may_need_lsh(self) -> bool:
         """Whether signatures may be needed before the corpus size is known."""
-        return self.settings.candidates != "exhaustive"
+        s = self.settings
+        return s.candidates == "lsh" or (s.candidates == "auto" and s.measure == "jaccard")
 
 
 def reading_keywords(settings: AuditSettings) -> dict:

@@ -177,12 +177,19 @@ class AuditSettings:
         A band bucket with more members than this (shared boilerplate) is recorded
         as a warning and only neighbouring members are paired, instead of all n².
     candidates : {"auto", "lsh", "exhaustive"}
-        ``exhaustive`` compares every pair exactly (sparse matrix product);
-        ``auto`` does so up to ``exhaustive_max_docs`` documents, else uses LSH.
+        ``exhaustive`` finds every pair that reaches the threshold, none missed, by the
+        measure's exact search (Jaccard: a sparse product; containment: an inverted
+        index of shingles with prefix filtering; cosine: an all-pairs search of the
+        TF-IDF rows, see `dedup.candidates.exact`). ``lsh``: MinHash LSH, which catches
+        pairs by their Jaccard only. ``auto``: exhaustive for containment and cosine at
+        any size, and for Jaccard up to ``exhaustive_max_docs`` distinct texts, else LSH.
     exhaustive_max_docs : int
-        Size up to which ``auto`` compares all pairs exactly.
+        Size up to which ``auto`` searches Jaccard pairs exactly.
     tfidf_features : int
-        Size of the hashed TF-IDF feature space (default 2**20).
+        TF-IDF columns. N > 0 (default 2**20): the hashing trick into N columns (terms
+        sharing a column raise the cosine; the share is reported in ``audit.json``); at
+        most 2**62 (`TFIDF_FEATURES_MAX`). 0: the exact vocabulary, one column per term,
+        so the cosine is exact (scikit-learn's on the same tokens).
     sublinear_tf : bool
         Use 1 + ln(tf) instead of raw term counts.
     keeper_policy : {"longest", "newest", "oldest", "shortest-path", "first-seen"}
@@ -324,7 +331,9 @@ class AuditSettings:
         "--candidates",
         group=CANDIDATES,
         choices=CANDIDATE_METHODS,
-        help="how candidate pairs are found; auto compares all pairs exactly for small inputs",
+        help="how candidate pairs are found: exhaustive finds every pair that reaches the threshold "
+        "(exact search for the measure), lsh by MinHash (Jaccard); auto: exhaustive for containment and "
+        "cosine, and for jaccard up to --exhaustive-max-docs texts",
     )
     exhaustive_max_docs: int = _setting(
         2000,
@@ -332,7 +341,7 @@ class AuditSettings:
         group=CANDIDATES,
         parse=int,
         metavar="N",
-        help="largest number of distinct texts for which auto compares all pairs",
+        help="largest number of distinct texts for which auto searches jaccard pairs exactly",
     )
     tfidf_features: int = _setting(
         2**20,
@@ -340,7 +349,8 @@ class AuditSettings:
         group=TFIDF,
         parse=int,
         metavar="N",
-        help="size of the hashed feature space",
+        help="TF-IDF columns: N > 0 hashes the terms into N columns, terms sharing a column raise the cosine "
+        "(the share is reported; at most 2**62); 0 = one column per term (exact vocabulary, exact cosine)",
     )
     sublinear_tf: bool = _setting(
         False, "--sublinear-tf", group=TFIDF, form="switch", help="use 1 + ln(tf) for term frequency"
@@ -617,7 +627,6 @@ class AuditSettings:
             "unique_min_words": self.unique_min_words,
             "num_perm": self.num_perm,
             "bucket_limit": self.bucket_limit,
-            "tfidf_features": self.tfidf_features,
             "max_file_bytes": self.max_file_bytes,
             "max_text_chars": self.max_text_chars,
             "max_archive_bytes": self.max_archive_bytes,
@@ -627,6 +636,9 @@ class AuditSettings:
         for name, value in positive.items():
             if not isinstance(value, int) or isinstance(value, bool) or value < 1:
                 fail(f"{name} must be a whole number of at least 1, got {value!r}")
+        features = self.tfidf_features
+        if not isinstance(features, int) or isinstance(features, bool) or features < 0:
+            fail(f"tfidf_features must be 0 (one column per term) or a number of columns, got {features!r}")
         self._validate_tfidf_features()
         if not isinstance(self.max_archive_ratio, (int, float)) or not self.max_archive_ratio >= 1:
             fail(f"max_archive_ratio must be a number of at least 1, got {self.max_archive_ratio!r}")

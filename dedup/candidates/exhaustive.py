@@ -17,17 +17,11 @@ __all__ = ["exhaustive_candidate_pairs"]
 
 
 def exhaustive_candidate_pairs(
-    shingles: np.ndarray,
-    shingle_offsets: np.ndarray,
-    tfidf_rows: sp.csr_matrix | None = None,
-    cosine_threshold: float | None = None,
+    shingles: np.ndarray, shingle_offsets: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Pairs ``(left < right)`` sharing at least one shingle.
-
-    With ``tfidf_rows`` and ``cosine_threshold``, pairs whose TF-IDF cosine reaches the
-    threshold are added too (cosine can be high without any shared shingle, e.g. when
-    sentences are reordered word by word).
-    """
+    """Pairs ``(left < right)`` sharing at least one shingle, sorted: every pair whose
+    Jaccard or containment is above 0. (Cosine can be high without a shared shingle,
+    e.g. sentences reordered word by word: its exact search is `cosine_candidate_pairs`.)"""
     n_docs = shingle_offsets.shape[0] - 1
     if n_docs < 2:
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
@@ -38,11 +32,5 @@ def exhaustive_candidate_pairs(
         shape=(n_docs, int(columns.max()) + 1 if columns.size else 0),
     )
     shared = sp.triu(incidence @ incidence.T, k=1).tocoo()
-    left, right = [shared.row.astype(np.int64)], [shared.col.astype(np.int64)]
-    if tfidf_rows is not None and cosine_threshold is not None:
-        close = sp.triu(tfidf_rows @ tfidf_rows.T, k=1).tocoo()
-        keep = close.data >= cosine_threshold - 1e-12
-        left.append(close.row[keep].astype(np.int64))
-        right.append(close.col[keep].astype(np.int64))
-    keys = sorted_distinct(np.concatenate(left) * n_docs + np.concatenate(right))
+    keys = sorted_distinct(shared.row.astype(np.int64) * n_docs + shared.col.astype(np.int64))
     return keys // n_docs, keys % n_docs

@@ -129,7 +129,8 @@ def _filled(features, frequencies: DocumentFrequency, text_bytes: int, n: int, p
 
     room = text_bytes + n + 1
     shingles = np.empty(room, dtype=np.uint64)
-    indices = np.empty(room, dtype=np.int32 if frequencies.n_features <= 2**31 else np.int64)
+    width = frequencies.width  # the vocabulary's size, or the hashed feature space
+    indices = np.empty(room, dtype=np.int32 if width <= 2**31 else np.int64)
     data = np.empty(room, dtype=np.float64)
     shingle_offsets = np.zeros(n + 1, dtype=np.int64)
     indptr = np.zeros(n + 1, dtype=np.int64)
@@ -150,6 +151,8 @@ def _filled(features, frequencies: DocumentFrequency, text_bytes: int, n: int, p
             progress(count)
     if model is None:
         model = frequencies.model(np.zeros(0, np.uint64), np.zeros(1, np.int64))
-    matrix = sp.csr_matrix((data[:used_nz], indices[:used_nz], indptr), shape=(n, frequencies.n_features))
-    model = TfidfModel(matrix, model.columns, model.column_idf, model.unseen_idf, model.sublinear_tf)
+    matrix = sp.csr_matrix((data[:used_nz], indices[:used_nz], indptr), shape=(n, width))
+    model = TfidfModel(
+        matrix, model.columns, model.column_idf, model.unseen_idf, model.sublinear_tf, model.vocabulary
+    )
     return shingles[:used_sh], shingle_offsets, model

@@ -273,7 +273,8 @@ def assemble(plan, paths: Sequence[str], found: Findings) -> AuditResult:
 
 
 def tfidf_block(frequencies, settings) -> dict:
-    """The hashed TF-IDF space and its collisions, with the weighting used."""
+    """The TF-IDF columns (exact vocabulary, or a hashed space and its collisions), with
+    the weighting used."""
     block = frequencies.collision_stats()
     block["sublinear_tf"] = settings.sublinear_tf
     block["idf"] = "ln((1 + n) / (1 + df)) + 1, over distinct texts"
@@ -281,7 +282,8 @@ def tfidf_block(frequencies, settings) -> dict:
 
 
 def candidates_block(plan, method: str, n_texts: int, candidate_pairs: int, oversize: int) -> dict:
-    """How candidates were found, and the recall to expect at the plan's bands."""
+    """How candidates were found, and the recall to expect for the audit's measure
+    (`dedup.report.records.candidates_block`; LSH's catch probabilities at the plan's bands)."""
     settings = plan.settings
     recall = recall_statement(settings.effective_candidate_threshold, plan.bands, plan.rows)
     return records.candidates_block(method, n_texts, plan, recall, candidate_pairs, oversize)

@@ -7,8 +7,9 @@
    sketched in a thread of their own as they are stored.
 2. **exact** — documents grouped by content hash; each distinct text is one row.
 3. **sketch** — otherwise the distinct texts are read back chunk by chunk and sketched.
-4. **candidates** — band keys bucketed (or every pair, for a small corpus); then the
-   shingle sets and TF-IDF rows of the compared texts are built.
+4. **candidates** — band keys bucketed, then the shingle sets and TF-IDF rows of the
+   compared texts built; or (exact search) those of every text built, then searched
+   for the measure (`dedup.candidates.exact_candidate_pairs`).
 5. **verify**, **cluster**, **records** — pairs ruled out early or scored in full; the
    confirmed pairs and exact groups grouped into clusters; the records assembled.
 
@@ -26,7 +27,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ..candidates import exhaustive_candidate_pairs, lsh_candidate_pairs
+from ..candidates import exact_candidate_pairs, lsh_candidate_pairs
 from ..features.segment_sort import sorted_distinct
 from ..features.shingles import from_word_hashes
 from ..ingest import LedgerEntry, Records, documents_of
@@ -217,10 +218,14 @@ class _Run:
             del signatures
             compared = compared_of(sorted_distinct(np.concatenate([left, right, exact_texts])), in_place=True)
         else:
+            # Every text is compared, numbered as it is (local numbers are text numbers).
             compared = compared_of(np.arange(n))
-            cosine_extra = settings.threshold if settings.measure == "cosine" else None
-            left, right = exhaustive_candidate_pairs(
-                compared.shingles, compared.shingle_offsets, compared.model.rows, cosine_extra
+            left, right = exact_candidate_pairs(
+                settings.measure,
+                settings.threshold,
+                compared.shingles,
+                compared.shingle_offsets,
+                compared.model.rows,
             )
         self.progress.done(f"{left.shape[0]:,} pairs")
         self.watch.lap("candidates")

@@ -65,7 +65,7 @@ from ..normalize.batch import prepare_documents
 from ..normalize.boilerplate import Boilerplate
 from ..plan import Plan, sketch_batch
 from ..sketch import estimate_jaccard
-from ..sketch.tfidf import DocumentFrequency
+from ..sketch.tfidf import DocumentFrequency, hashed_columns
 from .blobs import BlobError, unpack_array
 from .postings import Statistics, load_statistics, postings_of
 from .stopwords import stop_columns
@@ -110,7 +110,7 @@ def _term_names(text: str, token_hashes: np.ndarray, n_features: int) -> dict[in
     words = token_text(text).split()
     names: dict[int, set[str]] = {}
     if len(words) == token_hashes.shape[0]:
-        for word, column in zip(words, (token_hashes % np.uint64(n_features)).tolist()):
+        for word, column in zip(words, hashed_columns(token_hashes, n_features).tolist()):
             names.setdefault(int(column), set()).add(word)
     return {column: " / ".join(sorted(ws)) for column, ws in names.items()}
 

@@ -44,4 +44,6 @@ def stop_columns(n_features: int) -> np.ndarray:
     words = sorted(STOP_WORDS)
     buf, offsets = pack_bytes([w.encode("utf-8") for w in words])
     hashes, _ = tokenize.words_and_hashes(buf, offsets, tokenize.word_table())
-    return np.unique((hashes % np.uint64(n_features)).astype(np.int64))
+    from ..sketch.tfidf import hashed_columns
+
+    return np.unique(hashed_columns(hashes, n_features).astype(np.int64))

@@ -10,6 +10,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from ..candidates import EXACT_SEARCHES
 from ..verify import PairScores
 
 __all__ = [
@@ -118,7 +119,8 @@ def warning_records(oversize: list[dict], text_ids: Sequence[str], tfidf: dict, 
                 "kind": "tfidf-collisions",
                 "message": (
                     f"{tfidf['expected_colliding_share']:.1%} of the {tfidf['vocabulary_size']:,} terms are "
-                    f"expected to share a TF-IDF column; raise --tfidf-features above {settings.tfidf_features:,}"
+                    f"expected to share a TF-IDF column; give --tfidf-features 0 (one column per term) or "
+                    f"more than {settings.tfidf_features:,}"
                 ),
             }
         )
@@ -128,14 +130,18 @@ def warning_records(oversize: list[dict], text_ids: Sequence[str], tfidf: dict, 
 def candidates_block(
     method: str, n_texts: int, plan, recall: dict, candidate_pairs: int, oversize: int
 ) -> dict:
-    """How candidates were found, and the recall to expect."""
+    """How candidates were found, and the recall to expect for the audit's measure.
+
+    Jaccard keeps its record as it always was (the LSH probabilities are its recall).
+    For containment and cosine the reason names the search, and
+    ``expected_recall["value"]`` says what holds for that measure: 1.0 for the exact
+    search; None (no promise) for LSH, which catches pairs by Jaccard only — the
+    probabilities are then given for what they are, Jaccard levels.
+    """
+    measure = plan.settings.measure
     block = {
         "method": method,
-        "reason": (
-            f"{n_texts} distinct texts: every pair sharing a shingle is compared exactly (no pair is missed)"
-            if method == "exhaustive"
-            else f"{n_texts} distinct texts: MinHash LSH with {plan.bands} bands x {plan.rows} rows"
-        ),
+        "reason": _candidates_reason(method, n_texts, plan),
         "lsh_threshold": plan.settings.effective_candidate_threshold,
         "bands": plan.bands,
         "rows": plan.rows,
@@ -143,11 +149,42 @@ def candidates_block(
         "candidate_pairs": candidate_pairs,
         "oversize_buckets": oversize,
     }
+    if measure == "jaccard":
+        if method == "exhaustive":
+            block["expected_recall"]["note"] = (
+                "exhaustive comparison: recall is 1.0; the probabilities are what LSH would give at this size"
+            )
+        return block
     if method == "exhaustive":
-        block["expected_recall"]["note"] = (
-            "exhaustive comparison: recall is 1.0; the probabilities are what LSH would give at this size"
+        recall = {"value": 1.0, **recall}
+        recall["note"] = (
+            f"exact search for {measure}: every pair at or above the threshold is a candidate, recall is "
+            f"1.0; the probabilities are what LSH would catch at these Jaccard levels, for comparison only"
         )
+    else:
+        recall = {"value": None, **recall}
+        recall["note"] = (
+            f"no recall can be promised for {measure}: LSH catches a pair by its Jaccard, and a pair whose "
+            f"{measure} reaches the threshold may have a much lower Jaccard; the probabilities hold for pairs "
+            f"at these Jaccard levels only (--candidates auto searches {measure} exactly)"
+        )
+    block["expected_recall"] = recall
     return block
+
+
+def _candidates_reason(method: str, n_texts: int, plan) -> str:
+    measure, threshold = plan.settings.measure, plan.settings.threshold
+    lsh = f"{n_texts} distinct texts: MinHash LSH with {plan.bands} bands x {plan.rows} rows"
+    if measure == "jaccard":
+        if method == "exhaustive":
+            return f"{n_texts} distinct texts: every pair sharing a shingle is compared exactly (no pair is missed)"
+        return lsh
+    if method == "exhaustive":
+        return (
+            f"{n_texts} distinct texts: every pair whose {measure} reaches {threshold} is found exactly "
+            f"({EXACT_SEARCHES[measure]}; no pair is missed)"
+        )
+    return f"{lsh}, tuned for Jaccard {plan.settings.effective_candidate_threshold} (no recall bound for {measure})"
 
 
 def boilerplate_block(settings, boilerplate, affected: int, whole: int) -> dict:

@@ -1,7 +1,16 @@
-"""TF-IDF rows with the hashing trick over our stable token hashes.
+"""TF-IDF rows over our stable token hashes: one column per term, or the hashing trick.
 
-Each token goes to column ``token_hash mod n_features`` (Weinberger et al. 2009, the
-hashing trick), so no vocabulary has to be held or shipped. Weights follow
+With ``n_features = 0`` (the audit's default) every distinct term has a column of its
+own — the exact vocabulary: terms are counted by ``token_hash mod (2**63 - 1)`` while
+the texts stream by, and once every text has been counted the vocabulary (the distinct
+values, sorted) numbers the columns 0 … V - 1. Two terms share a column only when their
+64-bit hashes agree modulo 2**63 - 1, about once in 10**12 for a million terms; so the
+cosine is scikit-learn's on the same tokens. Nothing is sized by 2**63: the counts are
+sparse and the document frequencies are sorted runs of the columns met.
+
+With ``n_features > 0`` each token goes to column ``token_hash mod n_features``
+(Weinberger et al. 2009, the hashing trick), so the columns are known before the
+vocabulary is, and an index can add texts without renumbering. Weights follow
 scikit-learn's ``TfidfVectorizer(smooth_idf=True, norm="l2")``:
 
     tf      raw count, or 1 + ln(count) when ``sublinear_tf``
@@ -38,6 +47,16 @@ __all__ = [
 
 # Up to this many columns document frequencies are counted in a dense array (8 bytes each).
 DENSE_DF_LIMIT = 2**24
+# ``n_features`` that means the exact vocabulary, and the space its terms are counted in
+# first: 2**63 - 1 is prime, and every column fits a signed 64-bit index.
+EXACT_VOCABULARY = 0
+EXACT_SPACE = 2**63 - 1
+
+
+def counting_space(n_features: int) -> int:
+    """Columns term counts are made in: ``n_features``, or `EXACT_SPACE` for the exact
+    vocabulary (``n_features = 0``)."""
+    return EXACT_SPACE if n_features == EXACT_VOCABULARY else int(n_features)
 
 
 @dataclass(frozen=True)
@@ -47,13 +66,17 @@ class TfidfModel:
     Attributes
     ----------
     rows : scipy.sparse.csr_matrix
-        One unit-length row per document, shape ``(n_docs, n_features)``.
+        One unit-length row per document, shape ``(n_docs, n_features)`` (hashed) or
+        ``(n_docs, V)`` (exact vocabulary of V terms).
     columns, column_idf : ndarray
         The columns some document uses (sorted) and their idf; kept sparse so a
         feature space of 2**40 costs nothing.
     unseen_idf : float
         idf of a column no document uses (df = 0).
     sublinear_tf : bool
+    vocabulary : ndarray or None
+        Exact vocabulary only: the term (``token_hash mod EXACT_SPACE``) of each column,
+        sorted; None when hashed.
     """
 
     rows: sp.csr_matrix
@@ -61,6 +84,7 @@ class TfidfModel:
     column_idf: np.ndarray
     unseen_idf: float
     sublinear_tf: bool
+    vocabulary: np.ndarray | None = None
 
     @property
     def n_features(self) -> int:
@@ -81,10 +105,34 @@ class TfidfModel:
         return out
 
     def transform(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> sp.csr_matrix:
-        """Rows for new texts with the fitted idf (e.g. a search query)."""
-        counts = term_counts(token_hashes, token_offsets, self.n_features)
-        entry_idf = self.idf(counts.indices)
-        return _weight(counts, entry_idf, np.arange(entry_idf.shape[0]), self.sublinear_tf)
+        """Rows for new texts with the fitted idf (e.g. a search query). With the exact
+        vocabulary, terms no fitted text has get columns after the vocabulary's."""
+        if self.vocabulary is None:
+            counts = term_counts(token_hashes, token_offsets, self.n_features)
+            entry_idf = self.idf(counts.indices)
+            return _weight(counts, entry_idf, np.arange(entry_idf.shape[0]), self.sublinear_tf)
+        counts = term_counts(token_hashes, token_offsets, EXACT_VOCABULARY)
+        terms = counts.indices.astype(np.int64)
+        where = np.minimum(np.searchsorted(self.vocabulary, terms), max(self.vocabulary.shape[0] - 1, 0))
+        known = self.vocabulary[where] == terms if self.vocabulary.size else np.zeros(terms.shape, bool)
+        unseen, unseen_rank = np.unique(terms[~known], return_inverse=True)
+        columns = where.copy()
+        columns[~known] = self.vocabulary.shape[0] + unseen_rank.ravel()
+        entry_idf = np.where(known, self.column_idf[where] if self.column_idf.size else 0.0, self.unseen_idf)
+        width = self.vocabulary.shape[0] + unseen.shape[0]
+        ranked = _sorted_rows(counts.data, columns, counts.indptr, width)
+        order_idf = _sorted_rows(entry_idf, columns, counts.indptr, width).data
+        return _weight(ranked, order_idf, np.arange(order_idf.shape[0]), self.sublinear_tf)
+
+
+def _sorted_rows(data: np.ndarray, columns: np.ndarray, indptr: np.ndarray, width: int) -> sp.csr_matrix:
+    """CSR of the given entries with each row's columns sorted (renumbered columns may
+    come out of order)."""
+    matrix = sp.csr_matrix(
+        (np.asarray(data, np.float64).copy(), columns, indptr), shape=(len(indptr) - 1, width)
+    )
+    matrix.sort_indices()
+    return matrix
 
 
 @njit(cache=True, parallel=True, nogil=True)
@@ -114,11 +162,15 @@ def _fill_counts(columns, offsets, indptr, indices, data):
 
 def hashed_columns(token_hashes: np.ndarray, n_features: int) -> np.ndarray:
     """Column of every token: ``hash mod n_features`` as int64 (a mask and a view, no
-    copy beyond the result, when ``n_features`` is a power of two).
+    copy beyond the result, when ``n_features`` is a power of two); with ``n_features``
+    0 (the exact vocabulary), the term: ``hash mod EXACT_SPACE``.
 
     >>> hashed_columns(np.array([5, 2**64 - 1], np.uint64), 4).tolist()
     [1, 3]
+    >>> hashed_columns(np.array([5, 2**64 - 1], np.uint64), 0).tolist()
+    [5, 1]
     """
+    n_features = counting_space(n_features)
     if n_features & (n_features - 1) == 0 and n_features <= 2**62:
         return np.bitwise_and(token_hashes, np.uint64(n_features - 1)).view(np.int64)
     return (token_hashes % np.uint64(n_features)).astype(np.int64)
@@ -129,9 +181,12 @@ def term_counts(token_hashes: np.ndarray, token_offsets: np.ndarray, n_features:
 
     Rows count every hashed column (`hashed_columns`) of a document's tokens, as floats.
     Public because the index counts its texts the same way, so its rows equal the audit's.
+    With ``n_features`` 0 the columns are terms (``hash mod EXACT_SPACE``) in a matrix of
+    `EXACT_SPACE` columns: sparse, as every matrix here, so that size costs nothing.
     """
     n_docs = token_offsets.shape[0] - 1
     columns = hashed_columns(token_hashes, n_features)
+    n_features = counting_space(n_features)
     offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
     # Sorts each document's columns in place and counts the distinct ones.
     unique_counts = sort_segments_count_unique(columns, offsets)
@@ -196,8 +251,9 @@ def fit_tfidf(
 
     Notes
     -----
-    Cost O(tokens + n_features). idf = ln((1 + n) / (1 + df)) + 1 as in scikit-learn
-    with ``smooth_idf=True``.
+    Cost O(tokens + n_features), O(tokens log tokens) for the exact vocabulary
+    (``n_features=0``). idf = ln((1 + n) / (1 + df)) + 1 as in scikit-learn with
+    ``smooth_idf=True``.
 
     Examples
     --------
@@ -205,6 +261,10 @@ def fit_tfidf(
     >>> round(float(m.rows[1].multiply(m.rows[1]).sum()), 6)
     1.0
     """
+    if n_features == EXACT_VOCABULARY:
+        frequencies = DocumentFrequency(EXACT_VOCABULARY, sublinear_tf)
+        frequencies.add(token_hashes, token_offsets)
+        return frequencies.model(token_hashes, token_offsets)
     counts = term_counts(token_hashes, token_offsets, n_features)
     n_docs = counts.shape[0]
     if n_features <= DENSE_DF_LIMIT:
@@ -319,13 +379,17 @@ def _count_df(columns, offsets, first_doc, last_seen, df):
 
 
 class DocumentFrequency:
-    """Document frequencies of hashed columns counted chunk after chunk.
+    """Document frequencies of hashed columns (or of terms) counted chunk after chunk.
 
     An audit streams its texts once: each chunk's token hashes are counted here and
     dropped; afterwards `model` gives the idf of the whole corpus and the TF-IDF rows of
     just the texts that are compared — the same numbers `fit_tfidf` gives over all texts
     at once. The vocabulary for `collision_stats` is kept exactly while the corpus has at
     most `EXACT_VOCABULARY_LIMIT` tokens, as `collision_stats` does.
+
+    With ``n_features = 0`` the columns are the exact vocabulary (see the module notes):
+    `counts` are made in the term space, and `weigh` numbers the columns by the sorted
+    terms of the whole corpus, so its rows have one column per term.
 
     Examples
     --------
@@ -335,6 +399,10 @@ class DocumentFrequency:
     >>> ref = fit_tfidf(np.array([1, 2, 1], np.uint64), np.array([0, 2, 3]), n_features=8)
     >>> bool(np.allclose(m.rows.toarray(), ref.rows[0].toarray()))
     True
+    >>> exact = DocumentFrequency(0)
+    >>> exact.add(np.array([1, 2, 1], np.uint64), np.array([0, 2, 3]))
+    >>> exact.model(np.array([1, 2], np.uint64), np.array([0, 2])).rows.shape
+    (1, 2)
     """
 
     def __init__(self, n_features: int = 2**20, sublinear_tf: bool = False) -> None:
@@ -342,13 +410,15 @@ class DocumentFrequency:
         self.sublinear_tf = sublinear_tf
         self.n_docs = 0
         self.tokens = 0
-        self._dense = self.n_features <= DENSE_DF_LIMIT
+        self.exact = self.n_features == EXACT_VOCABULARY
+        self._dense = not self.exact and self.n_features <= DENSE_DF_LIMIT
         if self._dense:
             self._df = np.zeros(self.n_features, dtype=np.int64)
             self._last = np.full(self.n_features, -1, dtype=np.int64)
         else:
             self._parts: list[tuple[np.ndarray, np.ndarray]] = []
         self._vocabulary: DistinctSet | None = DistinctSet()
+        self._table: tuple[np.ndarray, np.ndarray] | None = None  # `_columns_and_df`, once counted
 
     def add(
         self, token_hashes: np.ndarray, token_offsets: np.ndarray, counts: sp.csr_matrix | None = None
@@ -357,6 +427,7 @@ class DocumentFrequency:
         already made, saves finding each document's columns again."""
         offsets = np.ascontiguousarray(token_offsets, dtype=np.int64)
         n = offsets.shape[0] - 1
+        self._table = None
         if counts is not None:
             # Each row holds a column once: the document frequencies are column counts.
             if self._dense:
@@ -396,6 +467,7 @@ class DocumentFrequency:
                 f"{self.n_features} features (sublinear {self.sublinear_tf}) and "
                 f"{other.n_features} (sublinear {other.sublinear_tf})"
             )
+        self._table = None
         if self._dense:
             self._df += other._df
             # Document numbers of ``other`` are all below the merged count: they never
@@ -423,6 +495,13 @@ class DocumentFrequency:
                 self._vocabulary = None
 
     def _columns_and_df(self) -> tuple[np.ndarray, np.ndarray]:
+        """The columns met (sorted) and their document frequencies; counted once after the
+        last `add` or `merge` (the parts are joined by one sort)."""
+        if self._table is None:
+            self._table = self._count_columns()
+        return self._table
+
+    def _count_columns(self) -> tuple[np.ndarray, np.ndarray]:
         if self._dense:
             columns = np.flatnonzero(self._df)
             return columns, self._df[columns]
@@ -435,12 +514,22 @@ class DocumentFrequency:
             np.int64
         )
 
+    @property
+    def width(self) -> int:
+        """Columns of the rows `weigh` makes: the vocabulary's size when exact, else ``n_features``."""
+        return int(self._columns_and_df()[0].shape[0]) if self.exact else self.n_features
+
     def collision_stats(self) -> dict:
-        """What `collision_stats` reports for the whole corpus."""
+        """What `collision_stats` reports for the whole corpus (for the exact vocabulary:
+        its size, and the share of terms that share a column by `EXACT_SPACE`)."""
         columns, _ = self._columns_and_df()
-        if self._vocabulary is not None:
+        if self.exact:
+            record = _exact_vocabulary_record(self._vocabulary, int(columns.shape[0]))
+        elif self._vocabulary is not None:
             return _exact_collisions(self._vocabulary.values(), self.n_features)
-        return _estimated_collisions(int(columns.shape[0]), self.n_features)
+        else:
+            return _estimated_collisions(int(columns.shape[0]), self.n_features)
+        return record
 
     def model(self, token_hashes: np.ndarray, token_offsets: np.ndarray) -> TfidfModel:
         """The fitted idf with the unit-length rows of the given texts."""
@@ -453,7 +542,9 @@ class DocumentFrequency:
 
     def weigh(self, counts: sp.csr_matrix) -> TfidfModel:
         """The fitted idf with the unit-length rows of term counts made by `counts` (whose
-        values become the weights: the counts are used up)."""
+        values become the weights: the counts are used up). For the exact vocabulary each
+        term becomes its column number (its rank among the corpus's terms): the terms are
+        sorted, so the row's columns stay sorted. Cost O(entries log V)."""
         columns, df = self._columns_and_df()
         column_idf = np.log((1.0 + self.n_docs) / (1.0 + df)) + 1.0
         unseen = float(np.log(1.0 + self.n_docs) + 1.0)
@@ -462,5 +553,32 @@ class DocumentFrequency:
             rows = _weight(counts, dense_idf, counts.indices, self.sublinear_tf, in_place=True)
         else:
             where = np.searchsorted(columns, counts.indices.astype(np.int64))
+            if self.exact:
+                width = columns.shape[0]
+                ranks = where.astype(np.int32 if width <= 2**31 else np.int64)
+                counts = sp.csr_matrix((counts.data, ranks, counts.indptr), shape=(counts.shape[0], width))
             rows = _weight(counts, column_idf, where, self.sublinear_tf, in_place=True)
+        if self.exact:
+            ranked = np.arange(columns.shape[0], dtype=np.int64)
+            return TfidfModel(rows, ranked, column_idf, unseen, self.sublinear_tf, columns.astype(np.int64))
         return TfidfModel(rows, columns.astype(np.int64), column_idf, unseen, self.sublinear_tf)
+
+
+def _exact_vocabulary_record(vocabulary: DistinctSet | None, n_columns: int) -> dict:
+    """The ``tfidf`` record of an exact vocabulary: V columns, one per term; the terms of
+    two distinct token hashes share one with probability 2**-63 (expected share
+    1 - (1 - 1/m)^(V - 1) with m = `EXACT_SPACE`), measured while the token hashes are kept."""
+    measured = None
+    if vocabulary is not None:
+        values = vocabulary.values()
+        _, counts = np.unique(hashed_columns(values, EXACT_VOCABULARY), return_counts=True)
+        measured = float(counts[counts > 1].sum()) / values.shape[0] if values.size else 0.0
+    expected = float(-np.expm1(max(n_columns - 1, 0) * np.log1p(-1.0 / EXACT_SPACE)))
+    return {
+        "n_features": EXACT_VOCABULARY,
+        "columns": "exact vocabulary: one column per term",
+        "vocabulary_size": int(n_columns),
+        "vocabulary_method": "exact",
+        "expected_colliding_share": expected,
+        "measured_colliding_share": measured,
+    }

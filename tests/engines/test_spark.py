@@ -215,8 +215,18 @@ def generated(tmp_path_factory) -> Path:
             "bucket_limit": 3,
         },
         {"measure": "jaccard", "threshold": 0.8, "candidates": "exhaustive"},
+        {"measure": "containment", "threshold": 0.3},
+        {"measure": "cosine", "threshold": 0.5, "tfidf_features": 0},
+        {"measure": "cosine", "threshold": 0.5, "tfidf_features": 2**16, "boilerplate": False},
     ],
-    ids=["lsh-jaccard-templates", "lsh-containment-oversize", "exhaustive-jaccard-templates"],
+    ids=[
+        "lsh-jaccard-templates",
+        "lsh-containment-oversize",
+        "exhaustive-jaccard-templates",
+        "exact-containment-templates",
+        "exact-cosine-templates",
+        "exact-cosine-hashed",
+    ],
 )
 def test_a_generated_corpus_gives_byte_identical_outputs(spark, generated, tmp_path, options):
     settings = AuditSettings(**options, id_field="id", text_fields=("body",))
@@ -225,6 +235,20 @@ def test_a_generated_corpus_gives_byte_identical_outputs(spark, generated, tmp_p
     assert local.summary["documents"] > 2000 and local.summary["clusters"] > 100
     if options.get("bucket_limit") == 3:  # oversize buckets: warned about the same way
         assert any(w["kind"] == "oversize-bucket" for w in on_spark.warnings)
+    if options["measure"] != "jaccard" and "candidates" not in options:  # searched exactly on the driver
+        assert on_spark.candidates["expected_recall"]["value"] == 1.0
+        assert on_spark.tfidf["n_features"] == options.get("tfidf_features", 2**20)
+
+
+@needs_spark
+def test_an_exact_search_too_large_for_the_driver_is_refused_with_the_way_out(spark, demo_path, monkeypatch):
+    from dedup.engines.spark import verifying
+
+    monkeypatch.setattr(verifying, "DRIVER_SEARCH_VALUES", 100)
+    settings = AuditSettings(**{**DEMO, **DEMO_TEXT})
+    with pytest.raises(dedup.SettingsError, match="--engine local") as caught:
+        dedup.audit([str(demo_path)], settings, engine="spark", spark_session=spark)
+    assert "exact containment search" in str(caught.value) and "at most 100" in str(caught.value)
 
 
 @needs_spark

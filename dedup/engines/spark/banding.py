@@ -21,9 +21,9 @@ members): buckets of different bands with the same members are one warning, as o
 one machine. Two different member sets share a fingerprint with probability about
 2^-128.
 
-Exhaustive candidates (every pair sharing a shingle, as `exhaustive_candidate_pairs`)
-are a self-join of ``(shingle, t)`` rows keyed by shingle; for cosine, pairs whose
-TF-IDF dot product reaches the threshold (a join keyed by column, summed by pair).
+Exhaustive candidates for Jaccard (every pair sharing a shingle, as
+`exhaustive_candidate_pairs`) are a self-join of ``(shingle, t)`` rows keyed by shingle;
+the exact searches of containment and cosine run on the driver (`driver_search`).
 """
 
 from __future__ import annotations
@@ -36,10 +36,9 @@ import pyarrow as pa
 from ...candidates.lsh import OVERSIZE_NEIGHBOURS
 from .columns import ddl, packed_values
 
-__all__ = ["shared_buckets", "lsh_pairs", "oversize_buckets", "exhaustive_pairs", "SHINGLE_ROWS", "TERM_ROWS"]
+__all__ = ["shared_buckets", "lsh_pairs", "oversize_buckets", "exhaustive_pairs", "SHINGLE_ROWS"]
 
 SHINGLE_ROWS = pa.schema([("shingle", pa.int64()), ("t", pa.int64())])
-TERM_ROWS = pa.schema([("column", pa.int64()), ("t", pa.int64()), ("weight", pa.float64())])
 # Members of an oversize bucket shown in its warning.
 SAMPLE = 5
 
@@ -126,41 +125,13 @@ def shingle_rows(batches: Iterator[pa.RecordBatch]) -> Iterator[pa.RecordBatch]:
         yield pa.RecordBatch.from_arrays(arrays, schema=SHINGLE_ROWS)
 
 
-def term_rows(batches: Iterator[pa.RecordBatch]) -> Iterator[pa.RecordBatch]:
-    """Map over sets (``t``, ``columns``, ``weights``): one row per column of a TF-IDF row."""
-    for batch in batches:
-        columns, offsets = packed_values(batch.column("columns"), np.int64)
-        weights, _ = packed_values(batch.column("weights"), np.float64)
-        t = np.asarray(batch.column("t").to_numpy(), np.int64)
-        arrays = [pa.array(columns), pa.array(np.repeat(t, np.diff(offsets))), pa.array(weights)]
-        yield pa.RecordBatch.from_arrays(arrays, schema=TERM_ROWS)
+def exhaustive_pairs(sets):
+    """Every pair ``(left < right)`` of texts sharing a shingle (the Jaccard exact search,
+    as `dedup.candidates.exhaustive_candidate_pairs`).
 
-
-def exhaustive_pairs(sets, cosine_threshold: float | None):
-    """Every pair ``(left < right)`` of texts sharing a shingle; with ``cosine_threshold``,
-    also the pairs whose TF-IDF cosine reaches it (within 1e-12, as on one machine).
-
-    Cost: O(sum over shingles of df²) rows, as the sparse product on one machine; the
-    cosine sums are added in an order Spark chooses, so a pair within a few ulps of
-    ``threshold - 1e-12`` could be taken on one engine and not the other (it is scored
-    exactly either way).
+    Cost: O(sum over shingles of df²) rows, as the sparse product on one machine.
     """
-    from pyspark.sql import functions as F
-
     rows = sets.select("t", "shingles").mapInArrow(shingle_rows, ddl(SHINGLE_ROWS))
     left = rows.withColumnRenamed("t", "left")
     right = rows.withColumnRenamed("t", "right")
-    pairs = left.join(right, "shingle").where("left < right").select("left", "right")
-    if cosine_threshold is not None:
-        terms = sets.select("t", "columns", "weights").mapInArrow(term_rows, ddl(TERM_ROWS))
-        a = terms.select("column", F.col("t").alias("left"), F.col("weight").alias("wl"))
-        b = terms.select("column", F.col("t").alias("right"), F.col("weight").alias("wr"))
-        dots = (
-            a.join(b, "column")
-            .where("left < right")
-            .groupBy("left", "right")
-            .agg(F.sum(F.col("wl") * F.col("wr")).alias("dot"))
-            .where(F.col("dot") >= cosine_threshold - 1e-12)
-        )
-        pairs = pairs.unionByName(dots.select("left", "right"))
-    return pairs.distinct()
+    return left.join(right, "shingle").where("left < right").select("left", "right").distinct()

@@ -15,6 +15,9 @@
                           pairs in small buckets (self-join), neighbours   pair
                           in oversize ones (lead over signature order);
                           exhaustive: (shingle, text) rows self-joined     shingle
+                          (Jaccard); containment and cosine: the sets
+                          collected and searched on the driver, up to
+                          `DRIVER_SEARCH_VALUES` (`driver_search`)
     sets         map      mapInArrow: shingle sets and TF-IDF rows of      text (semi-join)
                           the texts compared
     verify       map      pairs joined with both sets; may_reach,          text (two joins)
@@ -69,9 +72,11 @@ from .sketching import SKETCHED, merged_summaries, sketch_partition
 from .templates import boilerplate_of_counts, find_templates
 from .verifying import (
     CONFIRMED,
+    PAIRS,
     SETS,
     compared_sets_partition,
     confirmed_scores,
+    driver_search,
     driver_sets,
     verify_partition,
 )
@@ -97,6 +102,7 @@ class _SparkRun:
         self.originals_from = None  # documents with their original text, by read position
         self.broadcasts: list = []
         self.stages: dict[str, float] = {}
+        self.width = 0  # columns of the TF-IDF rows, once the frequencies are counted
         self._t = time.perf_counter()
 
     # -- bookkeeping ---------------------------------------------------------------------
@@ -219,6 +225,7 @@ class _SparkRun:
         run = sketch_partition(self.settings, lsh, shared_templates)
         sketched = self.keep(texts_frame.mapInArrow(run, ddl(SKETCHED)))
         summary = merged_summaries(sketched, self.settings)
+        self.width = summary.frequencies.width  # columns of the TF-IDF rows
         self.lap("features")
         return sketched, summary
 
@@ -248,8 +255,10 @@ class _SparkRun:
             sets = self.compared_sets(texts_frame, needed, shared_templates, summary.frequencies)
         else:
             sets = self.compared_sets(texts_frame, None, shared_templates, summary.frequencies)
-            cosine = s.threshold if s.measure == "cosine" else None
-            pairs = self.keep(exhaustive_pairs(sets, cosine))
+            if s.measure == "jaccard":
+                pairs = self.keep(exhaustive_pairs(sets))
+            else:
+                pairs = self.keep(self.frame(driver_search(sets, exact.texts.n, s, self.width), PAIRS))
             count = pairs.count()
         self.lap("candidates", f"{count:,} pairs")
         return pairs, count, oversize, sets
@@ -264,7 +273,7 @@ class _SparkRun:
         left = sets.select(F.col("t").alias("left"), *(F.col(c).alias("l_" + c) for c in columns))
         right = sets.select(F.col("t").alias("right"), *(F.col(c).alias("r_" + c) for c in columns))
         joined = pairs.join(left, "left").join(right, "right")
-        run = verify_partition(self.settings, self.settings.tfidf_features)
+        run = verify_partition(self.settings, self.width)
         table = joined.mapInArrow(run, ddl(CONFIRMED)).toArrow()
         confirmed, decided = confirmed_scores(table)
         self.lap("verify", f"{len(confirmed):,} confirmed")
@@ -282,7 +291,7 @@ class _SparkRun:
         )
         wanted = self.frame(pa.table({"t": clustered}, schema=_TEXTS), _TEXTS)
         table = sets.join(wanted, "t", "left_semi").toArrow() if clustered.shape[0] else SETS.empty_table()
-        held = driver_sets(table, texts.n, self.settings.tfidf_features)
+        held = driver_sets(table, texts.n, self.width)
         scorer = held.scorer(texts.text_of_doc)
         ledger_ids = [entry.document_id for entry in ledger]
         clusters, roles, exact_edges = spark_cluster_step(

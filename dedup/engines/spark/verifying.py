@@ -21,16 +21,32 @@ import numpy as np
 import pyarrow as pa
 import scipy.sparse as sp
 
+from ...candidates import exact_candidate_pairs
 from ...features.shingles import features_with
+from ...settings import SettingsError
 from ...verify import PairScores, deciding_score, may_reach, score_pairs
 from ..sketching import template_stripped
 from .columns import numbers, packed, packed_values, values_column
 
-__all__ = ["SETS", "CONFIRMED", "compared_sets_partition", "verify_partition", "DriverSets", "driver_sets"]
+__all__ = [
+    "SETS",
+    "CONFIRMED",
+    "PAIRS",
+    "compared_sets_partition",
+    "verify_partition",
+    "DriverSets",
+    "driver_sets",
+    "driver_search",
+    "DRIVER_SEARCH_VALUES",
+]
 
 SETS = pa.schema(
     [("t", pa.int64()), ("shingles", pa.binary()), ("columns", pa.binary()), ("weights", pa.binary())]
 )
+PAIRS = pa.schema([("left", pa.int64()), ("right", pa.int64())])
+# Most values (shingles, or TF-IDF entries) the exact search of containment or cosine
+# collects to the driver (8 bytes each, 16 for a TF-IDF entry; 4 GiB of shingles here).
+DRIVER_SEARCH_VALUES = 500_000_000
 CONFIRMED = pa.schema(
     [
         ("left", pa.int64()),
@@ -87,7 +103,10 @@ def packed_sets(parts: list[tuple], n_features: int) -> PackedSets:
     shingle_parts, offset_parts, index_parts, weight_parts, indptr_parts = [], [], [], [], []
     shingle_base = weight_base = 0
     for shingles_col, columns_col, weights_col in parts:
-        shingles, offsets = packed_values(shingles_col, np.uint64)
+        if shingles_col is None:  # TF-IDF rows only
+            shingles, offsets = np.zeros(0, np.uint64), np.zeros(len(columns_col) + 1, np.int64)
+        else:
+            shingles, offsets = packed_values(shingles_col, np.uint64)
         indices, indptr = packed_values(columns_col, np.int64)
         weights, _ = packed_values(weights_col, np.float64)
         shingle_parts.append(shingles)
@@ -202,3 +221,41 @@ def driver_sets(table: pa.Table, n_texts: int, n_features: int) -> DriverSets:
         else []
     )
     return DriverSets(local, packed_sets(parts, n_features))
+
+
+def driver_search(sets, n_texts: int, settings, width: int) -> pa.Table:
+    """The exact search of containment or cosine (`dedup.candidates.exact_candidate_pairs`)
+    on the driver: the sets it needs (shingles, or TF-IDF rows) collected in text order,
+    searched as on one machine, the candidate pairs returned as a table of `PAIRS`.
+
+    Raises
+    ------
+    dedup.SettingsError
+        The sets hold more than `DRIVER_SEARCH_VALUES` values (the driver would not hold
+        them): the message says how to run the audit instead.
+    """
+    from pyspark.sql import functions as F
+
+    column = "shingles" if settings.measure == "containment" else "weights"
+    size = sets.select(F.sum(F.length(column)).alias("bytes")).collect()[0]["bytes"] or 0
+    values = int(size) // 8
+    if values > DRIVER_SEARCH_VALUES:
+        raise SettingsError(
+            f"the exact {settings.measure} search of the Spark engine runs on the driver, and these "
+            f"{n_texts:,} texts hold {values:,} {column} values (at most {DRIVER_SEARCH_VALUES:,}): run "
+            "this audit with the local engine (--engine local), or give --candidates lsh (then no "
+            f"recall can be promised for {settings.measure})"
+        )
+    wanted = ["t", "shingles"] if settings.measure == "containment" else ["t", "columns", "weights"]
+    table = sets.select(*wanted).toArrow()
+    table = table.take(pa.array(np.argsort(numbers(table.column("t")), kind="stable")))
+    if numbers(table.column("t")).tolist() != list(range(n_texts)):
+        raise ValueError("the compared sets do not hold every distinct text once")
+    if settings.measure == "containment":
+        shingles, offsets = packed_values(table.column("shingles"), np.uint64)
+        rows = sp.csr_matrix((n_texts, max(width, 1)))
+    else:
+        shingles, offsets = np.zeros(0, np.uint64), np.zeros(n_texts + 1, np.int64)
+        rows = packed_sets([(None, table.column("columns"), table.column("weights"))], width).rows
+    left, right = exact_candidate_pairs(settings.measure, settings.threshold, shingles, offsets, rows)
+    return pa.table({"left": left, "right": right}, schema=PAIRS)
