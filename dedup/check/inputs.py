@@ -104,6 +104,7 @@ def _read_paths(
         max_text_chars=settings.max_text_chars,
         include=settings.include,
         exclude=settings.exclude,
+        keep_quote_marks=settings.exclude_quotes,
         ledger=entries,
     ):
         ledger.extend((role, e) for e in entries[taken:])

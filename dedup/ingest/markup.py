@@ -108,7 +108,7 @@ def _front_matter_end(lines: list[str]) -> int:
     return 0
 
 
-def _markdown(text: str) -> tuple[str, str]:
+def _markdown(text: str, keep_quote_marks: bool = False) -> tuple[str, str]:
     lines = list(_lines(text))
     start = _front_matter_end(lines)
     title = ""
@@ -135,7 +135,9 @@ def _markdown(text: str) -> tuple[str, str]:
             continue
         if _MD_TABLE_RULE.match(line) or _MD_REF_DEF.match(line):
             continue
-        line = _MD_QUOTE.sub("", line)
+        quote = _MD_QUOTE.match(line)
+        if quote:
+            line = line[quote.end() :]
         heading = _MD_ATX.match(line)
         line = _MD_ATX_CLOSE.sub("", line[heading.end() :]) if heading else _MD_LIST.sub("", line)
         if "|" in line and line.count("|") >= 2:
@@ -147,7 +149,7 @@ def _markdown(text: str) -> tuple[str, str]:
             line = _inline(line, _MD_INLINE)
         if heading and not title:
             title = line.strip()
-        out.append(line)
+        out.append("> " + line if quote and keep_quote_marks else line)
     body = _tidy(out)
     return body, (title or first_line_title(body))[:_TITLE_CHARS]
 
@@ -315,10 +317,16 @@ MARKUP_FORMATS: dict[str, Callable[[str], tuple[str, str]]] = {
 }
 
 
-def reduce_markup(text: str, fmt: str) -> tuple[str, str]:
+def reduce_markup(text: str, fmt: str, *, keep_quote_marks: bool = False) -> tuple[str, str]:
     """``(text, title)`` of a text file in one of `MARKUP_FORMATS`; plain text is kept as it is.
+    ``keep_quote_marks``: a Markdown block-quote line keeps its ``>`` (one, whatever the depth).
+
+    >>> reduce_markup("Intro\\n\\n> quoted words\\n", "markdown", keep_quote_marks=True)[0]
+    'Intro\\n\\n> quoted words'
 
     >>> reduce_markup("# Leave policy\\n\\n- **Annual** leave: see [the form](f.pdf)\\n", "markdown")
     ('Leave policy\\n\\nAnnual leave: see the form', 'Leave policy')
     """
+    if fmt == "markdown":
+        return _markdown(text, keep_quote_marks)
     return MARKUP_FORMATS[fmt](text)

@@ -87,6 +87,9 @@ class ReadOptions:
     work_per_char : int
         Steps a reader may take per character of a text (see `WorkBudget`); a file
         that needs more is skipped as too costly to read.
+    keep_quote_marks : bool
+        Keep the ``>`` that opens a Markdown block-quote line (the class check finds
+        quotations by it); an audit leaves it out, as all other markup.
     """
 
     id_field: str | None = None
@@ -104,6 +107,7 @@ class ReadOptions:
     max_archive_members: int = DEFAULT_MAX_ARCHIVE_MEMBERS
     max_run_members: int = DEFAULT_MAX_RUN_MEMBERS
     work_per_char: int = WORK_PER_CHAR
+    keep_quote_marks: bool = False
 
     def __post_init__(self) -> None:
         # Callers pass lists or a single string; keep the object hashable and frozen.

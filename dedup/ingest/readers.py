@@ -165,7 +165,7 @@ def _read_text(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
     elif item.format == "text":  # kept as it is
         body, title = text, first_line_title(text)
     else:
-        body, title = reduce_markup(text, item.format)
+        body, title = reduce_markup(text, item.format, keep_quote_marks=opts.keep_quote_marks)
     doc, entry = item.document(body, title=title, encoding=encoding)
     if body is text and encoding == "utf-8":
         doc.utf8 = data  # decoded strictly, so valid UTF-8: no lone surrogate to clean

@@ -653,6 +653,7 @@ def iter_documents(
     follow_links: bool = False,
     max_archive_members: int = DEFAULT_MAX_ARCHIVE_MEMBERS,
     max_run_members: int = DEFAULT_MAX_RUN_MEMBERS,
+    keep_quote_marks: bool = False,
     stdin: IO | None = None,
     unchanged: Callable[[str, float], bool] | None = None,
     workers: int = 1,
@@ -711,6 +712,7 @@ def iter_documents(
         follow_links=follow_links,
         max_archive_members=max_archive_members,
         max_run_members=max_run_members,
+        keep_quote_marks=keep_quote_marks,
     )
     missing = [r for r in roots if r != STDIN and not os.path.exists(r)]
     if missing:

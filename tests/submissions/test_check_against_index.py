@@ -100,3 +100,29 @@ def test_the_command_line_takes_an_index_of_references(small_class, tmp_path, ca
         == 2
     )
     assert "dedup: error:" in capsys.readouterr().err
+
+
+def test_a_markdown_block_quote_is_excluded_as_quoted(small_class, tmp_path):
+    from check_texts import SOURCE
+
+    import dedup
+
+    subs, refs, _ = small_class
+    (subs / "md-quoter.md").write_text(
+        "# My essay\n\nI lean on one account of the canal.\n\n> " + SOURCE + "\n\n— Hale (2011), p. 4.\n",
+        encoding="utf-8",
+    )
+    result = check([str(subs)], against=[str(refs)], settings=SETTINGS)
+    rows = [m for m in result.matches if m["submission"] == "md-quoter.md" and m["source"] == "brisk.txt"]
+    assert rows and all(m["status"] == "excluded" and m["reason"] == "quoted" for m in rows)
+    counted = check([str(subs)], against=[str(refs)], settings=SETTINGS.replace(exclude_quotes=False))
+    assert any(
+        m["status"] == "counted" for m in counted.matches if m["submission"] == "md-quoter.md"
+    )  # the same text counts when quotations are counted
+    # An audit reads Markdown without its quote marks, as before: the same essay without them is an exact copy.
+    essay = (subs / "md-quoter.md").read_text(encoding="utf-8")
+    (tmp_path / "audit").mkdir()
+    (tmp_path / "audit" / "quoted.md").write_text(essay, encoding="utf-8")
+    (tmp_path / "audit" / "plain.md").write_text(essay.replace("> ", ""), encoding="utf-8")
+    audited = dedup.audit([str(tmp_path / "audit")])
+    assert [sorted(g["members"]) for g in audited.exact_groups] == [["plain.md", "quoted.md"]]
