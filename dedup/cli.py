@@ -540,6 +540,9 @@ def _summary_lines(result, paths: dict[str, str]) -> list[str]:
     if s.get("distinct_texts", 0) < 2:
         # Nothing was compared: no statement about what a comparison would have caught.
         lines.append(f"candidates: none ({s.get('distinct_texts', 0):,} distinct texts: nothing to compare)")
+    elif result.settings.measure != "jaccard" and result.candidates["method"] == "exhaustive":
+        lines.append(f"candidates: {result.candidates['reason']}")
+        lines.append(f"expected recall: 100% (exact search for {result.settings.measure})")
     elif result.candidates["expected_recall"].get("value", 1.0) is None:
         lines.append(f"candidates: {result.candidates['reason']}")
         measure = result.settings.measure
