@@ -16,6 +16,7 @@ from collections.abc import Iterable, Iterator, Sequence
 from typing import Any
 
 from ..ingest import LedgerEntry, ReadOptions, Records, as_inputs, iter_documents
+from ..ingest.memory import is_table
 from .settings import CheckSettings
 
 __all__ = ["Input", "read_texts", "index_texts", "ledger_rows", "is_path", "INDEX_FORMAT"]
@@ -45,7 +46,7 @@ def read_texts(
     their common folder); pairs are taken as given. Raises `dedup.InputError` for a path that
     does not exist.
     """
-    if _is_table(items):
+    if is_table(items):
         yield from _read_rows(as_inputs(items), settings, role, ledger)
         return
     run: list[str] = []
@@ -63,14 +64,6 @@ def read_texts(
         else:
             ledger.append((role, LedgerEntry(ident, "empty", "no words", "record", len(text), "", "", "")))
     yield from _read_paths(run, settings, role, ledger)
-
-
-def _is_table(items: object) -> bool:
-    """A DataFrame, a pyarrow Table or `Records`: rows, not a list of inputs."""
-    if isinstance(items, Records):
-        return True
-    module = type(items).__module__.split(".")[0]
-    return module in ("pandas", "pyarrow") and (hasattr(items, "columns") or hasattr(items, "to_batches"))
 
 
 def _read_rows(

@@ -23,7 +23,7 @@ from .readers import _finish
 from .records import _metadata
 from .walk import InputError, iter_documents
 
-__all__ = ["Records", "as_inputs", "documents_of", "input_names", "RECORD_FORMAT"]
+__all__ = ["Records", "as_inputs", "documents_of", "input_names", "is_table", "RECORD_FORMAT"]
 
 # The format name of a document given in memory (ledger and documents).
 RECORD_FORMAT = "record"
@@ -145,6 +145,11 @@ def _text_of(value: object, column: str) -> tuple[str, str]:
 
 
 # -- what the user gave ------------------------------------------------------------------
+def is_table(data: object) -> bool:
+    """Whether ``data`` is rows to read as a whole: a pandas DataFrame, a pyarrow Table or `Records`."""
+    return isinstance(data, Records) or _is_pandas(data) or _is_arrow(data)
+
+
 def _is_pandas(data: object) -> bool:
     return type(data).__module__.split(".")[0] == "pandas" and hasattr(data, "columns")
 

@@ -18,20 +18,12 @@ import pytest
 import dedup
 from benchmarks.corpus import synthetic_documents
 from benchmarks.quality_scale import (
+    CHECKS,
     compute_truth,
     distinct_texts,
     measured_recall,
     plant_corpus,
     read_scale_corpus,
-)
-
-CHECKS = (
-    ("jaccard", 0.8),
-    ("containment", 0.8),
-    ("containment", 0.1),
-    ("cosine", 0.8),
-    ("cosine", 0.5),
-    ("cosine", 0.3),
 )
 
 
