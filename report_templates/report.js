@@ -331,6 +331,7 @@
       { label: "Score", num: true, desc: true, sort: function (k) { return p(k)[3]; }, cell: function (k) { return fmt(p(k)[3]); } },
       { label: "A covered", num: true, desc: true, sort: function (k) { return p(k)[4]; }, cell: function (k) { return p(k)[4] === null ? "" : pct(p(k)[4]); } },
       { label: "B covered", num: true, desc: true, sort: function (k) { return p(k)[5]; }, cell: function (k) { return p(k)[5] === null ? "" : pct(p(k)[5]); } },
+      { label: "Whole texts", num: true, desc: true, sort: function (k) { return p(k)[7]; }, cell: function (k) { return p(k)[7] === null || p(k)[7] === undefined ? "" : fmt(p(k)[7]); } },
       { label: "Passages", num: true, desc: true, sort: count, cell: function (k) { return count(k) === null ? "" : count(k); } },
       { label: "Read", cell: function (k) {
         return button("Read", "evidence-open", function () { openPair(k); }, { "aria-label": "Read " + names[p(k)[0]] + " with " + names[p(k)[1]] });
@@ -783,9 +784,15 @@
     if (!w.blocks.length) walkBox.appendChild(el("p", { cls: "aid", text: "Both texts are empty." }));
     slot.appendChild(walkBox);
   }
-  function pairFacts(pr) {
+  function pairFacts(pr, flip) {
     if (pr[2] === "exact") return "Exact copy: the same text after normalization.";
-    return "Pair score " + fmt(pr[3]) + " (" + data.measure + ").";
+    var facts = "Pair score " + fmt(pr[3]) + " (" + data.measure + ")";
+    var side = flip ? { left: "right", right: "left" }[pr[8]] || pr[8] : pr[8];
+    var out = { both: "both texts", left: "text A only", right: "text B only" }[side];
+    if (out && pr[7] !== null && pr[7] !== undefined) {
+      facts += ", with template lines left out of " + out + "; the whole texts have Jaccard " + fmt(pr[7]);
+    }
+    return facts + ".";
   }
   function readingView(c, detail, k, aDoc, close) {
     var pr = detail.pairs[k];
@@ -801,7 +808,7 @@
       el("div", {}, [el("dt", {}, [sideTag("a")]), el("dd", {}, [el("code", { text: names[a] })])]),
       el("div", {}, [el("dt", {}, [sideTag("b")]), el("dd", {}, [el("code", { text: names[b] })])]),
     ]));
-    box.appendChild(el("p", { cls: "aid", text: pairFacts(pr) + " A shared passage is evidence to read, not a finding: quotations, templates and common phrasing are shared too." }));
+    box.appendChild(el("p", { cls: "aid", text: pairFacts(pr, flip) + " A shared passage is evidence to read, not a finding: quotations, templates and common phrasing are shared too." }));
     var slot = el("div", { "aria-busy": "true" }, [el("p", { cls: "aid", text: "Unpacking the two texts…" })]);
     box.appendChild(slot);
     Promise.all([docText(a), docText(b)]).then(function (t) {

@@ -38,6 +38,7 @@ from ..progress import Progress
 from ..report import records
 from ..result import AuditResult
 from ..verify import PairScores, deciding_score, may_reach, score_pairs
+from ..verify.whole import whole_text_scores
 from ..workdir import WorkFolder
 from .compared import ComparedSets, SlotRows, compared_sets
 from .driver import (
@@ -333,6 +334,7 @@ def run_audit(
     sizes = np.diff(compared.shingle_offsets)
     pairs = pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)])
     originals = _clustered_texts(read.documents, read.original_slot, clusters, run.originals)
+    whole_text_scores(pairs, originals, boilerplate, settings)
     passages = run.align(pairs, clusters, originals)
     template_lines = boilerplate.counts if boilerplate is not None else None
     clusters, unique_runs = settle_step(

@@ -160,19 +160,21 @@ class Boilerplate:
     def __len__(self) -> int:
         return len(self.counts)
 
-    def strip(
+    def left_out(
         self, buf: np.ndarray, offsets: np.ndarray, max_text_share: float = 0.5
-    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """The texts to shingle (lines joined by spaces, boilerplate left out where the
-        rule of `without_boilerplate` allows), and per text whether boilerplate was left
-        out (``discounted``) or the text kept whole despite having some (``protected``).
-        """
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Per text, whether its template lines are left out of what is shingled
+        (``discounted``), or it has some but is kept whole because they would take more
+        than ``max_text_share`` of its characters (``protected``) — the rule of
+        `without_boilerplate`. Pure: no line text is recorded."""
+        return self._decide(buf, offsets, max_text_share)[:2]
+
+    def _decide(self, buf, offsets, max_text_share):
         starts, stops, per_text = line_spans(buf, offsets)
         n = per_text.shape[0] - 1
         if not self.counts:
-            out = buf.copy()
-            out[out == 0x0A] = 0x20
-            return out, np.asarray(offsets, dtype=np.int64), np.zeros(n, bool), np.zeros(n, bool)
+            nothing = np.zeros(n, bool)
+            return nothing, nothing, (starts, stops, per_text, None, None)
         hashes = line_hashes(buf, starts, stops)
         known = np.fromiter(self.counts, dtype=np.uint64, count=len(self.counts))
         known.sort()
@@ -188,8 +190,23 @@ class Boilerplate:
         total_chars, removed_chars = per(chars), per(np.where(shared, chars, 0))
         has = shared_lines > 0
         discounted = has & (shared_lines < lines) & (removed_chars <= max_text_share * total_chars)
-        protected = has & ~discounted
-        text_of_line = np.repeat(np.arange(n), lines)
+        return discounted, has & ~discounted, (starts, stops, per_text, hashes, shared)
+
+    def strip(
+        self, buf: np.ndarray, offsets: np.ndarray, max_text_share: float = 0.5
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """The texts to shingle (lines joined by spaces, boilerplate left out where the
+        rule of `without_boilerplate` allows), and per text whether boilerplate was left
+        out (``discounted``) or the text kept whole despite having some (``protected``).
+        """
+        discounted, protected, (starts, stops, per_text, hashes, shared) = self._decide(
+            buf, offsets, max_text_share
+        )
+        if hashes is None:
+            out = buf.copy()
+            out[out == 0x0A] = 0x20
+            return out, np.asarray(offsets, dtype=np.int64), discounted, protected
+        text_of_line = np.repeat(np.arange(discounted.shape[0]), np.diff(per_text))
         keep = ~(shared & discounted[text_of_line])
         # The text of each boilerplate line, from its first occurrence met.
         met, first = np.unique(hashes[shared], return_index=True)

@@ -61,6 +61,8 @@ PAIR_COLUMNS = [
     "shared_shingles",
     "left_covered",
     "right_covered",
+    "whole_text_jaccard",
+    "templates_left_out",
 ]
 CLUSTER_COLUMNS = [
     "cluster_id",

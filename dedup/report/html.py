@@ -154,7 +154,8 @@ def report_data(result, progress=None) -> dict:
     keeper_containment, cosine, deciding_score, linked_through (index or -1), action,
     reason, pair with the keeper (row of "pairs" or -1)], ...], "docs": [[bytes,
     content_hash, characters, cut (0/1), text blob], ...], "pairs": [[a, b, kind,
-    deciding_score, a_covered, b_covered, passages], ...]}`` where members and docs follow
+    deciding_score, a_covered, b_covered, passages, whole_text_jaccard, templates_left_out
+    (as seen from a: "left" is a's)], ...]}`` where members and docs follow
     documents[first:], a text blob is laid out as `_interleave` says, a pair is oriented
     as the audit's passages are (a = their left), and ``passages`` is null when the result
     has no passages at all (made without the passage stage), else a flat list of
@@ -389,19 +390,28 @@ def _add_pair(pairs: list[list], row_of: dict, ctx: _Context, p: dict) -> int:
     """Append one pair row (layout in `report_data`), oriented as its passages are; its row."""
     a_id, b_id = p["left"], p["right"]
     a_cov, b_cov = p.get("left_covered"), p.get("right_covered")
+    left_out = p.get("templates_left_out")
     flat = None
     if ctx.passages is not None:
         found = ctx.passages.get((a_id, b_id))
         if found is None and (b_id, a_id) in ctx.passages:
             a_id, b_id, a_cov, b_cov = b_id, a_id, b_cov, a_cov
+            left_out = _SWAPPED.get(left_out, left_out)
             found = ctx.passages[(a_id, b_id)]
     a, b = ctx.index_of[a_id], ctx.index_of[b_id]
     if ctx.passages is not None:
         flat = _flat_passages(found or [], _cut_length(ctx.slots[a]), _cut_length(ctx.slots[b]))
     row_of[_key(a, b)] = len(pairs)
-    pairs.append([a, b, p["kind"], _score(p["deciding_score"]), _share(a_cov), _share(b_cov), flat])
+    whole = _score(p.get("whole_text_jaccard"))
+    pairs.append(
+        [a, b, p["kind"], _score(p["deciding_score"]), _share(a_cov), _share(b_cov), flat, whole, left_out]
+    )
     ctx.pairs += 1
     return len(pairs) - 1
+
+
+# ``templates_left_out`` seen from the other side of the pair.
+_SWAPPED = {"left": "right", "right": "left"}
 
 
 def _cut_length(slot: list[int]) -> int:

@@ -70,7 +70,7 @@ def test_passages_are_numbers_that_point_at_the_same_words_in_both_texts(demo_re
     texts = _texts(data)
     seen = 0
     for detail in _details(data).values():
-        for a, b, _kind, _score, _ac, _bc, flat in detail["pairs"]:
+        for a, b, _kind, _score, _ac, _bc, flat, _whole, _left_out in detail["pairs"]:
             assert isinstance(flat, list) and all(isinstance(x, int) for x in flat)
             assert len(flat) % len(html.PASSAGE_FIELDS) == 0
             for i in range(0, len(flat), 7):
@@ -90,11 +90,13 @@ def test_covered_shares_come_from_the_pairs(demo_result):
     records = {(p["left"], p["right"]): p for p in demo_result.pairs}
     checked = 0
     for detail in _details(data).values():
-        for a, b, _kind, _score, a_covered, b_covered, _flat in detail["pairs"]:
+        for a, b, _kind, _score, a_covered, b_covered, _flat, whole, left_out in detail["pairs"]:
             record = records.get((data["documents"][a], data["documents"][b]))
             if record is not None and "left_covered" in record:
                 assert a_covered == round(record["left_covered"], 4)
                 assert b_covered == round(record["right_covered"], 4)
+                assert whole == round(record["whole_text_jaccard"], 6)
+                assert left_out == record["templates_left_out"]
                 checked += 1
     assert checked > 0
 
@@ -110,7 +112,7 @@ def test_passages_given_the_other_way_round_orient_the_pair(demo_result):
     texts = _texts(data)
     lefts = {(p["left"], p["right"]) for p in demo_result.passages}
     for detail in _details(data).values():
-        for a, b, *_rest, flat in detail["pairs"]:
+        for a, b, _kind, _score, _ac, _bc, flat, *_rest in detail["pairs"]:
             if flat:
                 assert (data["documents"][a], data["documents"][b]) in lefts
                 assert flat[4] == len(words_of(texts[a][flat[0] : flat[1]]))
@@ -133,7 +135,7 @@ def test_a_cut_text_is_marked_and_its_passages_end_at_the_cut(demo_result, monke
     assert any(d[3] == 1 and d[2] > 300 for d in docs)
     assert all(len(t) <= 300 for t in texts.values())
     for detail in _details(data).values():
-        for a, b, *_rest, flat in detail["pairs"]:
+        for a, b, _kind, _score, _ac, _bc, flat, *_rest in detail["pairs"]:
             for i in range(0, len(flat), 7):
                 assert flat[i] < flat[i + 1] <= len(texts[a]) and flat[i + 2] < flat[i + 3] <= len(texts[b])
 

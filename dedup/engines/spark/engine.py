@@ -50,6 +50,7 @@ from ...progress import Progress
 from ...report import records
 from ...result import AuditResult
 from ...settings import SettingsError
+from ...verify.whole import whole_text_scores
 from ...workdir import WorkFolder
 from ..driver import (
     Findings,
@@ -357,6 +358,7 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
     clusters, roles, exact_edges, held = run.cluster(exact, verified, sets, ledger, driver_edges)
     pairs = pair_records(texts, verified, exact_edges, held.sizes)
     originals = run.originals(exact, clusters)
+    whole_text_scores(pairs, originals, boilerplate, run.settings)
     passages = run.align(pairs, clusters, originals)
     clusters, unique_runs = run.settle(clusters, roles, texts, originals, boilerplate)
     found = Findings(

@@ -34,6 +34,7 @@ _DOUBLES = {
     "cosine",
     "left_covered",
     "right_covered",
+    "whole_text_jaccard",
     "jaccard_to_keeper",
     "containment_in_keeper",
     "keeper_containment",
