@@ -28,6 +28,8 @@ __all__ = [
     "KEEPER_POLICIES",
     "CANDIDATE_METHODS",
     "TFIDF_FEATURES_MAX",
+    "AUDIT_TFIDF_FEATURES",
+    "INDEX_TFIDF_FEATURES",
 ]
 
 MEASURES = ("jaccard", "containment", "cosine")
@@ -39,6 +41,13 @@ HASH_SCHEMES = ("stable64", "binned", "datasketch-sha1")
 # sparse; document frequencies are dense only up to `dedup.sketch.tfidf.DENSE_DF_LIMIT` columns),
 # so any space up to this bound costs no more memory than the columns the texts use.
 TFIDF_FEATURES_MAX = 2**62
+# What a ``tfidf_features`` left unset (None) becomes. An audit fits its TF-IDF once, so it
+# takes the exact vocabulary (one column per term, scikit-learn's cosine). An index adds
+# texts run after run into the columns it recorded, so it keeps the number it records and
+# a new one hashes into 2**20 columns, the space every index had before the setting could
+# be left unset (an index built then records 2**20 and takes unset settings as they are).
+AUDIT_TFIDF_FEATURES = 0
+INDEX_TFIDF_FEATURES = 2**20
 
 # Sections of the command-line help, in the order they are shown.
 GROUPS = (
@@ -185,11 +194,14 @@ class AuditSettings:
         any size, and for Jaccard up to ``exhaustive_max_docs`` distinct texts, else LSH.
     exhaustive_max_docs : int
         Size up to which ``auto`` searches Jaccard pairs exactly.
-    tfidf_features : int
-        TF-IDF columns. N > 0 (default 2**20): the hashing trick into N columns (terms
-        sharing a column raise the cosine; the share is reported in ``audit.json``); at
-        most 2**62 (`TFIDF_FEATURES_MAX`). 0: the exact vocabulary, one column per term,
-        so the cosine is exact (scikit-learn's on the same tokens).
+    tfidf_features : int or None
+        TF-IDF columns. 0: the exact vocabulary, one column per term, so the cosine is
+        exact (scikit-learn's on the same tokens). N > 0: the hashing trick into N
+        columns (terms sharing a column raise the cosine; the share is reported in
+        ``audit.json``); at most 2**62 (`TFIDF_FEATURES_MAX`). None (the default): the
+        engine's choice — an audit takes 0 (`AUDIT_TFIDF_FEATURES`, see
+        `audit_tfidf_features`), an index the number it records, or 2**20
+        (`INDEX_TFIDF_FEATURES`) when new (`dedup.index.store.index_choices`).
     sublinear_tf : bool
         Use 1 + ln(tf) instead of raw term counts.
     keeper_policy : {"longest", "newest", "oldest", "shortest-path", "first-seen"}
@@ -343,14 +355,15 @@ class AuditSettings:
         metavar="N",
         help="largest number of distinct texts for which auto searches jaccard pairs exactly",
     )
-    tfidf_features: int = _setting(
-        2**20,
+    tfidf_features: int | None = _setting(
+        None,
         "--tfidf-features",
         group=TFIDF,
         parse=int,
         metavar="N",
-        help="TF-IDF columns: N > 0 hashes the terms into N columns, terms sharing a column raise the cosine "
-        "(the share is reported; at most 2**62); 0 = one column per term (exact vocabulary, exact cosine)",
+        help="TF-IDF columns: 0 = one column per term (exact vocabulary, exact cosine); N > 0 hashes the "
+        "terms into N columns, terms sharing a column raise the cosine (the share is reported; at most 2**62)",
+        default_text="0 for an audit, 2**20 for a new index",
     )
     sublinear_tf: bool = _setting(
         False, "--sublinear-tf", group=TFIDF, form="switch", help="use 1 + ln(tf) for term frequency"
@@ -570,6 +583,12 @@ class AuditSettings:
         return self.threshold if self.measure == "jaccard" else 0.5
 
     @property
+    def audit_tfidf_features(self) -> int:
+        """TF-IDF columns of an audit: ``tfidf_features``, or `AUDIT_TFIDF_FEATURES` (0, the
+        exact vocabulary) when it is left unset."""
+        return AUDIT_TFIDF_FEATURES if self.tfidf_features is None else self.tfidf_features
+
+    @property
     def feature_name(self) -> str:
         """Plain description of the features, e.g. ``word 5-shingles``."""
         if self.char_ngrams:
@@ -581,11 +600,14 @@ class AuditSettings:
         return dataclasses.replace(self, **changes)
 
     def to_dict(self) -> dict[str, Any]:
-        """All settings as plain JSON-ready values, in declaration order."""
+        """All settings as plain JSON-ready values, in declaration order, as an audit runs
+        them: an unset ``tfidf_features`` is written as the number the audit uses
+        (`audit_tfidf_features`), so ``audit.json`` says which columns its cosines had."""
         out: dict[str, Any] = {}
         for f in dataclasses.fields(self):
             value = getattr(self, f.name)
             out[f.name] = list(value) if isinstance(value, tuple) else value
+        out["tfidf_features"] = self.audit_tfidf_features
         return out
 
     def validate(self) -> AuditSettings:
@@ -636,9 +658,6 @@ class AuditSettings:
         for name, value in positive.items():
             if not isinstance(value, int) or isinstance(value, bool) or value < 1:
                 fail(f"{name} must be a whole number of at least 1, got {value!r}")
-        features = self.tfidf_features
-        if not isinstance(features, int) or isinstance(features, bool) or features < 0:
-            fail(f"tfidf_features must be 0 (one column per term) or a number of columns, got {features!r}")
         self._validate_tfidf_features()
         if not isinstance(self.max_archive_ratio, (int, float)) or not self.max_archive_ratio >= 1:
             fail(f"max_archive_ratio must be a number of at least 1, got {self.max_archive_ratio!r}")
@@ -669,8 +688,15 @@ class AuditSettings:
         return self
 
     def _validate_tfidf_features(self) -> None:
-        """Refuse a feature space whose column numbers would overflow (see `TFIDF_FEATURES_MAX`)."""
+        """Refuse a feature space that is no whole number of columns, or whose column numbers
+        would overflow (see `TFIDF_FEATURES_MAX`); None (the engine's choice) is fine."""
         n = self.tfidf_features
+        if n is None:
+            return
+        if not isinstance(n, int) or isinstance(n, bool) or n < 0:
+            raise SettingsError(
+                f"tfidf_features must be 0 (one column per term) or a number of columns, got {n!r}"
+            )
         if n > TFIDF_FEATURES_MAX:
             raise SettingsError(
                 f"tfidf_features must be at most 2**62 = {TFIDF_FEATURES_MAX} (column numbers are 64-bit "

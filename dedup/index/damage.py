@@ -105,6 +105,9 @@ def stored_settings(text: str | None, required: Iterable[str]) -> AuditSettings:
     missing = [key for key in required if key not in stored]
     if missing:
         raise StoredValueError(f"its settings row lacks {', '.join(missing)}")
+    if "tfidf_features" in stored and stored["tfidf_features"] is None:
+        # Left unset, the setting is the engine's choice: an index records the number it chose.
+        raise StoredValueError("its settings row holds tfidf_features = null, not a number of columns")
     hints = _setting_types()
     known = {f.name for f in dataclasses.fields(AuditSettings)}
     values = {}

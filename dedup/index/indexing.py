@@ -47,7 +47,7 @@ from ..settings import AuditSettings
 from . import schema
 from .damage import StoredValueError
 from .postings import refresh_statistics
-from .store import Index, IndexFileError, open_index, read_keys, utc_now
+from .store import Index, IndexFileError, index_choices, open_index, read_keys, utc_now
 from .templates import CorpusLines, TemplateRule, changed_lines, load_templates, store_templates
 from .texts import NewTexts, delete_unused_texts, renumber, sketch_texts, stripped_otherwise, text_sequence
 
@@ -430,7 +430,8 @@ def build(
     settings : AuditSettings, optional
         Sketch settings (shingles, MinHash, TF-IDF), template settings (``boilerplate``,
         ``boilerplate_*``, ``ignore_text_file``) and reading options, recorded in the
-        index; default ``AuditSettings()``.
+        index; default ``AuditSettings()``. A ``tfidf_features`` left unset hashes the
+        terms into 2**20 columns (`dedup.index.store.index_choices`).
 
     Raises
     ------
@@ -444,7 +445,7 @@ def build(
     Cost O(total bytes) for reading, normalizing and sketching, plus writing every text's
     signature, shingles, term counts, line hashes and compressed canonical form once.
     """
-    settings = (settings or AuditSettings()).validate()
+    settings = index_choices(settings or AuditSettings()).validate()
     if os.path.exists(index_path) and os.path.getsize(index_path) > 0:
         with open_index(index_path) as existing, existing.guard():
             has_runs = existing.connection.execute("SELECT count(*) FROM runs").fetchone()[0]
@@ -476,6 +477,7 @@ def update(
         Default: the settings stored in the index. Given settings must have the same
         sketch settings (`SKETCH_KEYS`); their template settings and reading options are
         used and recorded (texts whose template lines they change are sketched again).
+        A ``tfidf_features`` left unset takes the stored number (`index_choices`).
 
     Raises
     ------
@@ -493,7 +495,8 @@ def update(
     stored term counts for the statistics.
     """
     with open_index(index_path, settings) as index:
-        chosen = (settings or index.settings).validate()
+        stored = index.settings
+        chosen = index_choices(settings or stored, stored).validate()
         roots = list(paths or []) or index_paths(index)
         if not roots:
             raise IndexFileError(f"the index {index_path} records no paths: give the paths to read")

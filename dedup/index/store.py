@@ -33,7 +33,7 @@ from collections.abc import Iterator
 from typing import Any
 
 from .. import __version__
-from ..settings import AuditSettings
+from ..settings import INDEX_TFIDF_FEATURES, AuditSettings
 from . import schema
 from .blobs import BlobError
 from .damage import StoredValueError, page_problems, stored_settings
@@ -43,6 +43,7 @@ __all__ = [
     "IndexFileError",
     "IndexSettingsError",
     "IndexBusyError",
+    "index_choices",
     "open_index",
     "SKETCH_KEYS",
     "TEMPLATE_KEYS",
@@ -107,8 +108,31 @@ def read_keys() -> tuple[str, ...]:
     return tuple(f.name for f in dataclasses.fields(AuditSettings) if f.name in names)
 
 
-def _index_settings(settings: AuditSettings) -> dict[str, Any]:
-    data = settings.to_dict()
+def index_choices(settings: AuditSettings, stored: AuditSettings | None = None) -> AuditSettings:
+    """``settings`` with the index's choice for what they leave to the engine.
+
+    A ``tfidf_features`` left unset (None) becomes the number ``stored`` (the index's own
+    settings) records, or `dedup.settings.INDEX_TFIDF_FEATURES` (2**20 hashed columns)
+    for a new index (``stored`` None): the index's term columns must stay those of its
+    stored counts, whatever an audit's default is. A number given stays as it is (and
+    `Index.check_settings` refuses one that differs from the stored one).
+
+    >>> index_choices(AuditSettings()).tfidf_features == INDEX_TFIDF_FEATURES
+    True
+    >>> index_choices(AuditSettings(), AuditSettings(tfidf_features=4096)).tfidf_features
+    4096
+    >>> index_choices(AuditSettings(tfidf_features=0), AuditSettings(tfidf_features=4096)).tfidf_features
+    0
+    """
+    if settings.tfidf_features is not None:
+        return settings
+    features = INDEX_TFIDF_FEATURES if stored is None else stored.tfidf_features
+    return settings.replace(tfidf_features=features)
+
+
+def _index_settings(settings: AuditSettings, stored: AuditSettings | None = None) -> dict[str, Any]:
+    """The settings an index records (``stored``: its own, for what ``settings`` leave unset)."""
+    data = index_choices(settings, stored).to_dict()
     return {key: data[key] for key in (*SKETCH_KEYS, *TEMPLATE_KEYS, *read_keys())}
 
 
@@ -213,14 +237,16 @@ class Index:
 
     def check_settings(self, settings: AuditSettings, stored: AuditSettings | None = None) -> None:
         """Refuse settings whose sketches could not be compared with the stored ones
-        (``stored``: the index's settings, when already read).
+        (``stored``: the index's settings, when already read). A setting left to the engine
+        (``tfidf_features`` None) takes the stored value (`index_choices`), so it never differs.
 
         Raises
         ------
         IndexSettingsError
             Naming every setting that differs, with both values.
         """
-        stored, given = _index_settings(stored or self.settings), _index_settings(settings)
+        stored = stored or self.settings
+        stored, given = _index_settings(stored), _index_settings(settings, stored)
         differ = [key for key in SKETCH_KEYS if stored[key] != given[key]]
         if differ:
             words = ", ".join(f"{key} {stored[key]!r} (given {given[key]!r})" for key in differ)
@@ -230,10 +256,11 @@ class Index:
             )
 
     def store_settings(self, settings: AuditSettings) -> None:
-        """Record the settings (inside a write transaction): the reading options may change."""
+        """Record the settings (inside a write transaction): the reading options may change;
+        what they leave unset keeps the stored value (`index_choices`)."""
         self.connection.execute(
             "UPDATE meta SET value = ? WHERE key = 'settings'",
-            (json.dumps(_index_settings(settings), sort_keys=True),),
+            (json.dumps(_index_settings(settings, self.settings), sort_keys=True),),
         )
 
     def require_sketched(self) -> None:
@@ -327,7 +354,8 @@ def open_index(path: str, settings: AuditSettings | None = None, *, create: bool
         The index file.
     settings : AuditSettings, optional
         Checked against the stored settings (`Index.check_settings`); for a new index,
-        the settings it is built with (default: ``AuditSettings()``).
+        the settings it is built with (default: ``AuditSettings()``), what they leave unset
+        chosen by `index_choices`.
     create : bool
         Create the file when it does not exist (or is empty, as an interrupted first
         build leaves it).

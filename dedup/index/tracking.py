@@ -87,7 +87,9 @@ def track_audit(
     ----------
     index_path : str
         The index; created (with the audit's settings) when it does not exist, so the
-        first scheduled audit needs no build.
+        first scheduled audit needs no build. A ``tfidf_features`` the audit left unset
+        (its exact vocabulary) gives the new index 2**20 hashed columns, as a build does
+        (`dedup.index.store.index_choices`).
     result : dedup.AuditResult
         A fresh audit; changed in place (reviews, proposed actions of reviewed members,
         ``stable_id`` of every cluster).

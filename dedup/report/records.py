@@ -119,8 +119,8 @@ def warning_records(oversize: list[dict], text_ids: Sequence[str], tfidf: dict, 
                 "kind": "tfidf-collisions",
                 "message": (
                     f"{tfidf['expected_colliding_share']:.1%} of the {tfidf['vocabulary_size']:,} terms are "
-                    f"expected to share a TF-IDF column; give --tfidf-features 0 (one column per term) or "
-                    f"more than {settings.tfidf_features:,}"
+                    f"expected to share a TF-IDF column; give --tfidf-features 0 (one column per term, the "
+                    f"audit's default) or more than {settings.audit_tfidf_features:,}"
                 ),
             }
         )

@@ -389,7 +389,9 @@ class DocumentFrequency:
 
     With ``n_features = 0`` the columns are the exact vocabulary (see the module notes):
     `counts` are made in the term space, and `weigh` numbers the columns by the sorted
-    terms of the whole corpus, so its rows have one column per term.
+    terms of the whole corpus, so its rows have one column per term. ``None`` (the
+    ``tfidf_features`` setting left unset, as the engines pass it) means the same: the
+    audit's default.
 
     Examples
     --------
@@ -405,8 +407,10 @@ class DocumentFrequency:
     (1, 2)
     """
 
-    def __init__(self, n_features: int = 2**20, sublinear_tf: bool = False) -> None:
-        self.n_features = int(n_features)
+    def __init__(self, n_features: int | None = 2**20, sublinear_tf: bool = False) -> None:
+        # None: a ``tfidf_features`` setting left unset, which an audit reads as the exact
+        # vocabulary (`dedup.settings.AUDIT_TFIDF_FEATURES`).
+        self.n_features = EXACT_VOCABULARY if n_features is None else int(n_features)
         self.sublinear_tf = sublinear_tf
         self.n_docs = 0
         self.tokens = 0

@@ -216,7 +216,7 @@ def generated(tmp_path_factory) -> Path:
         },
         {"measure": "jaccard", "threshold": 0.8, "candidates": "exhaustive"},
         {"measure": "containment", "threshold": 0.3},
-        {"measure": "cosine", "threshold": 0.5, "tfidf_features": 0},
+        {"measure": "cosine", "threshold": 0.5},  # the default TF-IDF space: the exact vocabulary
         {"measure": "cosine", "threshold": 0.5, "tfidf_features": 2**16, "boilerplate": False},
     ],
     ids=[
@@ -224,7 +224,7 @@ def generated(tmp_path_factory) -> Path:
         "lsh-containment-oversize",
         "exhaustive-jaccard-templates",
         "exact-containment-templates",
-        "exact-cosine-templates",
+        "exact-cosine-templates-default-tfidf",
         "exact-cosine-hashed",
     ],
 )
@@ -237,7 +237,8 @@ def test_a_generated_corpus_gives_byte_identical_outputs(spark, generated, tmp_p
         assert any(w["kind"] == "oversize-bucket" for w in on_spark.warnings)
     if options["measure"] != "jaccard" and "candidates" not in options:  # searched exactly on the driver
         assert on_spark.candidates["expected_recall"]["value"] == 1.0
-        assert on_spark.tfidf["n_features"] == options.get("tfidf_features", 2**20)
+        assert on_spark.tfidf["n_features"] == options.get("tfidf_features", 0)
+        assert on_spark.to_dict()["settings"]["tfidf_features"] == on_spark.tfidf["n_features"]
 
 
 @needs_spark

@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import argparse
+from pathlib import Path
 
 import pytest
-from index_helpers import edited
+from index_helpers import V1_CORPUS, edited, sqlite
 
 from benchmarks.corpus import synthetic_documents
 
@@ -46,3 +47,29 @@ def cli(capsys):
         return code, out.out, out.err
 
     return run
+
+
+# A dump (``sqlite3 .iterdump``) of a real version-1 index of `V1_CORPUS`, built by that dedup
+# with its defaults (see `test_index_migration`).
+V1_DUMP = Path(__file__).with_name("v1_index.sql")
+
+
+@pytest.fixture
+def v1_index(tmp_path) -> Path:
+    """The version-1 index, restored into a file of its own."""
+    from dedup.index import schema as index_schema
+
+    path = tmp_path / "v1.index"
+    with sqlite(path) as db:
+        db.execute(f"PRAGMA page_size = {16384}")
+        db.executescript(V1_DUMP.read_text(encoding="utf-8"))
+        db.execute(f"PRAGMA application_id = {index_schema.APPLICATION_ID}")
+        db.execute("PRAGMA journal_mode = WAL")
+        assert db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone() == ("1",)
+    return path
+
+
+@pytest.fixture
+def v1_corpus(write_corpus) -> Path:
+    """The files the version-1 index was built from."""
+    return write_corpus(V1_CORPUS)

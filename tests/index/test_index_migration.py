@@ -10,7 +10,6 @@ every text again.
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import pytest
 from index_helpers import V1_CORPUS, assert_same_as_fresh, sqlite
@@ -19,25 +18,6 @@ import dedup
 from dedup import AuditSettings
 from dedup.index import IndexFileError, open_index, similar, track_audit, update
 from dedup.index import schema as index_schema
-
-DUMP = Path(__file__).with_name("v1_index.sql")
-
-
-@pytest.fixture
-def v1_index(tmp_path) -> Path:
-    path = tmp_path / "v1.index"
-    with sqlite(path) as db:
-        db.execute(f"PRAGMA page_size = {16384}")
-        db.executescript(DUMP.read_text(encoding="utf-8"))
-        db.execute(f"PRAGMA application_id = {index_schema.APPLICATION_ID}")
-        db.execute("PRAGMA journal_mode = WAL")
-        assert db.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone() == ("1",)
-    return path
-
-
-@pytest.fixture
-def v1_corpus(write_corpus) -> Path:
-    return write_corpus(V1_CORPUS)
 
 
 def _count(path, table: str) -> int:

@@ -222,3 +222,13 @@ def test_a_text_shown_on_the_page_cannot_split_it(demo_result, line):
     assert page.count('id="audit-data"') == 1 and page.rstrip().endswith("</html>")
     if line.startswith("<"):
         assert line.replace("<", "&lt;").replace(">", "&gt;") in page
+
+
+def test_the_feature_space_line_names_the_exact_vocabulary_or_the_hashed_columns(demo_result):
+    exact = copy.deepcopy(demo_result)
+    exact.tfidf = {**exact.tfidf, "n_features": 0, "vocabulary_size": 2604}
+    page = render_html(exact)
+    assert "exact vocabulary: one column per term, 2,604 terms" in page and "0 columns for" not in page
+    hashed = copy.deepcopy(demo_result)
+    hashed.tfidf = {**hashed.tfidf, "n_features": 4096}
+    assert "4,096 columns for" in render_html(hashed)

@@ -3,8 +3,9 @@
 Reference: ``sklearn.feature_extraction.text.TfidfVectorizer(smooth_idf=True,
 sublinear_tf=…, norm="l2")`` fitted on the word texts the audit weighs (its distinct
 texts, tokens split on spaces), then ``sklearn.metrics.pairwise.cosine_similarity``.
-With the exact vocabulary (``tfidf_features=0``) every pair agrees to 1e-9;
-with a small hashed space terms share columns and the same check fails, as it must.
+With the exact vocabulary (``tfidf_features=0``, which is also what an audit takes when
+the setting is left unset) every pair agrees to 1e-9; with a small hashed space terms
+share columns and the same check fails, as it must.
 """
 
 from __future__ import annotations
@@ -109,17 +110,25 @@ def planted(tmp_path_factory):
     return folder
 
 
-def test_audit_cosines_and_pairs_equal_scikit_learn(planted):
-    """Reference: scikit-learn's cosine of every pair of the audit's distinct texts: the
-    audit reports exactly the pairs at or above the threshold, with the same cosine."""
-    threshold = 0.5
-    settings = dedup.AuditSettings(
-        measure="cosine", threshold=threshold, boilerplate=False, exhaustive_max_docs=20, tfidf_features=0
-    )
-    result = dedup.audit([str(planted)], settings)
+def _planted_reference(planted) -> tuple[list[str], np.ndarray]:
+    """The planted documents' ids and scikit-learn's cosine of every pair of them (the reference)."""
     paths = sorted(p for p in planted.rglob("*.txt"))
     ids = [p.relative_to(planted).as_posix() for p in paths]
-    expected = _reference(_words([p.read_text(encoding="utf-8") for p in paths]), False)
+    return ids, _reference(_words([p.read_text(encoding="utf-8") for p in paths]), False)
+
+
+@pytest.mark.parametrize("given", [{}, {"tfidf_features": 0}], ids=["default", "exact-given"])
+def test_audit_cosines_and_pairs_equal_scikit_learn(planted, given):
+    """Reference: scikit-learn's cosine (TfidfVectorizer + cosine_similarity) of every pair
+    of the audit's distinct texts: the audit — with its default TF-IDF space, and with the
+    exact vocabulary asked for — reports exactly the pairs at or above the threshold, with
+    the same cosine to 1e-9."""
+    threshold = 0.5
+    settings = dedup.AuditSettings(
+        measure="cosine", threshold=threshold, boilerplate=False, exhaustive_max_docs=20, **given
+    )
+    result = dedup.audit([str(planted)], settings)
+    ids, expected = _planted_reference(planted)
     number = {doc: k for k, doc in enumerate(ids)}
     near = [p for p in result.pairs if p["kind"] == "near"]
     assert len(near) > 20
@@ -135,3 +144,21 @@ def test_audit_cosines_and_pairs_equal_scikit_learn(planted):
         result.candidates["method"] == "exhaustive" and result.candidates["expected_recall"]["value"] == 1.0
     )
     assert result.tfidf["n_features"] == 0 and result.tfidf["vocabulary_size"] > 1000
+    assert result.tfidf["columns"] == "exact vocabulary: one column per term"
+    assert result.to_dict()["settings"]["tfidf_features"] == 0  # what audit.json records
+
+
+def test_a_hashed_space_given_to_the_audit_moves_its_cosines_off_scikit_learn(planted):
+    """The audit check above is able to fail: a hashed space given explicitly is honoured,
+    its terms share columns, and its cosines leave scikit-learn's (the reference)."""
+    settings = dedup.AuditSettings(
+        measure="cosine", threshold=0.5, boilerplate=False, exhaustive_max_docs=20, tfidf_features=512
+    )
+    result = dedup.audit([str(planted)], settings)
+    ids, expected = _planted_reference(planted)
+    number = {doc: k for k, doc in enumerate(ids)}
+    near = [p for p in result.pairs if p["kind"] == "near"]
+    worst = max(abs(p["cosine"] - expected[number[p["left"]], number[p["right"]]]) for p in near)
+    assert worst > 1e-3
+    assert result.tfidf["n_features"] == 512 and result.tfidf["measured_colliding_share"] > 0.5
+    assert result.to_dict()["settings"]["tfidf_features"] == 512
