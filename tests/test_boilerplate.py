@@ -96,3 +96,35 @@ def test_a_family_of_generated_pages_is_compared_whole(write_corpus):
 def test_canonical_lines_joined_equal_the_canonical_text(text):
     """The audit hashes exact copies from the joined lines; it must equal canonical_text of the whole."""
     assert " ".join(canonical_lines(text)) == canonical_text(text)
+
+
+NOTICE = [
+    f"Notice line {i}: this handbook page is reviewed by the depot council each spring and summer."
+    for i in range(10)
+]
+
+
+def _page(body_word: str, i: int) -> list[str]:
+    return [
+        f"{body_word} step {k} of procedure {i} covers the visit, the estimate and the reading."
+        for k in range(12)
+    ]
+
+
+def test_a_copy_whose_template_lines_were_rewrapped_is_still_found(write_corpus):
+    """Only the original loses its template lines when the copy's are re-wrapped: the two
+    are compared whole as well, so the copy is found (and says it was compared whole)."""
+    words = ["Meter", "Leave", "Fleet", "Badge", "Token", "Ferry"]
+    files = {f"page{i}.txt": "\n".join(_page(w, i) + NOTICE) for i, w in enumerate(words)}
+    body = _page(words[0], 0)
+    body[3] = body[3].replace("estimate", "written estimate")
+    rewrapped = [" ".join(NOTICE[k : k + 2]) for k in range(0, len(NOTICE), 2)]
+    files["copy.txt"] = "\n".join(body + rewrapped)
+    root = write_corpus(files)
+    result = dedup.audit([str(root)])
+    assert result.boilerplate["lines"] == len(NOTICE)
+    pairs = {tuple(sorted((p["left"], p["right"]))): p for p in result.pairs}
+    found = pairs[("copy.txt", "page0.txt")]
+    assert found["templates_left_out"] == "none"
+    assert found["jaccard"] == found["whole_text_jaccard"] >= 0.8
+    assert set(pairs) == {("copy.txt", "page0.txt")}  # the pages sharing only the notice are no pair

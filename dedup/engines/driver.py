@@ -113,6 +113,50 @@ class Verified:
     confirmed: PairScores  # left/right are distinct-text numbers
     decided: np.ndarray
     candidates: int
+    whole: np.ndarray | None = None  # True: confirmed only when compared as whole texts
+
+    def select(self, mask: np.ndarray) -> Verified:
+        whole = None if self.whole is None else self.whole[mask]
+        return Verified(self.confirmed.select(mask), self.decided[mask], self.candidates, whole)
+
+
+def with_whole_texts(without_templates: Verified, whole_texts: Verified) -> Verified:
+    """The pairs confirmed on the texts without their template lines, and those confirmed
+    only when the texts are compared whole (marked in ``whole``), in (left, right) order.
+
+    Leaving template lines out must not hide two texts that, as they are, reach the
+    threshold: a copy whose template lines were re-wrapped or re-punctuated keeps them
+    while its original loses them, and two texts that are mostly template differ most in
+    the little that is left. So the audit also compares the whole texts and keeps both
+    findings; a pair found both ways keeps its scores without template lines.
+    Cost: O(pairs log pairs).
+    """
+    a, b = without_templates.confirmed, whole_texts.confirmed
+    only = ~np.isin(_pair_keys(b.left, b.right), _pair_keys(a.left, a.right))
+    joined = PairScores(*(np.concatenate([getattr(a, f), getattr(b, f)[only]]) for f in a.__dataclass_fields__))
+    decided = np.concatenate([without_templates.decided, whole_texts.decided[only]])
+    whole = np.concatenate([np.zeros(len(a), bool), np.ones(int(only.sum()), bool)])
+    merged = Verified(joined, decided, without_templates.candidates + whole_texts.candidates, whole)
+    return merged.select(np.lexsort((joined.right, joined.left)))
+
+
+def whole_text_threshold(settings) -> float:
+    """The score two whole texts must reach to be confirmed as whole texts.
+
+    Shared template text can make up to ``boilerplate_max_text_share`` (s) of each text
+    before the text is compared whole anyway. A template shared alone then gives whole
+    texts a Jaccard of at most s / (2 - s) and a containment of s; for the whole texts to
+    reach the floor, their own text must share at least half (Jaccard of the own texts
+    0.5 needs a whole-text Jaccard of (2 + s) / (4 - s), containment (1 + s) / 2). So a
+    low threshold never turns a shared footer into a pair. With s = 0.5 the floor is 0.75.
+    """
+    share = settings.boilerplate_max_text_share
+    return max(settings.threshold, (2 + share) / (4 - share), (1 + share) / 2)
+
+
+def _pair_keys(left: np.ndarray, right: np.ndarray) -> np.ndarray:
+    lo, hi = np.minimum(left, right).astype(np.uint64), np.maximum(left, right).astype(np.uint64)
+    return (lo << np.uint64(32)) | hi
 
 
 def exact_edges_of(groups: list[list[int]], edge_score: dict) -> tuple[list[int], list[int]]:
@@ -131,7 +175,7 @@ def pair_records(
 ) -> list[dict]:
     """Confirmed near pairs and exact pairs, highest score first (``shingles_of`` gives
     the shingle count of distinct texts)."""
-    pairs = records.near_pair_records(texts.text_ids, verified.confirmed, verified.decided)
+    pairs = records.near_pair_records(texts.text_ids, verified.confirmed, verified.decided, verified.whole)
     ids = texts.ids
     firsts = np.asarray([a for a, _ in exact_edges], dtype=np.int64)
     counts = shingles_of(texts.text_of_doc[firsts]).tolist() if len(firsts) else []

@@ -53,6 +53,8 @@ from .driver import (
     pair_records,
     settle_step,
     tfidf_block,
+    whole_text_threshold,
+    with_whole_texts,
 )
 from .reading import ReadResult, read_pass
 from .sketching import ChunkSketcher, SketchResult, sketch_pass, text_order
@@ -91,8 +93,9 @@ class Stopwatch:
         self._t = now
 
     def lap(self, stage: str) -> None:
+        """End a step (a step run twice adds up)."""
         now = time.perf_counter()
-        self.stages[stage] = round(now - self._t, 4)
+        self.stages[stage] = round(self.stages.get(stage, 0.0) + now - self._t, 4)
         self.peaks[stage] = peak_rss_mb()
         self._t = now
 
@@ -161,23 +164,27 @@ class _Run:
         self.watch.split("ingest", read.read_seconds, "normalize")
         return read, early
 
-    def sketch(self, texts: DistinctTexts, early, boilerplate, method: str) -> SketchResult:
-        """The sketch step over the distinct texts (or the end of the one overlapped)."""
-        self.progress.start("shingling", texts.n)
+    def sketch(
+        self, texts: DistinctTexts, early, boilerplate, method: str, whole: bool = False
+    ) -> SketchResult:
+        """The sketch step over the distinct texts (or the end of the one overlapped);
+        ``whole``: the second pass, over the whole texts (files of its own)."""
+        tag = "-whole" if whole else ""
+        self.progress.start("shingling whole texts" if whole else "shingling", texts.n)
         if early is not None:
             # Sketched during the read pass, in store order; the slots are the texts' own.
             sketch = early.finish(text_order(texts.slots))
             self.progress.advance(texts.n)
         else:
             keep_words = from_word_hashes(self.settings) and self.canonicals.size <= KEEP_WORDS_TEXT_BYTES
-            self.word_store = self.work.store("words") if keep_words else None
+            self.word_store = self.work.store(f"words{tag}") if keep_words else None
             sketch = sketch_pass(
                 texts.slots,
                 self.canonicals,
                 boilerplate,
                 self.settings,
                 lsh=self.plan.lsh if method == "lsh" else None,
-                signature_path=self.work.file("signatures.u32"),
+                signature_path=self.work.file(f"signatures{tag}.u32"),
                 progress=self.progress,
                 word_store=self.word_store,
             )
@@ -186,10 +193,10 @@ class _Run:
         return sketch
 
     def candidates(
-        self, texts: DistinctTexts, sketch: SketchResult, boilerplate, method: str
+        self, texts: DistinctTexts, sketch: SketchResult, boilerplate, method: str, also=None
     ) -> tuple[np.ndarray, np.ndarray, list[dict], ComparedSets]:
         """The candidates step: candidate pairs of distinct texts, oversize buckets, and the
-        sets of the texts compared."""
+        sets of the texts compared (and of the texts ``also``, paired another way)."""
         settings, n = self.settings, texts.n
         exact_texts = np.asarray([texts.text_of_doc[g[0]] for g in texts.groups], dtype=np.int64)
         self.progress.start("candidates")
@@ -217,7 +224,8 @@ class _Run:
                 signatures, self.plan.bands, self.plan.rows, settings.bucket_limit, keys=sketch.keys
             )
             del signatures
-            compared = compared_of(sorted_distinct(np.concatenate([left, right, exact_texts])), in_place=True)
+            ends = [left, right, exact_texts] + ([] if also is None else [np.asarray(also, np.int64)])
+            compared = compared_of(sorted_distinct(np.concatenate(ends)), in_place=True)
         else:
             # Every text is compared, numbered as it is (local numbers are text numbers).
             compared = compared_of(np.arange(n))
@@ -232,11 +240,14 @@ class _Run:
         self.watch.lap("candidates")
         return left, right, oversize, compared
 
-    def verify(self, left: np.ndarray, right: np.ndarray, compared: ComparedSets) -> Verified:
-        """The verify step: most candidates fall well short of the threshold; they are ruled
-        out first, by a merge that stops as soon as they cannot reach it; the rest are
-        scored in full."""
+    def verify(
+        self, left: np.ndarray, right: np.ndarray, compared: ComparedSets, threshold: float | None = None
+    ) -> Verified:
+        """The verify step: most candidates fall well short of the threshold (the
+        settings', unless given); they are ruled out first, by a merge that stops as soon
+        as they cannot reach it; the rest are scored in full."""
         settings = self.settings
+        threshold = settings.threshold if threshold is None else threshold
         self.progress.start("verifying", int(left.shape[0]))
         reach = may_reach(
             compared.shingles,
@@ -244,7 +255,7 @@ class _Run:
             compared.of(left),
             compared.of(right),
             settings.measure,
-            settings.threshold,
+            threshold,
         )
         n_candidates = int(left.shape[0])
         left, right = left[reach], right[reach]
@@ -257,7 +268,7 @@ class _Run:
         )
         scores = _with_ends(scores, left, right)
         decided = deciding_score(scores, settings.measure) if len(scores) else np.zeros(0)
-        sure = decided >= settings.threshold
+        sure = decided >= threshold
         self.progress.done(f"{int(sure.sum()):,} confirmed")
         self.watch.lap("verify")
         return Verified(scores.select(sure), decided[sure], n_candidates)
@@ -278,6 +289,17 @@ class _Run:
         clustered = cluster_step(texts, verified, score_against, self.settings, ledger_ids)
         self.watch.lap("cluster")
         return clustered
+
+    def whole_texts(self, texts: DistinctTexts, method: str) -> tuple[Verified, list[dict]]:
+        """The sketch, candidates and verify steps again, over the whole texts (template
+        lines kept), for `driver.with_whole_texts`; with their oversize buckets. Cost: the
+        three steps once more."""
+        first_words = self.word_store  # the first pass's word hashes, for its compared sets
+        sketch = self.sketch(texts, None, None, method, whole=True)
+        left, right, oversize, compared = self.candidates(texts, sketch, None, method)
+        verified = self.verify(left, right, compared, whole_text_threshold(self.settings))
+        self.word_store = first_words
+        return verified, oversize
 
     def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]) -> list[dict]:
         """The align step (`driver.align_step`), in two threads where kernels may share them."""
@@ -328,8 +350,14 @@ def run_audit(
         )
     method = plan.candidate_method(texts.n)
     sketch = run.sketch(texts, early, boilerplate, method)
-    left, right, oversize, compared = run.candidates(texts, sketch, boilerplate, method)
+    whole, more = None, []
+    if sketch.texts_affected:  # template lines were left out of some texts: compare them whole too
+        whole, more = run.whole_texts(texts, method)
+    also = None if whole is None else np.concatenate([whole.confirmed.left, whole.confirmed.right])
+    left, right, oversize, compared = run.candidates(texts, sketch, boilerplate, method, also)
     verified = run.verify(left, right, compared)
+    if whole is not None:
+        verified, oversize = with_whole_texts(verified, whole), oversize + more
     clusters, roles, exact_edges = run.cluster(texts, verified, compared, ledger)
     sizes = np.diff(compared.shingle_offsets)
     pairs = pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)])
@@ -349,7 +377,7 @@ def run_audit(
             settings, boilerplate, sketch.texts_affected, sketch.texts_compared_whole
         ),
         tfidf=tfidf_block(sketch.frequencies, settings),
-        candidates=candidates_block(plan, method, texts.n, int(left.shape[0]), len(oversize)),
+        candidates=candidates_block(plan, method, texts.n, verified.candidates, len(oversize)),
         oversize=oversize,
         verified=verified,
         clusters=clusters,

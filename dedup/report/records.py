@@ -31,9 +31,12 @@ __all__ = [
 COLLISION_WARNING_SHARE = 0.05
 
 
-def near_pair_records(ids: Sequence[str], scores: PairScores, decided: np.ndarray) -> list[dict]:
-    """One record per confirmed near pair (``scores.left/right`` index ``ids``)."""
-    return [
+def near_pair_records(
+    ids: Sequence[str], scores: PairScores, decided: np.ndarray, whole: np.ndarray | None = None
+) -> list[dict]:
+    """One record per confirmed near pair (``scores.left/right`` index ``ids``); a pair
+    confirmed only as whole texts (``whole``) says no template lines were left out."""
+    pairs = [
         {
             "left": ids[int(scores.left[i])],
             "right": ids[int(scores.right[i])],
@@ -47,6 +50,10 @@ def near_pair_records(ids: Sequence[str], scores: PairScores, decided: np.ndarra
         }
         for i in range(len(scores))
     ]
+    if whole is not None:
+        for i in np.flatnonzero(whole).tolist():
+            pairs[i]["templates_left_out"] = "none"
+    return pairs
 
 
 def exact_pair_record(left: str, right: str, shingles: int) -> dict:

@@ -58,7 +58,8 @@ class WholeTexts:
 
 
 def whole_text_scores(pairs: list[dict], texts: dict[str, str], boilerplate, settings) -> None:
-    """Add ``whole_text_jaccard`` and ``templates_left_out`` to each pair record.
+    """Add ``whole_text_jaccard`` to each pair record, and ``templates_left_out`` where the
+    record does not say it already (a pair confirmed as whole texts says ``none``).
 
     ``texts`` maps document ids to their text as read (every document of a pair);
     ``boilerplate`` is the audit's `Boilerplate` (None without template lines).
@@ -74,4 +75,4 @@ def whole_text_scores(pairs: list[dict], texts: dict[str, str], boilerplate, set
     flags = whole.left_out.tolist()
     for p, score, a, b in zip(pairs, scores, left.tolist(), right.tolist()):
         p["whole_text_jaccard"] = float(score)
-        p["templates_left_out"] = LEFT_OUT[(flags[a], flags[b])]
+        p.setdefault("templates_left_out", LEFT_OUT[(flags[a], flags[b])])

@@ -158,6 +158,35 @@ def test_odd_corpora_give_byte_identical_outputs(spark, write_corpus, tmp_path, 
     assert local.summary["clusters"] > 0 and local.boilerplate["lines"] > 0
 
 
+def _rewrapped_corpus() -> dict[str, str]:
+    """Pages sharing a notice (template lines) and a copy whose notice lines were re-wrapped:
+    only the original loses them, so the pair is found when the texts are compared whole."""
+    notice = [
+        f"Notice line {i}: this handbook page is reviewed by the depot council each spring."
+        for i in range(10)
+    ]
+    words = ["Meter", "Leave", "Fleet", "Badge", "Token", "Ferry"]
+    pages = [
+        [f"{w} step {k} of procedure {i} covers the visit, the estimate and the reading." for k in range(12)]
+        for i, w in enumerate(words)
+    ]
+    files = {f"page{i}.txt": "\n".join(page + notice) for i, page in enumerate(pages)}
+    copy = list(pages[0])
+    copy[3] = copy[3].replace("estimate", "written estimate")
+    files["copy.txt"] = "\n".join(copy + [" ".join(notice[k : k + 2]) for k in range(0, 10, 2)])
+    return files
+
+
+@needs_spark
+@pytest.mark.parametrize("candidates", ["lsh", "exhaustive"])
+def test_pairs_found_as_whole_texts_are_the_same_on_spark(spark, write_corpus, tmp_path, candidates):
+    root = write_corpus(_rewrapped_corpus())
+    settings = AuditSettings(candidates=candidates, threshold=0.8)
+    local, on_spark, same = _both([root], settings, spark, tmp_path)
+    assert all(same.values()), same
+    assert [p["templates_left_out"] for p in local.pairs] == ["none"]
+
+
 @needs_spark
 def test_a_folder_without_documents_gives_the_same_empty_audit(spark, tmp_path):
     (tmp_path / "nothing").mkdir()

@@ -70,7 +70,7 @@ def _batched_clusters(
         part_texts = dataclasses.replace(
             texts, groups=[g for g, keep in zip(texts.groups, exact.tolist()) if keep]
         )
-        part = Verified(verified.confirmed.select(near), verified.decided[near], verified.candidates)
+        part = verified.select(near)
         made, made_roles, _ = cluster_step(part_texts, part, score_against, settings, ledger_ids)
         clusters.extend(made)
         roles.update(made_roles)

@@ -61,6 +61,8 @@ from ..driver import (
     pair_records,
     settle_step,
     tfidf_block,
+    whole_text_threshold,
+    with_whole_texts,
 )
 from .banding import exhaustive_pairs, lsh_pairs, oversize_buckets, shared_buckets
 from .clustering import DRIVER_COMPONENT_EDGES, spark_cluster_step
@@ -127,9 +129,10 @@ class _SparkRun:
         self.progress.start(name, total)
 
     def lap(self, name: str, note: str = "") -> None:
-        """End a step: its seconds (for ``run.json``) and its progress line."""
+        """End a step: its seconds (for ``run.json``; a step run twice adds up) and its
+        progress line."""
         now = time.perf_counter()
-        self.stages[name] = round(now - self._t, 4)
+        self.stages[name] = round(self.stages.get(name, 0.0) + now - self._t, 4)
         self._t = now
         self.progress.done(note)
 
@@ -236,9 +239,11 @@ class _SparkRun:
         run = compared_sets_partition(self.settings, shared_templates, self.share(frequencies))
         return self.keep(chosen.mapInArrow(run, ddl(SETS)))
 
-    def candidates(self, texts_frame, sketched, exact: ExactStep, method: str, shared_templates, summary):
+    def candidates(
+        self, texts_frame, sketched, exact: ExactStep, method: str, shared_templates, summary, also=None
+    ):
         """The candidates step: candidate pairs (persisted), their number, oversize buckets,
-        and the sets of the texts compared."""
+        and the sets of the texts compared (and of the texts ``also``, paired another way)."""
         self.step("candidates")
         s = self.settings
         exact_texts = np.asarray([exact.texts.text_of_doc[g[0]] for g in exact.texts.groups], np.int64)
@@ -250,9 +255,8 @@ class _SparkRun:
             count = pairs.count()
             oversize = oversize_buckets(big) if not big.isEmpty() else []
             ends = pairs.select(pairs.left.alias("t")).unionByName(pairs.select(pairs.right.alias("t")))
-            needed = ends.unionByName(
-                self.frame(pa.table({"t": exact_texts}, schema=_TEXTS), _TEXTS)
-            ).distinct()
+            more = exact_texts if also is None else np.concatenate([exact_texts, np.asarray(also, np.int64)])
+            needed = ends.unionByName(self.frame(pa.table({"t": more}, schema=_TEXTS), _TEXTS)).distinct()
             sets = self.compared_sets(texts_frame, needed, shared_templates, summary.frequencies)
         else:
             sets = self.compared_sets(texts_frame, None, shared_templates, summary.frequencies)
@@ -264,9 +268,10 @@ class _SparkRun:
         self.lap("candidates", f"{count:,} pairs")
         return pairs, count, oversize, sets
 
-    def verify(self, pairs, count: int, sets) -> Verified:
+    def verify(self, pairs, count: int, sets, threshold: float | None = None) -> Verified:
         """The verify step: pairs joined with both texts' sets, scored in a map; the
-        confirmed ones collected in (left, right) order."""
+        confirmed ones (at the settings' threshold unless given) collected in (left,
+        right) order."""
         from pyspark.sql import functions as F
 
         self.step("verifying", count)
@@ -274,11 +279,23 @@ class _SparkRun:
         left = sets.select(F.col("t").alias("left"), *(F.col(c).alias("l_" + c) for c in columns))
         right = sets.select(F.col("t").alias("right"), *(F.col(c).alias("r_" + c) for c in columns))
         joined = pairs.join(left, "left").join(right, "right")
-        run = verify_partition(self.settings, self.width)
+        settings = self.settings if threshold is None else self.settings.replace(threshold=threshold)
+        run = verify_partition(settings, self.width)
         table = joined.mapInArrow(run, ddl(CONFIRMED)).toArrow()
         confirmed, decided = confirmed_scores(table)
         self.lap("verify", f"{len(confirmed):,} confirmed")
         return Verified(confirmed, decided, count)
+
+    def whole_texts(self, texts_frame, exact: ExactStep, method: str) -> tuple[Verified, list[dict]]:
+        """The sketch, candidates and verify steps again, over the whole texts (template
+        lines kept), for `with_whole_texts`; with their oversize buckets. The TF-IDF width
+        of the first pass is kept for the steps after."""
+        width = self.width
+        sketched, summary = self.sketch(texts_frame, method, None)
+        pairs, count, oversize, sets = self.candidates(texts_frame, sketched, exact, method, None, summary)
+        verified = self.verify(pairs, count, sets, whole_text_threshold(self.settings))
+        self.width = width
+        return verified, oversize
 
     def cluster(self, exact: ExactStep, verified: Verified, sets, ledger, driver_edges: int):
         """The cluster step, with the sets of the clustered texts brought to the driver."""
@@ -351,10 +368,16 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
     if boilerplate is not None:
         for h, line in summary.line_texts.items():
             boilerplate.texts.setdefault(h, line)
+    whole, more = None, []
+    if summary.texts_affected:  # template lines were left out of some texts: compare them whole too
+        whole, more = run.whole_texts(texts_frame, exact, method)
+    also = None if whole is None else np.concatenate([whole.confirmed.left, whole.confirmed.right])
     pairs, count, oversize, sets = run.candidates(
-        texts_frame, sketched, exact, method, shared_templates, summary
+        texts_frame, sketched, exact, method, shared_templates, summary, also
     )
     verified = run.verify(pairs, count, sets)
+    if whole is not None:
+        verified, oversize = with_whole_texts(verified, whole), oversize + more
     clusters, roles, exact_edges, held = run.cluster(exact, verified, sets, ledger, driver_edges)
     pairs = pair_records(texts, verified, exact_edges, held.sizes)
     originals = run.originals(exact, clusters)
@@ -369,7 +392,7 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
             settings, boilerplate, summary.texts_affected, summary.texts_compared_whole
         ),
         tfidf=tfidf_block(summary.frequencies, settings),
-        candidates=candidates_block(plan, method, texts.n, count, len(oversize)),
+        candidates=candidates_block(plan, method, texts.n, verified.candidates, len(oversize)),
         oversize=oversize,
         verified=verified,
         clusters=clusters,
