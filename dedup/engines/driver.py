@@ -133,7 +133,9 @@ def with_whole_texts(without_templates: Verified, whole_texts: Verified) -> Veri
     """
     a, b = without_templates.confirmed, whole_texts.confirmed
     only = ~np.isin(_pair_keys(b.left, b.right), _pair_keys(a.left, a.right))
-    joined = PairScores(*(np.concatenate([getattr(a, f), getattr(b, f)[only]]) for f in a.__dataclass_fields__))
+    joined = PairScores(
+        *(np.concatenate([getattr(a, f), getattr(b, f)[only]]) for f in a.__dataclass_fields__)
+    )
     decided = np.concatenate([without_templates.decided, whole_texts.decided[only]])
     whole = np.concatenate([np.zeros(len(a), bool), np.ones(int(only.sum()), bool)])
     merged = Verified(joined, decided, without_templates.candidates + whole_texts.candidates, whole)
