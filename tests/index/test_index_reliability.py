@@ -147,16 +147,21 @@ def test_sigkill_from_outside_while_the_update_writes(pending, tmp_path, stage, 
 def test_sigkill_at_any_moment_leaves_either_state(pending):
     """Kills at growing delays, from before the update starts until it has committed."""
     root, index, before, after = pending
-    for attempt in range(1, 30):
+    delay = 0.15
+    while True:  # no attempt limit a loaded machine could run out of: the delay grows until the update ends
         child = _child(root, index, "none", "none", 0, "kill")
-        time.sleep(0.15 * attempt)
-        child.send_signal(signal.SIGKILL)
-        child.communicate(timeout=120)
+        try:
+            child.wait(timeout=delay)  # the update ended before the kill
+        except subprocess.TimeoutExpired:
+            child.send_signal(signal.SIGKILL)
+        _, err = child.communicate(timeout=120)
         _check_whole(index)
         state = _state(index)
         assert state == before or state[:3] == after[:3]
         if state != before:
             break
+        assert child.returncode == -signal.SIGKILL, f"the update ended without committing: {err}"
+        delay += 0.15
     assert state[:3] == after[:3]
 
 
