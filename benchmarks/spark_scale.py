@@ -108,14 +108,26 @@ def run_spark(folder: str, out: str, master: str, uri: bool) -> dict:
     return figures
 
 
+def _records(folder: str) -> int:
+    """Documents in a corpus folder made before (one JSON record per line)."""
+    count = 0
+    for name in os.listdir(folder):
+        with open(os.path.join(folder, name), "rb") as handle:
+            count += sum(1 for _ in handle)
+    return count
+
+
 def _child(args: list[str]) -> dict:
     done = subprocess.run(
         [sys.executable, "-m", "benchmarks.spark_scale", "--one", *args],
-        check=True,
         capture_output=True,
         text=True,
         env={**os.environ, "PYSPARK_PYTHON": sys.executable},
     )
+    if done.returncode != 0:  # the child's own error, not only its exit status
+        said = [line for line in done.stderr.splitlines() if line.strip() and not line.startswith("\tat ")]
+        tail = "\n".join(said[:40] + ["..."] + said[-20:])
+        raise SystemExit(f"the run {' '.join(args[:1] + args[3:])} failed (exit {done.returncode}):\n{tail}")
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
@@ -142,6 +154,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000])
     parser.add_argument("--masters", nargs="+", default=["local[1]", "local[2]"])
     parser.add_argument("--uri", action="store_true", help="also give Spark the corpus as a file:// URI")
+    parser.add_argument("--corpus", help="folder for the corpora (kept, and reused when there)")
     parser.add_argument("--one", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.one:  # a child process: one run, its figures as the last line of stdout
@@ -155,8 +168,8 @@ def main(argv: list[str] | None = None) -> int:
 
     for n in args.sizes:
         with tempfile.TemporaryDirectory(prefix="dedup-spark-scale-") as tmp:
-            folder = os.path.join(tmp, "corpus")
-            documents = make_corpus(Path(folder), n)
+            folder = os.path.join(args.corpus, str(n)) if args.corpus else os.path.join(tmp, "corpus")
+            documents = _records(folder) if os.path.isdir(folder) else make_corpus(Path(folder), n)
             print(f"{documents:,} documents ({n:,} synthetic, 5% with an edited copy)", flush=True)
             local = _child(["local", folder, os.path.join(tmp, "out-local")])
             _print(local, None)

@@ -89,7 +89,7 @@ __all__ = ["run_audit_spark"]
 log = logging.getLogger("dedup.engines.spark")
 
 # Up to this many distinct texts, their read positions (24 bytes each) are broadcast.
-BROADCAST_TEXTS = 2_000_000
+BROADCAST_TEXTS = 100_000
 _POSITIONS = pa.schema([("file_no", pa.int64()), ("entry_no", pa.int64()), ("t", pa.int64())])
 _TEXTS = pa.schema([("t", pa.int64())])
 
