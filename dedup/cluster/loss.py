@@ -57,6 +57,7 @@ __all__ = [
     "shared_mask",
     "unique_runs",
     "template_mask",
+    "template_masks",
     "align_members",
     "settle_actions",
 ]
@@ -78,7 +79,10 @@ class MemberWords:
     shared : ndarray of bool
         True for a word in a passage shared with the keeper.
     template : ndarray of bool or None
-        True for a word on a template line (`template_mask`); None: no template words.
+        True for a word on a template line (`template_mask`). `align_members` looks only
+        at the words of unshared stretches of at least ``unique_min_words`` words, the
+        only ones a unique run can hold (`unique_runs` reads no other), and leaves the
+        rest False. None: no template words.
     text : str or None
         The member's original text: with it, a run's span takes in the punctuation that
         touches its first and last words (the full stop of its last sentence).
@@ -159,18 +163,23 @@ def _occurs_in(needle: np.ndarray, haystack: np.ndarray) -> bool:
     return at != -1
 
 
-def _line_spans(text: str) -> tuple[list[int], list[int], list[str]]:
-    """Character spans and canonical form of every line of ``text`` with a canonical form."""
-    starts, ends, canonical = [], [], []
-    at = 0
-    for line in text.splitlines(keepends=True):
-        form = " ".join(unicodedata.normalize("NFKC", line).casefold().split())
-        if form:
-            starts.append(at)
-            ends.append(at + len(line))
-            canonical.append(form)
-        at += len(line)
-    return starts, ends, canonical
+def _canonical(line: str) -> str:
+    """A line's canonical form, as the boilerplate stage forms it: NFKC, case folded,
+    whitespace collapsed ("" for a blank line)."""
+    return " ".join(unicodedata.normalize("NFKC", line).casefold().split())
+
+
+def _held_lines(text: str, word_starts: np.ndarray) -> tuple[np.ndarray, list[str]]:
+    """The canonical form of every line of ``text`` that holds one of the words (by start
+    character), and for each word the number of its line among them. Lines holding none
+    are not read: O(characters of the held lines) Python, O(lines) to find them."""
+    if not word_starts.shape[0]:
+        return np.zeros(0, dtype=np.int64), []
+    lines = text.splitlines(keepends=True)
+    line_starts = np.zeros(len(lines), dtype=np.int64)
+    np.cumsum([len(line) for line in lines[:-1]], out=line_starts[1:])
+    held, which = np.unique(np.searchsorted(line_starts, word_starts, side="right") - 1, return_inverse=True)
+    return which.astype(np.int64), [_canonical(lines[k]) for k in held.tolist()]
 
 
 def template_mask(text: str, word_starts: np.ndarray, template_lines: Collection[int]) -> np.ndarray:
@@ -179,22 +188,47 @@ def template_mask(text: str, word_starts: np.ndarray, template_lines: Collection
     ``template_lines`` holds line hashes as the boilerplate stage keeps them (the keys of
     `dedup.normalize.boilerplate.Boilerplate.counts`): the hash of a line's canonical form
     (NFKC, case folded, whitespace collapsed, `dedup.normalize.lines.line_hashes`).
-    O(characters of the text) plus one compiled hash per line.
+    O(characters of the lines holding the words) plus one compiled hash per such line;
+    `template_masks` does many texts at once.
     """
-    mask = np.zeros(word_starts.shape[0], dtype=bool)
-    starts, ends, canonical = _line_spans(text)
-    if not canonical or not template_lines or not mask.shape[0]:
-        return mask
-    encoded = [form.encode("utf-8", "surrogatepass") for form in canonical]
+    return template_masks([text], [word_starts], template_lines)[0]
+
+
+def template_masks(
+    texts: Sequence[str], word_starts: Sequence[np.ndarray], template_lines: Collection[int]
+) -> list[np.ndarray]:
+    """`template_mask` of every text of a batch, from one compiled hash call over the lines
+    that hold the given words.
+
+    One call, not one per text: the hashing is parallel, and each launch of a parallel
+    kernel waits for its whole team of threads, which on a busy machine costs far more
+    than hashing one text's lines (thousands of launches took minutes). Cost
+    O(characters of the lines holding the words) Python, O(lines) numpy per text, one
+    compiled pass over the held lines.
+    """
+    starts = [np.asarray(s, dtype=np.int64) for s in word_starts]
+    if not template_lines:
+        return [np.zeros(s.shape[0], dtype=bool) for s in starts]
+    held = [_held_lines(text, s) for text, s in zip(texts, starts)]
+    forms = [form for _, canonical in held for form in canonical]
+    on_template = np.zeros(len(forms), dtype=bool)
+    if forms:
+        hashes = _form_hashes(forms).tolist()
+        on_template[:] = [bool(form) and h in template_lines for form, h in zip(forms, hashes)]
+    masks, first = [], 0
+    for which, canonical in held:
+        masks.append(on_template[first + which])
+        first += len(canonical)
+    return masks
+
+
+def _form_hashes(forms: list[str]) -> np.ndarray:
+    """`dedup.normalize.lines.line_hashes` of canonical lines, in one compiled call."""
+    encoded = [form.encode("utf-8", "surrogatepass") for form in forms]
     lengths = np.fromiter((len(e) for e in encoded), dtype=np.int64, count=len(encoded))
     stops = np.cumsum(lengths + 1) - 1
     buf = np.frombuffer(b"\n".join(encoded), dtype=np.uint8)
-    hashes = line_hashes(buf, stops - lengths, stops).tolist()
-    line_of = np.searchsorted(np.asarray(starts, dtype=np.int64), word_starts, side="right") - 1
-    on_template = np.asarray([h in template_lines for h in hashes], dtype=bool)
-    inside = (line_of >= 0) & (word_starts < np.asarray(ends, dtype=np.int64)[np.maximum(line_of, 0)])
-    mask[inside] = on_template[line_of[inside]]
-    return mask
+    return line_hashes(buf, stops - lengths, stops)
 
 
 def _loss_settings(settings: AuditSettings) -> AlignSettings:
@@ -249,7 +283,9 @@ def align_members(
     Notes
     -----
     Cost: `dedup.align.word_spans` over the texts of the pairs, one compiled alignment
-    per member (see the module notes), O(words) numpy per member.
+    per member (see the module notes), O(words) numpy per member; then the template words
+    of all members in one batch (`template_masks`), over the lines that hold their long
+    unshared stretches only.
     """
     pairs = _near_pairs(clusters)
     ids = sorted({doc for pair in pairs for doc in pair})
@@ -258,16 +294,44 @@ def align_members(
     left = np.asarray([number[m] for m, _ in pairs], dtype=np.int64)
     right = np.asarray([number[k] for _, k in pairs], dtype=np.int64)
     alignment = align_pairs(words, left, right, _loss_settings(settings), workers=workers)
-    found = {}
+    found = []
     for p, (member, keeper) in enumerate(pairs):
         rows = alignment.rows_of(p)
         ranges = list(zip(alignment.left_word_start[rows].tolist(), alignment.left_word_end[rows].tolist()))
-        starts, ends, shared = _member_words(
-            words, number[member], number[keeper], ranges, settings.unique_min_words
-        )
-        template = template_mask(texts[member], starts, template_lines) if template_lines else None
-        found[member] = MemberWords(starts, ends, shared, template, texts[member])
-    return found
+        found.append(_member_words(words, number[member], number[keeper], ranges, settings.unique_min_words))
+    members = [member for member, _ in pairs]
+    templates = (
+        _member_templates([texts[m] for m in members], found, template_lines, settings.unique_min_words)
+        if template_lines
+        else [None] * len(members)
+    )
+    return {
+        member: MemberWords(starts, ends, shared, template, texts[member])
+        for member, (starts, ends, shared), template in zip(members, found, templates)
+    }
+
+
+def _long_free(shared: np.ndarray, min_words: int) -> np.ndarray:
+    """Indices of the words in unshared stretches of at least ``min_words`` words."""
+    starts, ends = _free_stretches(shared)
+    long = ends - starts >= min_words
+    if not long.any():
+        return np.zeros(0, dtype=np.int64)
+    return np.concatenate([np.arange(a, b) for a, b in zip(starts[long].tolist(), ends[long].tolist())])
+
+
+def _member_templates(texts: list[str], found: list, template_lines, min_words: int) -> list[np.ndarray]:
+    """Template masks of the members (`MemberWords.template`), in one `template_masks` batch
+    over the words of their long unshared stretches: the only words a unique run can hold.
+    A mask is False elsewhere."""
+    looked = [_long_free(shared, min_words) for _, _, shared in found]
+    masks = template_masks(texts, [starts[w] for (starts, _, _), w in zip(found, looked)], template_lines)
+    templates = []
+    for (_, _, shared), w, mask in zip(found, looked, masks):
+        template = np.zeros(shared.shape[0], dtype=bool)
+        template[w] = mask
+        templates.append(template)
+    return templates
 
 
 def _settle_member(entry: dict, runs: list[tuple[int, int, int]], n_words: int, settings) -> None:

@@ -17,9 +17,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from dedup import AuditSettings
+from dedup.align import word_spans
 from dedup.cluster import MERGE_MAX_SHARE, align_members, build_clusters, settle_actions, unique_runs
 from dedup.cluster.actions import ClusterInputs
-from dedup.cluster.loss import MemberWords, shared_mask, template_mask
+from dedup.cluster.loss import MemberWords, shared_mask, template_mask, template_masks
 from dedup.normalize.boilerplate import BoilerplateCounter, canonical_lines
 from dedup.report.wording import describe_roles
 from dedup.verify import PairScores
@@ -92,6 +93,70 @@ def test_template_mask_marks_the_words_of_boilerplate_lines():
     starts = np.array([text.index(w) for w in ("Some", "UNIQUE", "CONFIDENTIAL", "orrin", "share", "End")])
     assert template_mask(text, starts, template).tolist() == [False, False, True, True, True, False]
     assert not template_mask(text, starts, set()).any()
+
+
+FOOTERS = ["Confidential: for Orrin Basin staff only.", "Printed copies are not controlled."]
+
+
+def template_hashes(lines: list[str]) -> dict[int, int]:
+    """Line hashes of ``lines`` as the boilerplate stage keeps them: each line in four texts."""
+    texts = [f"Article {n} body text here.\n" + "\n".join(lines) for n in range(4)]
+    counter = BoilerplateCounter()
+    packed = ["\n".join(canonical_lines(t)).encode() for t in texts]
+    offsets = np.cumsum([0, *[len(p) for p in packed]])
+    counter.add(np.frombuffer(b"".join(packed), dtype=np.uint8), offsets)
+    return counter.find(share=0.5, min_texts=3).counts
+
+
+def reference_template(text: str, word_starts: list[int], forms: set[str]) -> list[bool]:
+    """Plain Python: each word's line (as ``str.splitlines`` cuts it), canonical form in ``forms``."""
+    found = []
+    for start in word_starts:
+        at = 0
+        for line in text.splitlines(keepends=True):
+            if at <= start < at + len(line):
+                found.append(bool(set(canonical_lines(line)) & forms))
+                break
+            at += len(line)
+    return found
+
+
+LINE_PIECES = [
+    *FOOTERS,
+    "CONFIDENTIAL:   for orrin BASIN staff only.",
+    "  printed copies are NOT controlled.  ",
+    "Straße ﬁle ½ notes",
+    "Reset the pump controller",
+    "",
+    "   ",
+]
+BREAKS = ["\n", "\r\n", "\r", "\x0b", "\x0c", "\x85", "\u2028", "\n\n"]
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(
+        st.lists(st.tuples(st.sampled_from(LINE_PIECES), st.sampled_from(BREAKS)), max_size=8),
+        min_size=1,
+        max_size=4,
+    ),
+    st.data(),
+)
+def test_template_masks_of_a_batch_equal_plain_python(texts, data):
+    """Any text, any subset of its words: the mask of each word is its line's, batch or not."""
+    texts = ["".join(line + end for line, end in pieces) for pieces in texts]
+    lines = template_hashes(FOOTERS)
+    forms = {form for footer in FOOTERS for form in canonical_lines(footer)}
+    words = word_spans(texts)
+    chosen = []
+    for d in range(len(texts)):
+        starts = words.of(d)[1]
+        keep = data.draw(st.lists(st.booleans(), min_size=len(starts), max_size=len(starts)))
+        chosen.append(starts[np.asarray(keep, dtype=bool)])
+    masks = template_masks(texts, chosen, lines)
+    for text, starts, mask in zip(texts, chosen, masks):
+        assert mask.tolist() == reference_template(text, starts.tolist(), forms)
+        assert template_mask(text, starts, lines).tolist() == mask.tolist()
 
 
 # -- settled actions on generated clusters ------------------------------------------------
@@ -239,6 +304,13 @@ KEEPER = "current/page.md"
 
 def settle_texts(texts: dict[str, str], config: AuditSettings, containment: float = 0.95):
     """Cluster ``texts`` around KEEPER (scores given), align, settle; returns roles by id and runs."""
+    clusters, roles, inputs = cluster_texts(texts, config, containment)
+    settled = settle_actions(clusters, roles, align_members(clusters, texts, config), config, inputs.sizes)
+    return {e["document_id"]: e for e in roles.values()}, settled.unique_runs
+
+
+def cluster_texts(texts: dict[str, str], config: AuditSettings, containment: float = 0.95):
+    """Clusters and roles of ``texts`` around KEEPER (scores given), and the cluster inputs."""
     ids = sorted(texts)
     k = ids.index(KEEPER)
     others = [i for i in range(len(ids)) if i != k]
@@ -257,8 +329,7 @@ def settle_texts(texts: dict[str, str], config: AuditSettings, containment: floa
         scores_of(dict.fromkeys(range(len(ids)), containment)),
         config.replace(prefer=("current/**",)),
     )
-    settled = settle_actions(clusters, roles, align_members(clusters, texts, config), config, inputs.sizes)
-    return {e["document_id"]: e for e in roles.values()}, settled.unique_runs
+    return clusters, roles, inputs
 
 
 def words_from(vocabulary: list[str], rng: random.Random, n: int) -> list[str]:
@@ -304,6 +375,32 @@ def test_copies_with_planted_notes_are_never_proposed_for_plain_retirement(seed,
             assert all(word in found.split() for word in planted)  # every note word is listed
         else:
             assert roles[doc]["action"] == "retire" and not found  # edits alone lose nothing
+
+
+def test_template_lines_in_a_note_are_read_as_on_the_whole_text():
+    """align_members reads the template lines of long unshared stretches only: the unique
+    runs are those of the mask of every word. A 12-word note split by a footer line is too
+    short once the footer's words are left out; a 16-word one is not."""
+    rng = random.Random(11)
+    page = words_from(PAGE_WORDS, rng, 200)
+    footer = FOOTERS[0]
+    texts = {KEEPER: " ".join(page[:100]) + "\n" + footer + "\n" + " ".join(page[100:])}
+    for doc, half in (("archive/short.md", 6), ("archive/long.md", 8)):
+        note = words_from(NOTE_WORDS, rng, 2 * half)
+        texts[doc] = "\n".join(
+            [" ".join(page[:60] + note[:half]), footer, " ".join(note[half:] + page[60:]), footer]
+        )
+    config = AuditSettings(unique_min_words=15)
+    lines = template_hashes(FOOTERS)
+    clusters, _, _ = cluster_texts(texts, config)
+    found = align_members(clusters, texts, config, template_lines=lines)
+    runs = {}
+    for doc, words in found.items():
+        full = template_mask(texts[doc], words.starts, lines)
+        assert full.sum() > words.template.sum() > 0  # the footer outside the note is not read
+        runs[doc] = unique_runs(words.shared, 15, words.template)
+        assert runs[doc] == unique_runs(words.shared, 15, full)
+    assert runs["archive/short.md"] == [] and [w for _, _, w in runs["archive/long.md"]] == [16]
 
 
 def test_a_paragraph_the_member_repeats_is_not_unique():
