@@ -7,7 +7,11 @@ TF-IDF.
 
 The default audit leaves boilerplate lines out of its shingles; its ground truth is
 scored on the same texts (``Bench.truths["default"]``), and one more audit with the
-rule off is compared with whole-text scores (``Bench.truths["whole"]``).
+rule off is compared with whole-text scores (``Bench.truths["whole"]``). When it left
+template lines out, the default audit also compares the whole texts and reports a pair
+whose whole texts reach max(t, 0.75) (the floor of
+``dedup.engines.driver.whole_text_threshold``); `audited_truth` joins the two tables
+by that rule, and a pair it confirms as whole texts is scored on them.
 
 Definitions
 -----------
@@ -97,6 +101,8 @@ __all__ = [
     "run_plan",
     "boilerplate_rule",
     "whole_text_settings",
+    "whole_text_floor",
+    "audited_truth",
     "operation_rows",
     "bucket_rows",
     "lsh_recall",
@@ -157,6 +163,16 @@ def whole_text_settings() -> dict:
     return {"boilerplate": False} if boilerplate_rule() is not None else {}
 
 
+def whole_text_floor() -> float:
+    """The least whole-text score at which the default audit reports a pair as whole texts.
+
+    The documented floor of ``dedup.engines.driver.whole_text_threshold``, computed here
+    from the largest template share s of a text: max((2 + s) / (4 - s), (1 + s) / 2).
+    """
+    share = float(dedup.AuditSettings().boilerplate_max_text_share)
+    return max((2 + share) / (4 - share), (1 + share) / 2)
+
+
 @dataclass
 class Bench:
     """A written corpus, its ground truth, and the document index the audit uses.
@@ -194,6 +210,35 @@ def prepare(folder: Path, source: str, seed: int, **sizes: int) -> Bench:
     truths[DEFAULT] = compute_truth(corpus, rule) if rule else truths[WHOLE]
     words[DEFAULT] = feature_texts(visible, rule) if rule else words[WHOLE]
     return Bench(corpus, truths, words, folder, {doc_id: i for i, doc_id in enumerate(corpus.ids)})
+
+
+def _column(truth: PairTruth, where: np.ndarray, name: str, missing: object = 0.0) -> np.ndarray:
+    """``truth``'s column ``name`` at table positions ``where``; ``missing`` where -1."""
+    values = getattr(truth, name)
+    return np.where(where >= 0, values[np.maximum(where, 0)], missing)
+
+
+def audited_truth(bench: Bench, measure: str, threshold: float) -> PairTruth:
+    """Ground truth for an audit with default settings at ``threshold`` on ``measure``.
+
+    A pair scores on the texts without template lines, unless that leaves it below the
+    threshold and its whole texts reach max(threshold, `whole_text_floor`): the audit
+    then reports it as whole texts, with the whole texts' scores. Without a boilerplate
+    rule this is the default table. Cost: O(stored pairs log stored pairs).
+    """
+    part, whole = bench.truths[DEFAULT], bench.truths[WHOLE]
+    if part is whole:
+        return part
+    keys = np.union1d(part.keys, whole.keys)
+    p, w = part.positions(keys), whole.positions(keys)
+    floor = max(threshold, whole_text_floor()) - SCORE_TOLERANCE
+    use_whole = (_column(part, p, measure) < threshold - SCORE_TOLERANCE) & (
+        _column(whole, w, measure) >= floor
+    )
+    scores = [np.where(use_whole, _column(whole, w, m), _column(part, p, m)) for m in MEASURES]
+    planted = _column(part, p, "planted", False) | _column(whole, w, "planted", False)
+    kind = np.where(p >= 0, _column(part, p, "kind", ""), _column(whole, w, "kind", "")).astype(object)
+    return PairTruth(part.n_docs, keys, *scores, planted, kind)
 
 
 def run_audit(bench: Bench, **settings: object) -> tuple[dedup.AuditResult, float]:
@@ -698,9 +743,8 @@ def run_plan(
         if variant == WHOLE and not whole_ok:
             continue
         result, seconds = run_audit(bench, threshold=threshold, measure=measure, **extra)
-        runs.append(
-            AuditRun(measure, label, bench.truths[variant], result, seconds, reported_keys(result, bench))
-        )
+        truth = audited_truth(bench, measure, threshold) if variant == DEFAULT else bench.truths[variant]
+        runs.append(AuditRun(measure, label, truth, result, seconds, reported_keys(result, bench)))
         log(f"audit {measure} ({label}) in {seconds:.1f} s")
     return runs
 
@@ -745,7 +789,9 @@ def section_corpus(bench: Bench) -> str:
     rule = boilerplate_rule()
     rule_text = (
         f"Ground truth scores the texts as the default audit shingles them: lines found in at least "
-        f"max({rule[1]}, {rule[0]:.0%} of the distinct texts) are boilerplate and left out."
+        f"max({rule[1]}, {rule[0]:.0%} of the distinct texts) are boilerplate and left out. A pair below "
+        f"the threshold on those texts whose whole texts reach max(threshold, {whole_text_floor():.2f}) is "
+        "scored on its whole texts, as the audit reports it."
         if rule
         else "Ground truth scores the whole texts."
     )
@@ -837,8 +883,9 @@ def section_measures(runs: Sequence[AuditRun], threshold: float) -> str:
     )
 
 
-def section_lsh(recall: LshRecall, audit_candidates: int | None) -> str:
-    """The LSH candidate recall table."""
+def section_lsh(recall: LshRecall, audit_candidates: int | None, whole_candidates: int | None = None) -> str:
+    """The LSH candidate recall table; ``whole_candidates``: the candidates of the audit's
+    second pass over the whole texts (seed 1), when it left template lines out."""
     rows = []
     for b in recall.buckets:
         ok = "–" if b.pairs < MIN_BUCKET_PAIRS else ("yes" if abs(b.gap) <= TARGET_LSH_POINTS else "**no**")
@@ -869,9 +916,16 @@ def section_lsh(recall: LshRecall, audit_candidates: int | None) -> str:
     )
     check = ""
     if audit_candidates is not None:
-        same = "equal to" if audit_candidates == recall.candidates_first_seed else "**different from**"
+        ours = recall.candidates_first_seed + (whole_candidates or 0)
+        same = "equal to" if audit_candidates == ours else "**different from**"
+        counted = f"{recall.candidates_first_seed:,},"
+        if whole_candidates is not None:
+            counted = (
+                f"{recall.candidates_first_seed:,} on the texts without template lines and "
+                f"{whole_candidates:,} on the whole texts, together"
+            )
         check = (
-            f" Candidates for seed {recall.seeds[0]}: {recall.candidates_first_seed:,}, {same} the audit's own "
+            f" Candidates for seed {recall.seeds[0]}: {counted} {same} the audit's own "
             f"count ({audit_candidates:,})."
         )
     return (
@@ -926,8 +980,9 @@ def sweep(bench: Bench, thresholds: Sequence[float], perms: Sequence[int], log: 
         for label, extra in configs:
             result, seconds = run_audit(bench, threshold=t, **extra)
             keys = reported_keys(result, bench)
-            c = pair_quality(keys, bench.truth, "jaccard", t)
-            q = cluster_quality(result, bench, bench.truth, "jaccard", t)
+            truth = audited_truth(bench, "jaccard", t)
+            c = pair_quality(keys, truth, "jaccard", t)
+            q = cluster_quality(result, bench, truth, "jaccard", t)
             cand = result.candidates
             shape = f"{cand['bands']}×{cand['rows']}" if label != "exhaustive" else "–"
             rows.append(
@@ -1081,6 +1136,9 @@ def report(bench: Bench, args: argparse.Namespace, log: Callable[[str], None]) -
     seeds = tuple(range(1, args.lsh_seeds + 1))
     recall = lsh_recall(bench, threshold=t, num_perm=128, seeds=seeds)
     recall_low = lsh_recall(bench, threshold=0.5, num_perm=128, seeds=seeds)
+    whole_candidates = None
+    if main_run.result.boilerplate.get("texts_affected"):  # the audit compared the whole texts too
+        whole_candidates = lsh_recall(bench, variant=WHOLE, threshold=t, num_perm=128).candidates_first_seed
     log("LSH recall measured")
     args.chart.parent.mkdir(parents=True, exist_ok=True)
     args.chart.write_text(
@@ -1094,7 +1152,7 @@ def report(bench: Bench, args: argparse.Namespace, log: Callable[[str], None]) -
         f"### Pairs: every audit at {t}, against exact scores\n\n" + section_scores(bench, runs, t),
         "### Which measure finds which copy\n\n" + section_measures(runs, t),
         "### LSH candidate recall vs the S-curve\n\n"
-        + section_lsh(recall, main_run.result.candidates["candidate_pairs"])
+        + section_lsh(recall, main_run.result.candidates["candidate_pairs"], whole_candidates)
         + f"\n\nChart: `{args.chart.as_posix()}`.\n\nWith the bands used for containment and cosine "
         "(candidate threshold 0.5):\n\n" + section_lsh(recall_low, None),
         f"### Clusters at {t}\n\n" + section_clusters(bench, runs, t),
