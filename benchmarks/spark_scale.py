@@ -9,7 +9,9 @@ kernels' threads; Spark's the master's), whether audit.json is byte for byte the
 engine's, and for Spark the shuffle bytes written and the task time of each step (from
 Spark's status store, read through the JVM: benchmark use only). Figures, no asserts.
 
-Run: ``python -m benchmarks.spark_scale [--sizes 10000 100000] [--masters local[1] local[2]] [--uri]``
+Run: ``python -m benchmarks.spark_scale [--sizes 10000 100000] [--masters local[1] local[2]] [--uri]
+[--corpus DIR]`` (``DEDUP_BENCH_DRIVER_MEMORY``, default 4g, is the session's driver memory: in
+local mode the driver runs the tasks too).
 """
 
 from __future__ import annotations
@@ -83,7 +85,7 @@ def run_spark(folder: str, out: str, master: str, uri: bool) -> dict:
         .config("spark.ui.showConsoleProgress", "false")
         .config("spark.pyspark.python", sys.executable)
         .config("spark.executorEnv.NUMBA_NUM_THREADS", "1")
-        .config("spark.driver.memory", "4g")
+        .config("spark.driver.memory", os.environ.get("DEDUP_BENCH_DRIVER_MEMORY", "4g"))
         .getOrCreate()
     )
     spark.sparkContext.setLogLevel("ERROR")
