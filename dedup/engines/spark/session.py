@@ -61,7 +61,7 @@ def is_uri(path: str) -> bool:
     """Whether ``path`` names a location by URI (``scheme://…``) rather than a local path
     (a check the command line can make without importing Spark).
 
-    >>> is_uri("s3a://bucket/corpus/"), is_uri("file:///srv/kb"), is_uri("kb/notes.txt"), is_uri("C:\\kb")
+    >>> is_uri("s3a://bucket/corpus/"), is_uri("file:///srv/kb"), is_uri("kb/notes.txt"), is_uri("C:\\\\kb")
     (True, True, False, False)
     """
     return bool(_SCHEME.match(path))
