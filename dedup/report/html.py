@@ -525,9 +525,12 @@ def iter_html(result, progress=None) -> Iterator[str]:
     recall = result.candidates["expected_recall"]
     chart_svgs = [
         charts.similarity_histogram(near_scores, result.settings.threshold, result.settings.measure),
-        charts.s_curve(recall["bands"], recall["rows"], result.candidates["lsh_threshold"]),
         charts.cluster_sizes([c["size"] for c in result.clusters]),
     ]
+    if result.candidates.get("method") == "lsh":  # an exact search misses no pair: no catch curve
+        chart_svgs.insert(
+            1, charts.s_curve(recall["bands"], recall["rows"], result.candidates["lsh_threshold"])
+        )
     data = report_data(result, progress)
     blobs = data.pop("blobs")
     data["blob_count"] = len(blobs)

@@ -232,3 +232,12 @@ def test_the_feature_space_line_names_the_exact_vocabulary_or_the_hashed_columns
     hashed = copy.deepcopy(demo_result)
     hashed.tfidf = {**hashed.tfidf, "n_features": 4096}
     assert "4,096 columns for" in render_html(hashed)
+
+
+def test_the_lsh_catch_curve_is_drawn_only_when_lsh_found_the_candidates(demo_result):
+    exact = copy.deepcopy(demo_result)
+    exact.candidates = {**exact.candidates, "method": "exhaustive"}
+    assert "Chance a pair is compared" not in render_html(exact)
+    lsh = copy.deepcopy(demo_result)
+    lsh.candidates = {**lsh.candidates, "method": "lsh"}
+    assert "Chance a pair is compared" in render_html(lsh)
