@@ -124,7 +124,6 @@ class _Run:
         self.watch = Stopwatch()
         self.originals, self.canonicals = work.store("originals"), work.store("canonical")
         self.threaded = OVERLAP_SKETCH and kernels_thread_safe()
-        self.word_store = None
 
     def read(
         self, paths: Sequence[str] | Records, ledger: list[LedgerEntry]
@@ -177,7 +176,7 @@ class _Run:
             self.progress.advance(texts.n)
         else:
             keep_words = from_word_hashes(self.settings) and self.canonicals.size <= KEEP_WORDS_TEXT_BYTES
-            self.word_store = self.work.store(f"words{tag}") if keep_words else None
+            words = self.work.store(f"words{tag}") if keep_words else None
             sketch = sketch_pass(
                 texts.slots,
                 self.canonicals,
@@ -186,8 +185,9 @@ class _Run:
                 lsh=self.plan.lsh if method == "lsh" else None,
                 signature_path=self.work.file(f"signatures{tag}.u32"),
                 progress=self.progress,
-                word_store=self.word_store,
+                word_store=words,
             )
+            sketch.words = words
         self.progress.done()
         self.watch.lap("features")
         return sketch
@@ -208,7 +208,7 @@ class _Run:
             boilerplate=boilerplate,
             frequencies=sketch.frequencies,
             settings=settings,
-            word_store=self.word_store,
+            word_store=sketch.words,
             kept=sketch.sets,
         )
         oversize: list[dict] = []
@@ -294,12 +294,9 @@ class _Run:
         """The sketch, candidates and verify steps again, over the whole texts (template
         lines kept), for `driver.with_whole_texts`; with their oversize buckets. Cost: the
         three steps once more."""
-        first_words = self.word_store  # the first pass's word hashes, for its compared sets
         sketch = self.sketch(texts, None, None, method, whole=True)
         left, right, oversize, compared = self.candidates(texts, sketch, None, method)
-        verified = self.verify(left, right, compared, whole_text_threshold(self.settings))
-        self.word_store = first_words
-        return verified, oversize
+        return self.verify(left, right, compared, whole_text_threshold(self.settings)), oversize
 
     def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]) -> list[dict]:
         """The align step (`driver.align_step`), in two threads where kernels may share them."""

@@ -46,6 +46,7 @@ class SketchResult:
     texts_affected: int = 0
     texts_compared_whole: int = 0
     sets: KeptSets | None = None
+    words: ByteStore | None = None  # each text's word hashes, when the pass kept them
 
 
 def template_stripped(buf, offsets, boilerplate: Boilerplate | None, settings):

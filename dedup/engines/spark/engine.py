@@ -105,7 +105,6 @@ class _SparkRun:
         self.originals_from = None  # documents with their original text, by read position
         self.broadcasts: list = []
         self.stages: dict[str, float] = {}
-        self.width = 0  # columns of the TF-IDF rows, once the frequencies are counted
         self._t = time.perf_counter()
 
     # -- bookkeeping ---------------------------------------------------------------------
@@ -229,7 +228,6 @@ class _SparkRun:
         run = sketch_partition(self.settings, lsh, shared_templates)
         sketched = self.keep(texts_frame.mapInArrow(run, ddl(SKETCHED)))
         summary = merged_summaries(sketched, self.settings)
-        self.width = summary.frequencies.width  # columns of the TF-IDF rows
         self.lap("features")
         return sketched, summary
 
@@ -263,15 +261,17 @@ class _SparkRun:
             if s.measure == "jaccard":
                 pairs = self.keep(exhaustive_pairs(sets))
             else:
-                pairs = self.keep(self.frame(driver_search(sets, exact.texts.n, s, self.width), PAIRS))
+                pairs = self.keep(
+                    self.frame(driver_search(sets, exact.texts.n, s, summary.frequencies.width), PAIRS)
+                )
             count = pairs.count()
         self.lap("candidates", f"{count:,} pairs")
         return pairs, count, oversize, sets
 
-    def verify(self, pairs, count: int, sets, threshold: float | None = None) -> Verified:
-        """The verify step: pairs joined with both texts' sets, scored in a map; the
-        confirmed ones (at the settings' threshold unless given) collected in (left,
-        right) order."""
+    def verify(self, pairs, count: int, sets, width: int, threshold: float | None = None) -> Verified:
+        """The verify step: pairs joined with both texts' sets (TF-IDF rows of ``width``
+        columns), scored in a map; the confirmed ones (at the settings' threshold unless
+        given) collected in (left, right) order."""
         from pyspark.sql import functions as F
 
         self.step("verifying", count)
@@ -280,7 +280,7 @@ class _SparkRun:
         right = sets.select(F.col("t").alias("right"), *(F.col(c).alias("r_" + c) for c in columns))
         joined = pairs.join(left, "left").join(right, "right")
         settings = self.settings if threshold is None else self.settings.replace(threshold=threshold)
-        run = verify_partition(settings, self.width)
+        run = verify_partition(settings, width)
         table = joined.mapInArrow(run, ddl(CONFIRMED)).toArrow()
         confirmed, decided = confirmed_scores(table)
         self.lap("verify", f"{len(confirmed):,} confirmed")
@@ -288,16 +288,13 @@ class _SparkRun:
 
     def whole_texts(self, texts_frame, exact: ExactStep, method: str) -> tuple[Verified, list[dict]]:
         """The sketch, candidates and verify steps again, over the whole texts (template
-        lines kept), for `with_whole_texts`; with their oversize buckets. The TF-IDF width
-        of the first pass is kept for the steps after."""
-        width = self.width
+        lines kept), for `with_whole_texts`; with their oversize buckets."""
         sketched, summary = self.sketch(texts_frame, method, None)
         pairs, count, oversize, sets = self.candidates(texts_frame, sketched, exact, method, None, summary)
-        verified = self.verify(pairs, count, sets, whole_text_threshold(self.settings))
-        self.width = width
-        return verified, oversize
+        width = summary.frequencies.width
+        return self.verify(pairs, count, sets, width, whole_text_threshold(self.settings)), oversize
 
-    def cluster(self, exact: ExactStep, verified: Verified, sets, ledger, driver_edges: int):
+    def cluster(self, exact: ExactStep, verified: Verified, sets, width: int, ledger, driver_edges: int):
         """The cluster step, with the sets of the clustered texts brought to the driver."""
         self.step("clustering")
         texts = exact.texts
@@ -309,7 +306,7 @@ class _SparkRun:
         )
         wanted = self.frame(pa.table({"t": clustered}, schema=_TEXTS), _TEXTS)
         table = sets.join(wanted, "t", "left_semi").toArrow() if clustered.shape[0] else SETS.empty_table()
-        held = driver_sets(table, texts.n, self.width)
+        held = driver_sets(table, texts.n, width)
         scorer = held.scorer(texts.text_of_doc)
         ledger_ids = [entry.document_id for entry in ledger]
         clusters, roles, exact_edges = spark_cluster_step(
@@ -375,10 +372,11 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
     pairs, count, oversize, sets = run.candidates(
         texts_frame, sketched, exact, method, shared_templates, summary, also
     )
-    verified = run.verify(pairs, count, sets)
+    width = summary.frequencies.width  # columns of the TF-IDF rows of the sets compared
+    verified = run.verify(pairs, count, sets, width)
     if whole is not None:
         verified, oversize = with_whole_texts(verified, whole), oversize + more
-    clusters, roles, exact_edges, held = run.cluster(exact, verified, sets, ledger, driver_edges)
+    clusters, roles, exact_edges, held = run.cluster(exact, verified, sets, width, ledger, driver_edges)
     pairs = pair_records(texts, verified, exact_edges, held.sizes)
     originals = run.originals(exact, clusters)
     whole_text_scores(pairs, originals, boilerplate, run.settings)
