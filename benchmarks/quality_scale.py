@@ -49,7 +49,7 @@ import numpy as np
 import scipy.sparse as sp
 from sklearn.feature_extraction.text import TfidfVectorizer
 
-from benchmarks.corpus import iter_manpages
+from benchmarks.corpus import iter_manpages, synthetic_documents
 from benchmarks.quality_truth import _paragraphs, _WordSource, feature_texts, word_edits
 from dedup.normalize import canonical_text
 
@@ -108,6 +108,18 @@ def build_scale_corpus(folder: Path, pages: int | None, edited: int, reuse: int,
     """Man pages (every section, the first ``pages`` by name), edited copies and reuse
     documents under ``folder`` (see `plant_corpus`)."""
     plant_corpus(folder, list(iter_manpages(limit=pages, sections=SECTIONS)), edited, reuse, seed)
+
+
+def plant_synthetic(
+    folder: Path, n: int, *, seed: int, doc_bytes: int, prefix: str, edited: int, reuse: int, plants_seed: int
+) -> Path:
+    """`plant_corpus` (``edited``, ``reuse``, ``plants_seed``) over ``n`` invented documents
+    (`benchmarks.corpus.synthetic_documents` of ``seed`` and ``doc_bytes``) named
+    ``<prefix>0000``…: small planted corpora for tests. Returns ``folder``."""
+    texts = synthetic_documents(n, seed=seed, doc_bytes=doc_bytes)
+    pool = [(f"{prefix}{k:04d}", text) for k, (_, text) in enumerate(texts)]
+    plant_corpus(folder, pool, edited=edited, reuse=reuse, seed=plants_seed)
+    return folder
 
 
 def plant_corpus(folder: Path, pool: list[tuple[str, str]], edited: int, reuse: int, seed: int) -> None:

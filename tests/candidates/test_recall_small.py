@@ -16,13 +16,12 @@ import math
 import pytest
 
 import dedup
-from benchmarks.corpus import synthetic_documents
 from benchmarks.quality_scale import (
     CHECKS,
     compute_truth,
     distinct_texts,
     measured_recall,
-    plant_corpus,
+    plant_synthetic,
     read_scale_corpus,
 )
 
@@ -30,10 +29,7 @@ from benchmarks.quality_scale import (
 @pytest.fixture(scope="module")
 def corpus(tmp_path_factory):
     folder = tmp_path_factory.mktemp("recall") / "corpus"
-    pool = [
-        (f"p{k:04d}", text) for k, (_, text) in enumerate(synthetic_documents(320, seed=21, doc_bytes=1800))
-    ]
-    plant_corpus(folder, pool, edited=100, reuse=40, seed=8)
+    plant_synthetic(folder, 320, seed=21, doc_bytes=1800, prefix="p", edited=100, reuse=40, plants_seed=8)
     return read_scale_corpus(folder)
 
 

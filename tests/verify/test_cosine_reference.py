@@ -17,7 +17,7 @@ from sklearn.metrics.pairwise import cosine_similarity
 
 import dedup
 from benchmarks.corpus import synthetic_documents
-from benchmarks.quality_scale import plant_corpus
+from benchmarks.quality_scale import plant_synthetic
 from dedup.features import build_features
 from dedup.normalize import canonical_text, token_text
 from dedup.sketch import fit_tfidf, pair_cosines
@@ -103,11 +103,9 @@ def test_unseen_terms_of_a_new_text_weigh_with_the_unseen_idf():
 def planted(tmp_path_factory):
     """Invented pages with edited copies and reuse passages, as `benchmarks.quality_scale`."""
     folder = tmp_path_factory.mktemp("cosine") / "corpus"
-    pool = [
-        (f"doc{k:04d}", text) for k, (_, text) in enumerate(synthetic_documents(240, seed=9, doc_bytes=1500))
-    ]
-    plant_corpus(folder, pool, edited=30, reuse=20, seed=4)
-    return folder
+    return plant_synthetic(
+        folder, 240, seed=9, doc_bytes=1500, prefix="doc", edited=30, reuse=20, plants_seed=4
+    )
 
 
 def _planted_reference(planted) -> tuple[list[str], np.ndarray]:
