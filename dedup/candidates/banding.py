@@ -35,19 +35,24 @@ def _legendre(nodes: int) -> tuple[np.ndarray, np.ndarray]:
     return np.polynomial.legendre.leggauss(nodes)
 
 
-def _integral(function, low: float, high: float, degree: int) -> float:
-    """The integral of a polynomial ``function`` of at most ``degree`` over [low, high]."""
-    x, w = _legendre(max(degree // 2 + 1, 8))
-    half = (high - low) / 2.0
-    return float(half * np.dot(w, function(low + half * (x + 1.0))))
+def _all_bands(num_perm: int) -> tuple[np.ndarray, np.ndarray]:
+    """Every (b, r) with b * r <= num_perm, bands ascending, then rows ascending."""
+    pairs = [(b, r) for b in range(1, num_perm + 1) for r in range(1, num_perm // b + 1)]
+    bands, rows = np.array(pairs, dtype=np.float64).T
+    return bands, rows
 
 
-def _false_positive_area(t: float, bands: int, rows: int) -> float:
-    return _integral(lambda s: 1.0 - (1.0 - s ** float(rows)) ** float(bands), 0.0, t, bands * rows)
-
-
-def _false_negative_area(t: float, bands: int, rows: int) -> float:
-    return _integral(lambda s: (1.0 - s ** float(rows)) ** float(bands), t, 1.0, bands * rows)
+def _areas(threshold: float, bands: np.ndarray, rows: np.ndarray, nodes: int) -> tuple[np.ndarray, np.ndarray]:
+    """False-positive area ∫_0^t P and false-negative area ∫_t^1 (1 - P) for each (b, r),
+    by Gauss-Legendre quadrature with ``nodes`` nodes on each interval."""
+    x, w = _legendre(nodes)
+    below = threshold / 2.0 * (x + 1.0)  # nodes mapped onto [0, t]
+    above = threshold + (1.0 - threshold) / 2.0 * (x + 1.0)  # onto [t, 1]
+    missed_below = (1.0 - below[None, :] ** rows[:, None]) ** bands[:, None]
+    missed_above = (1.0 - above[None, :] ** rows[:, None]) ** bands[:, None]
+    false_positive = threshold / 2.0 * ((1.0 - missed_below) @ w)
+    false_negative = (1.0 - threshold) / 2.0 * (missed_above @ w)
+    return false_positive, false_negative
 
 
 @lru_cache(maxsize=64)
@@ -56,20 +61,16 @@ def choose_bands(threshold: float, num_perm: int, false_positive_weight: float =
 
     Notes
     -----
-    Tries every (b, r) with b * r <= num_perm: O(num_perm log num_perm) integrals.
-    Ties keep the first pair found (fewest bands).
+    Tries every (b, r) with b * r <= num_perm at once (about num_perm * ln(num_perm)
+    pairs): every P has degree at most num_perm, so ``num_perm // 2 + 1`` nodes integrate
+    them all exactly. Well under a millisecond at 128 permutations. Ties keep the first
+    pair (fewest bands, then fewest rows).
     """
-    false_negative_weight = 1.0 - false_positive_weight
-    best = (1, 1)
-    best_error = float("inf")
-    for bands in range(1, num_perm + 1):
-        for rows in range(1, num_perm // bands + 1):
-            error = false_positive_weight * _false_positive_area(threshold, bands, rows)
-            error += false_negative_weight * _false_negative_area(threshold, bands, rows)
-            if error < best_error:
-                best_error = error
-                best = (bands, rows)
-    return best
+    bands, rows = _all_bands(num_perm)
+    false_positive, false_negative = _areas(threshold, bands, rows, max(num_perm // 2 + 1, 8))
+    error = false_positive_weight * false_positive + (1.0 - false_positive_weight) * false_negative
+    best = int(np.argmin(error))
+    return int(bands[best]), int(rows[best])
 
 
 def recall_statement(threshold: float, bands: int, rows: int) -> dict:
