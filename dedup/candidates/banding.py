@@ -42,7 +42,9 @@ def _all_bands(num_perm: int) -> tuple[np.ndarray, np.ndarray]:
     return bands, rows
 
 
-def _areas(threshold: float, bands: np.ndarray, rows: np.ndarray, nodes: int) -> tuple[np.ndarray, np.ndarray]:
+def _areas(
+    threshold: float, bands: np.ndarray, rows: np.ndarray, nodes: int
+) -> tuple[np.ndarray, np.ndarray]:
     """False-positive area ∫_0^t P and false-negative area ∫_t^1 (1 - P) for each (b, r),
     by Gauss-Legendre quadrature with ``nodes`` nodes on each interval."""
     x, w = _legendre(nodes)
