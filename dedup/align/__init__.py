@@ -6,11 +6,12 @@ numpy arrays), tuned by `AlignSettings`. Both are compiled and take whole batche
 """
 
 from .passages import Alignment, AlignSettings, align_pairs, align_texts
-from .words import WordSpans, normalized_parts, word_spans
+from .words import NamedWords, WordSpans, normalized_parts, word_spans
 
 __all__ = [
     "AlignSettings",
     "Alignment",
+    "NamedWords",
     "WordSpans",
     "align_pairs",
     "align_texts",

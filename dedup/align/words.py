@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import re
 import unicodedata
-from collections.abc import Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -30,7 +30,7 @@ from numba import njit, prange
 from dedup.features.hashing import FNV_OFFSET, FNV_PRIME, fmix64
 from dedup.features.tokenize import word_table
 
-__all__ = ["WordSpans", "word_spans", "normalized_parts"]
+__all__ = ["WordSpans", "NamedWords", "word_spans", "normalized_parts"]
 
 _WORD = re.compile(r"[^\W_]+")
 _MASK = (1 << 64) - 1
@@ -65,6 +65,26 @@ class WordSpans:
         """``(hashes, starts, ends)`` of text ``d`` (views, no copy)."""
         a, b = int(self.offsets[d]), int(self.offsets[d + 1])
         return self.hashes[a:b], self.starts[a:b], self.ends[a:b]
+
+
+@dataclass(frozen=True)
+class NamedWords:
+    """`WordSpans` of texts known by id: the words of ``id`` are text ``number[id]`` of
+    ``spans``. Lets the steps that read the same texts (align, settle) find their words once.
+    """
+
+    number: dict[str, int]
+    spans: WordSpans
+
+    @classmethod
+    def of(cls, texts: Mapping[str, str], ids: Iterable[str]) -> NamedWords:
+        """The words of the texts of ``ids`` (each once, in id order); O(their bytes), see `word_spans`."""
+        ordered = sorted(set(ids))
+        return cls({doc: k for k, doc in enumerate(ordered)}, word_spans([texts[doc] for doc in ordered]))
+
+    def numbers(self, ids: Iterable[str]) -> np.ndarray:
+        """Text numbers of ``ids``, in order (a KeyError names an id without words here)."""
+        return np.asarray([self.number[doc] for doc in ids], dtype=np.int64)
 
 
 def _ascii_tables() -> tuple[np.ndarray, np.ndarray]:

@@ -45,7 +45,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ..align import AlignSettings, WordSpans, align_pairs, word_spans
+from ..align import AlignSettings, NamedWords, WordSpans, align_pairs
 from ..normalize.lines import line_hashes
 from ..settings import AuditSettings
 from .actions import count_retired, number_clusters
@@ -264,6 +264,7 @@ def align_members(
     settings: AuditSettings,
     template_lines: Collection[int] | None = None,
     workers: int = 1,
+    words: NamedWords | None = None,
 ) -> dict[str, MemberWords]:
     """The words of every near-duplicate member (role ``duplicate``) and which of them its
     keeper shares, keyed by document id.
@@ -279,26 +280,27 @@ def align_members(
         marked (`template_mask`).
     workers : int
         Threads for the alignment (the result is the same for any number).
+    words : NamedWords, optional
+        The words of (at least) every member and keeper, when another step found them
+        already (the align step does); found here otherwise. The result is the same.
 
     Notes
     -----
-    Cost: `dedup.align.word_spans` over the texts of the pairs, one compiled alignment
+    Cost: `dedup.align.word_spans` over the texts of the pairs (unless given), one compiled alignment
     per member (see the module notes), O(words) numpy per member; then the template words
     of all members in one batch (`template_masks`), over the lines that hold their long
     unshared stretches only.
     """
     pairs = _near_pairs(clusters)
-    ids = sorted({doc for pair in pairs for doc in pair})
-    number = {doc: i for i, doc in enumerate(ids)}
-    words = word_spans([texts[doc] for doc in ids])
-    left = np.asarray([number[m] for m, _ in pairs], dtype=np.int64)
-    right = np.asarray([number[k] for _, k in pairs], dtype=np.int64)
-    alignment = align_pairs(words, left, right, _loss_settings(settings), workers=workers)
+    if words is None:
+        words = NamedWords.of(texts, (doc for pair in pairs for doc in pair))
+    left, right = words.numbers(m for m, _ in pairs), words.numbers(k for _, k in pairs)
+    alignment = align_pairs(words.spans, left, right, _loss_settings(settings), workers=workers)
     found = []
-    for p, (member, keeper) in enumerate(pairs):
+    for p, (a, b) in enumerate(zip(left.tolist(), right.tolist())):
         rows = alignment.rows_of(p)
         ranges = list(zip(alignment.left_word_start[rows].tolist(), alignment.left_word_end[rows].tolist()))
-        found.append(_member_words(words, number[member], number[keeper], ranges, settings.unique_min_words))
+        found.append(_member_words(words.spans, a, b, ranges, settings.unique_min_words))
     members = [member for member, _ in pairs]
     templates = (
         _member_templates([texts[m] for m in members], found, template_lines, settings.unique_min_words)

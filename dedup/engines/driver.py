@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..align import AlignSettings, align_pairs, word_spans
+from ..align import AlignSettings, NamedWords, align_pairs
 from ..candidates import recall_statement
 from ..cluster import build_clusters
 from ..cluster.actions import ClusterInputs
@@ -239,13 +239,17 @@ def settle_step(
     template_lines,
     settings,
     workers: int = 1,
+    words: NamedWords | None = None,
 ) -> tuple[list[dict], list[dict]]:
     """Settle what happens to each near-duplicate so that no text is lost: a member whose
     words are not all in its keeper is proposed ``merge-then-retire`` (or ``review``),
     never plain ``retire`` (`dedup.cluster.loss`); then every reason is worded. Returns
-    the clusters (counted again) and the member's unique runs. Cost: one compiled
+    the clusters (counted again) and the member's unique runs. ``words``: the words the
+    align step found (`align_step`), so they are not found again. Cost: one compiled
     alignment per near-duplicate member."""
-    words = align_members(clusters, originals, settings, template_lines=template_lines, workers=workers)
+    words = align_members(
+        clusters, originals, settings, template_lines=template_lines, workers=workers, words=words
+    )
     settled = settle_actions(clusters, roles, words, settings, [rec["bytes"] for rec in texts.kept])
     describe_roles(roles)  # reasons as data become sentences for the outputs
     return settled.clusters, settled.unique_runs
@@ -351,19 +355,17 @@ def evidence_pairs(pairs: list[dict], clusters: list[dict]) -> list[tuple[str, s
 
 def align_step(
     pairs: list[dict], clusters: list[dict], texts: dict[str, str], settings, workers: int = 1
-) -> list[dict]:
+) -> tuple[list[dict], NamedWords]:
     """The align step: shared passages of the evidence pairs (`evidence_pairs`), as records;
     each record of ``pairs`` gains ``left_covered`` / ``right_covered``, the share of each
-    text's words in shared passages. Cost: O(words of the clustered texts) to find words,
-    then O(words of both texts) per pair, compiled (`dedup.align`)."""
+    text's words in shared passages. Also returns the words found, of every text in a
+    pair or cluster (for `settle_step`). Cost: O(words of the clustered texts) to find
+    words, then O(words of both texts) per pair, compiled (`dedup.align`)."""
     chosen = evidence_pairs(pairs, clusters)
-    ids = sorted({doc for pair in chosen for doc in pair})
-    number = {doc: i for i, doc in enumerate(ids)}
-    words = word_spans([texts[doc] for doc in ids])
-    left = np.asarray([number[a] for a, _ in chosen], dtype=np.int64)
-    right = np.asarray([number[b] for _, b in chosen], dtype=np.int64)
+    words = NamedWords.of(texts, (doc for pair in chosen for doc in pair))
+    left, right = words.numbers(a for a, _ in chosen), words.numbers(b for _, b in chosen)
     alignment = align_pairs(
-        words, left, right, AlignSettings(min_words=settings.passage_min_words), workers=workers
+        words.spans, left, right, AlignSettings(min_words=settings.passage_min_words), workers=workers
     )
     share = {
         pair: (float(ls), float(rs))
@@ -372,4 +374,4 @@ def align_step(
     for p in pairs:
         left_share, right_share = share[(p["left"], p["right"])]
         p["left_covered"], p["right_covered"] = round(left_share, 6), round(right_share, 6)
-    return records.passage_records([a for a, _ in chosen], [b for _, b in chosen], alignment)
+    return records.passage_records([a for a, _ in chosen], [b for _, b in chosen], alignment), words

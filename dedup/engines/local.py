@@ -27,6 +27,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from ..align import NamedWords
 from ..candidates import exact_candidate_pairs, lsh_candidate_pairs
 from ..features.segment_sort import sorted_distinct
 from ..features.shingles import from_word_hashes
@@ -298,13 +299,17 @@ class _Run:
         left, right, oversize, compared = self.candidates(texts, sketch, None, method)
         return self.verify(left, right, compared, whole_text_threshold(self.settings)), oversize
 
-    def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]) -> list[dict]:
+    def align(
+        self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]
+    ) -> tuple[list[dict], NamedWords]:
         """The align step (`driver.align_step`), in two threads where kernels may share them."""
         self.progress.start("aligning passages")
-        passages = align_step(pairs, clusters, originals, self.settings, workers=2 if self.threaded else 1)
+        passages, words = align_step(
+            pairs, clusters, originals, self.settings, workers=2 if self.threaded else 1
+        )
         self.progress.done(f"{len(passages):,} passages")
         self.watch.lap("align")
-        return passages
+        return passages, words
 
 
 def _with_ends(scores: PairScores, left: np.ndarray, right: np.ndarray) -> PairScores:
@@ -360,10 +365,10 @@ def run_audit(
     pairs = pair_records(texts, verified, exact_edges, lambda t: sizes[compared.of(t)])
     originals = _clustered_texts(read.documents, read.original_slot, clusters, run.originals)
     whole_text_scores(pairs, originals, boilerplate, settings)
-    passages = run.align(pairs, clusters, originals)
+    passages, words = run.align(pairs, clusters, originals)
     template_lines = boilerplate.counts if boilerplate is not None else None
     clusters, unique_runs = settle_step(
-        clusters, roles, texts, originals, template_lines, settings, workers=2 if run.threaded else 1
+        clusters, roles, texts, originals, template_lines, settings, 2 if run.threaded else 1, words
     )
     run.watch.lap("settle")
     found = Findings(

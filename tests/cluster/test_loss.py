@@ -403,6 +403,32 @@ def test_template_lines_in_a_note_are_read_as_on_the_whole_text():
     assert runs["archive/short.md"] == [] and [w for _, _, w in runs["archive/long.md"]] == [16]
 
 
+def test_words_found_by_another_step_give_the_same_members():
+    """The align step hands its words on (of more texts, numbered its own way): every
+    member's words, shared mask and template mask are the same as when found here."""
+    from dedup.align import NamedWords
+
+    rng = random.Random(13)
+    page = words_from(PAGE_WORDS, rng, 200)
+    footer = FOOTERS[0]
+    texts = {KEEPER: " ".join(page) + "\n" + footer}
+    for k in range(3):
+        note = words_from(NOTE_WORDS, rng, 20 + 5 * k)
+        texts[f"archive/{k}.md"] = " ".join(page[: 50 * k] + note + page[50 * k :]) + "\n" + footer
+    config = AuditSettings(unique_min_words=15)
+    lines = template_hashes(FOOTERS)
+    clusters, _, _ = cluster_texts(texts, config)
+    own = align_members(clusters, texts, config, template_lines=lines)
+    more = {"aaa/unclustered.md": " ".join(words_from(NOTE_WORDS, rng, 80)), **texts}
+    given = align_members(clusters, texts, config, template_lines=lines, words=NamedWords.of(more, more))
+    assert sorted(own) == sorted(given) == [f"archive/{k}.md" for k in range(3)]
+    for doc, words in own.items():
+        other = given[doc]
+        for field in ("starts", "ends", "shared", "template"):
+            assert np.array_equal(getattr(words, field), getattr(other, field)), (doc, field)
+        assert unique_runs(words.shared, 15, words.template)  # each note is found
+
+
 def test_a_paragraph_the_member_repeats_is_not_unique():
     rng = random.Random(5)
     page = words_from(PAGE_WORDS, rng, 200)

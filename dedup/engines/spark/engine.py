@@ -334,18 +334,19 @@ class _SparkRun:
         text_of = dict(zip(found.column("id").to_pylist(), found.column("text").to_pylist()))
         return {exact.documents[i]["id"]: text_of[exact.documents[i]["id"]] for i in picked}
 
-    def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]) -> list[dict]:
-        """The align step on the driver (`align_step`), over the clustered texts it holds."""
+    def align(self, pairs: list[dict], clusters: list[dict], originals: dict[str, str]):
+        """The align step on the driver (`align_step`), over the clustered texts it holds:
+        the passages, and the words found (for `settle`)."""
         self.step("aligning passages")
-        passages = align_step(pairs, clusters, originals, self.settings)
+        passages, words = align_step(pairs, clusters, originals, self.settings)
         self.lap("align", f"{len(passages):,} passages")
-        return passages
+        return passages, words
 
-    def settle(self, clusters, roles, texts, originals, boilerplate):
+    def settle(self, clusters, roles, texts, originals, boilerplate, words):
         """The settle step on the driver (`settle_step`): what happens to each near-duplicate."""
         self.step("settling")
         template_lines = boilerplate.counts if boilerplate is not None else None
-        settled = settle_step(clusters, roles, texts, originals, template_lines, self.settings)
+        settled = settle_step(clusters, roles, texts, originals, template_lines, self.settings, words=words)
         self.lap("settle")
         return settled
 
@@ -380,8 +381,8 @@ def _audit(run: _SparkRun, paths: Sequence[str], known: Sequence[str], workers: 
     pairs = pair_records(texts, verified, exact_edges, held.sizes)
     originals = run.originals(exact, clusters)
     whole_text_scores(pairs, originals, boilerplate, run.settings)
-    passages = run.align(pairs, clusters, originals)
-    clusters, unique_runs = run.settle(clusters, roles, texts, originals, boilerplate)
+    passages, words = run.align(pairs, clusters, originals)
+    clusters, unique_runs = run.settle(clusters, roles, texts, originals, boilerplate, words)
     found = Findings(
         ledger=ledger,
         documents=exact.documents,
