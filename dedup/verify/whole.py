@@ -62,8 +62,16 @@ def whole_text_scores(pairs: list[dict], texts: dict[str, str], boilerplate, set
     record does not say it already (a pair confirmed as whole texts says ``none``).
 
     ``texts`` maps document ids to their text as read (every document of a pair);
-    ``boilerplate`` is the audit's `Boilerplate` (None without template lines).
+    ``boilerplate`` is the audit's `Boilerplate` (None without template lines). With no
+    template lines at all, the texts compared were the whole texts: the Jaccard that
+    confirmed the pair is taken as it is, and nothing is shingled again.
     """
+    if boilerplate is None or not len(boilerplate):
+        # No template lines in this audit: the sets compared were the whole texts' own.
+        for p in pairs:
+            p["whole_text_jaccard"] = p["jaccard"]
+            p.setdefault("templates_left_out", "none")
+        return
     ids = sorted({doc for p in pairs for doc in (p["left"], p["right"])})
     if not ids:
         return

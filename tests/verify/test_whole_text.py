@@ -84,6 +84,20 @@ def test_whole_text_jaccard_equals_the_plain_jaccard_of_the_texts(audited):
         assert p["whole_text_jaccard"] == pytest.approx(_jaccard(texts[a], texts[b]), abs=1e-9)
 
 
+def test_without_template_lines_the_score_that_decided_is_the_whole_text_score(audited):
+    """With template lines kept (nothing left out, nothing shingled again) the whole-text
+    score is still the plain Jaccard of the texts."""
+    texts, _ = audited
+    settings = dedup.AuditSettings(threshold=0.6, candidates="exhaustive", boilerplate=False)
+    result = dedup.audit(list(texts.items()), settings)
+    assert len(result.pairs) >= 3
+    for p in result.pairs:
+        assert p["templates_left_out"] == "none"
+        assert p["whole_text_jaccard"] == pytest.approx(
+            _jaccard(texts[p["left"]], texts[p["right"]]), abs=1e-9
+        )
+
+
 def test_templates_left_out_names_the_sides_that_lost_template_lines(audited):
     _, pairs = audited
     assert pairs[("both-a", "both-b")]["templates_left_out"] == "both"
