@@ -10,6 +10,8 @@ import os
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from dedup.report import write_outputs
 from dedup.report.files import (
@@ -163,3 +165,44 @@ def test_a_lone_surrogate_in_a_text_cell_is_written_as_a_replacement_character(t
     path = tmp_path / "t.csv"
     write_csv(str(path), [{"a": "x\ud800y", "b": 1}], ["a", "b"])
     assert path.read_text(encoding="utf-8").splitlines() == ["a,b", "x\ufffdy,1"]
+
+
+# -- every row written by the rule, cell by cell -------------------------------------------
+
+_CELL_VALUES = st.one_of(
+    st.none(),
+    st.booleans(),
+    st.integers(-(10**6), 10**6),
+    st.floats(allow_nan=False, allow_infinity=False, width=32),
+    st.text(alphabet=st.sampled_from(list("ab,=+-@\t\r\n\"' ") + ["\ud800", "é"]), max_size=6),
+)
+
+
+def _reference_csv(rows: list[dict], columns: list[str]) -> str:
+    """The CSV rule written out one cell at a time with the csv module: None empty, floats
+    with six decimals, a text a spreadsheet would run prefixed with ', lone surrogates as
+    U+FFFD, and a row holding a carriage return quoted in full."""
+
+    def cell(value) -> str:
+        if value is None:
+            return ""
+        if isinstance(value, float):
+            return f"{value:.6f}"
+        if isinstance(value, str):
+            value = "".join("\ufffd" if "\ud800" <= ch <= "\udfff" else ch for ch in value)
+            return "'" + value if value[:1] in ("=", "+", "-", "@", "\t", "\r") else value
+        return str(value)
+
+    out = io.StringIO()
+    csv.writer(out, lineterminator="\n").writerow(columns)
+    for row in rows:
+        cells = [cell(row.get(c)) for c in columns]
+        quoting = csv.QUOTE_ALL if any("\r" in c for c in cells) else csv.QUOTE_MINIMAL
+        csv.writer(out, lineterminator="\n", quoting=quoting).writerow(cells)
+    return out.getvalue()
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.fixed_dictionaries({}, optional={c: _CELL_VALUES for c in "xyz"}), max_size=12))
+def test_csv_rows_equal_the_rule_applied_cell_by_cell(rows):
+    assert csv_text(rows, ["x", "y", "z"]) == _reference_csv(rows, ["x", "y", "z"])
