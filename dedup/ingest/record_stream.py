@@ -1,18 +1,20 @@
-"""Record files read from a stream a record at a time: JSONL, CSV and TSV of any size.
+"""Record files read from a stream a record at a time: JSONL, JSON, CSV and TSV of any size.
 
 A record file is one document per record, so its size says nothing about the size of a
 document: a 57 MB JSON Lines file of abstracts is the normal case for corpus work. A
 record file larger than ``max_file_bytes``, or a compressed one, is therefore not read
-whole: its lines are read one at a time, and the per-file limit becomes a per-record
-one. A record (a JSONL line, a CSV row) longer than ``max_file_bytes`` bytes is passed
-over without being held, and recorded as skipped with the reason; every other record
-is read exactly as in a file read whole (the same labels, ids and ledger entries), its
-text cut at ``max_text_chars`` like any document's.
+whole: its lines (a JSON file: pieces of its text) are read one at a time, and the
+per-file limit becomes a per-record one. A record (a JSONL line, a CSV row, an item of a
+JSON array) longer than ``max_file_bytes`` bytes is passed over without being held, and
+recorded as skipped with the reason; every other record is read exactly as in a file
+read whole (the same labels, ids and ledger entries), its text cut at
+``max_text_chars`` like any document's.
 
 The encoding is told from the first MiB (`HEAD_BYTES`) by `decode_text`, as for a
 whole file: a byte-order mark, UTF-16/32, UTF-8, or a recorded guess; UTF-8 with a
 few bad bytes (`damaged_utf8`) is read as UTF-8. A line that does not decode is a
-skipped record with the reason, not the end of the file. A stream that fails (a damaged compressed file, an archive limit) gives the
+skipped record with the reason, not the end of the file; in a JSON file, whose
+structure has no lines to resume at, the rest of the file is recorded as not read. A stream that fails (a damaged compressed file, an archive limit) gives the
 records before the failure, then raises it. Memory: the first MiB, and one record at a
 time.
 """
@@ -28,11 +30,19 @@ from typing import BinaryIO
 from .document import Item, Outcome
 from .encoding import GUESSED, damaged_utf8, decode_text
 from .options import ReadOptions
-from .records import Line, Passed, csv_line_records, jsonl_line_records, record_outcomes
+from .records import (
+    Line,
+    Passed,
+    TextProblem,
+    csv_line_records,
+    json_piece_records,
+    jsonl_line_records,
+    record_outcomes,
+)
 
 __all__ = ["STREAMED_RECORD_FORMATS", "HEAD_BYTES", "stream_records"]
 
-STREAMED_RECORD_FORMATS = frozenset({"jsonl", "csv", "tsv"})
+STREAMED_RECORD_FORMATS = frozenset({"jsonl", "json", "csv", "tsv"})
 HEAD_BYTES = 1 << 20
 _CHUNK = 1 << 16
 _BOMS = {
@@ -195,10 +205,36 @@ def _lines(stream: BinaryIO, codec: str, limit: int, csv_lines: bool) -> Iterato
     return _decoded(_byte_lines(stream, limit), "utf-8" if codec == "utf-8-sig" else codec, csv_lines)
 
 
+def _text_pieces(stream: BinaryIO, codec: str) -> Iterator[str]:
+    """The stream's text a piece at a time; bytes that do not decode end it (the text
+    before them given) with `TextProblem`, at their offset in the file (counted after the
+    byte-order mark)."""
+    decoder = codecs.getincrementaldecoder(codec)(errors="strict")
+    offset = 0
+    while True:
+        data = stream.read(_CHUNK)
+        pending = len(decoder.getstate()[0])  # bytes of a character cut by the last read
+        try:
+            piece = decoder.decode(data, final=not data)
+        except UnicodeDecodeError as err:
+            good = err.object[: err.start].decode(codec)  # the text before the byte is read
+            if good:
+                yield good
+            bad = err.object[err.start : err.start + 1].hex()
+            at = offset - pending + err.start
+            raise TextProblem(f"not {codec} text: byte 0x{bad} at offset {at} cannot be decoded") from None
+        offset += len(data)
+        if piece:
+            yield piece
+        if not data:
+            return
+
+
 def stream_records(stream: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
-    """Documents and ledger entries of a JSONL, CSV or TSV file read from ``stream`` a
-    line at a time (see the module's notes); errors of the stream itself (a damaged
-    compressed file) are raised to the caller, after the records read before them.
+    """Documents and ledger entries of a JSONL, JSON, CSV or TSV file read from
+    ``stream`` a line (JSON: a piece) at a time (see the module's notes); errors of the
+    stream itself (a damaged compressed file) are raised to the caller, after the
+    records read before them.
     """
     head, error = _head(stream)
     codec, recorded, problem = _text_encoding(head, error is None and len(head) < HEAD_BYTES)
@@ -216,6 +252,10 @@ def stream_records(stream: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[
     limit = opts.max_file_bytes
     if item.format == "jsonl":
         triples = jsonl_line_records(_lines(buffered, codec, limit, False))
+    elif item.format == "json":
+        triples = json_piece_records(
+            _text_pieces(buffered, "utf-8" if codec == "utf-8-sig" else codec), limit
+        )
     else:
         delimiter = "\t" if item.format == "tsv" else ","
         triples = csv_line_records(_lines(buffered, codec, limit, True), delimiter, opts.text_fields, limit)

@@ -26,6 +26,7 @@ import datetime
 import io
 import json
 import math
+import re
 from collections.abc import Iterable, Iterator, Sequence
 from typing import NamedTuple
 
@@ -36,6 +37,8 @@ __all__ = [
     "jsonl_records",
     "jsonl_line_records",
     "json_records",
+    "json_piece_records",
+    "TextProblem",
     "csv_records",
     "csv_line_records",
     "record_outcomes",
@@ -134,61 +137,255 @@ def _skip_space(text: str, i: int) -> int:
     return i
 
 
-def _line_col(text: str, i: int) -> str:
-    line = text.count("\n", 0, i) + 1
-    return f"line {line} column {i - (text.rfind(chr(10), 0, i) + 1) + 1}"
+class TextProblem(Exception):
+    """The text of a record file read piece by piece cannot be read on (bytes not in its
+    encoding): ``reason`` says why. Raised by the pieces given to `json_piece_records`."""
+
+    def __init__(self, reason: str) -> None:
+        super().__init__(reason)
+        self.reason = reason
+
+
+class _ValueTooLarge(Exception):
+    """The JSON value being read is longer than the limit; ``passed``: the text is already
+    past it (it was read whole before its length was known)."""
+
+    def __init__(self, passed: bool) -> None:
+        super().__init__()
+        self.passed = passed
+
+
+# Characters read at a time when a JSON text is given in pieces; where a string ends
+# (or escapes); where a value outside strings may end.
+_PIECE = 1 << 16
+_IN_STRING = re.compile(r'["\\]')
+_OUTSIDE = re.compile(r'[\[\]{}",]')
+
+
+class _JsonText:
+    """A JSON text read piece by piece (`json_piece_records`): ``text[pos:]`` is what is
+    not parsed yet, and ``text[0]`` is at line ``_line``, column ``_col`` of the file. The
+    text parsed is dropped as more is read, so memory holds one value and a piece."""
+
+    def __init__(self, pieces: Iterator[str]) -> None:
+        self._pieces = pieces
+        self.text, self.pos, self.ended = "", 0, False
+        self.problem = ""  # why the text could not be read on, when it could not
+        self._line, self._col = 1, 1
+
+    @classmethod
+    def whole(cls, text: str) -> _JsonText:
+        """A text given whole: nothing more to read."""
+        read = cls(iter(()))
+        read.text, read.ended = text, True
+        return read
+
+    def read_more(self, at_least: int = 1) -> bool:
+        """Append at least ``at_least`` more characters (fewer at the end of the file);
+        False when there were none."""
+        got, count = [], 0
+        while count < at_least and not self.ended:
+            try:
+                piece = next(self._pieces, None)
+            except TextProblem as err:
+                piece, self.problem = None, err.reason
+            if piece is None:
+                self.ended = True
+            else:
+                got.append(piece)
+                count += len(piece)
+        if got:
+            self._forget()
+            self.text += "".join(got)
+        return bool(got)
+
+    def _forget(self) -> None:
+        # Drop the text before ``pos``, counting its lines for `where`.
+        newlines = self.text.count("\n", 0, self.pos)
+        if newlines:
+            self._line += newlines
+            self._col = self.pos - self.text.rfind("\n", 0, self.pos)
+        else:
+            self._col += self.pos
+        self.text, self.pos = self.text[self.pos :], 0
+
+    def skip_space(self) -> bool:
+        """Move past white space; False at the end of the file."""
+        while True:
+            self.pos = _skip_space(self.text, self.pos)
+            if self.pos < len(self.text):
+                return True
+            if not self.read_more():
+                return False
+
+    def next_is(self, char: str) -> bool:
+        return self.pos < len(self.text) and self.text[self.pos] == char
+
+    def where(self, i: int) -> str:
+        """``line L column C`` of ``text[i]`` in the file."""
+        newlines = self.text.count("\n", 0, i)
+        if newlines:
+            return f"line {self._line + newlines} column {i - self.text.rfind(chr(10), 0, i)}"
+        return f"line {self._line} column {self._col + i}"
+
+    def line_of(self, i: int) -> int:
+        return self._line + self.text.count("\n", 0, i)
+
+    def decode(self, limit: int):
+        """The JSON value at ``pos``, moving past it; reads on while the end of what is read
+        may cut it. Raises ValueError or RecursionError for JSON that is not valid,
+        `_ValueTooLarge` when the value holds more than ``limit`` characters."""
+        while True:
+            try:
+                value, end = _DECODER.raw_decode(self.text, self.pos)
+            except json.JSONDecodeError as err:
+                if self.ended or not _maybe_cut(err, len(self.text)):
+                    raise
+            else:
+                if self.ended or (end < len(self.text) and not _number_may_go_on(value, self.text[end])):
+                    start, self.pos = self.pos, end
+                    if end - start > limit:
+                        raise _ValueTooLarge(passed=True)
+                    return value
+            if len(self.text) - self.pos > limit:
+                raise _ValueTooLarge(passed=False)
+            self.read_more(max(_PIECE, len(self.text) - self.pos))
+
+    def pass_value(self) -> bool:
+        """Move past the value at ``pos`` without holding it (strings and brackets counted);
+        False when the file ends inside it. For a value over the limit."""
+        i, depth, in_string = self.pos, 0, False
+        while True:
+            found = (_IN_STRING if in_string else _OUTSIDE).search(self.text, i)
+            # Nothing found in what is read, or an escape whose character is not read yet.
+            if found is None or (found.group() == "\\" and found.end() >= len(self.text)):
+                self.pos = len(self.text) if found is None else found.start()
+                if not self.read_more():
+                    return False
+                i = self.pos
+                continue
+            char, i = found.group(), found.end()
+            if in_string:
+                in_string, i = (True, i + 1) if char == "\\" else (False, i)
+            elif char == '"':
+                in_string = True
+            elif char in "[{":
+                depth += 1
+            elif depth > 1 or (char == "," and depth == 1):
+                depth -= char != ","
+            else:  # the value's own closing bracket, or what follows a value without one
+                self.pos = i if depth == 1 else found.start()
+                return True
+
+
+def _number_may_go_on(value, after: str) -> bool:
+    # "1" read from "1e5" cut after "1e": the number goes on in the next piece.
+    return isinstance(value, (int, float)) and not isinstance(value, bool) and after in "0123456789.eE+-"
+
+
+def _maybe_cut(err: json.JSONDecodeError, read: int) -> bool:
+    """Whether a decoding error may come from the end of what is read cutting the value
+    (it is then read again with more text); a real error stays where it is."""
+    return err.pos >= read - 8 or err.msg.startswith("Unterminated string")
+
+
+def _problem(err: Exception, read: _JsonText, start: int) -> str:
+    if read.problem:
+        return read.problem
+    if isinstance(err, json.JSONDecodeError):
+        return f"not valid JSON ({err.msg} at {read.where(err.pos)})"
+    if isinstance(err, RecursionError):
+        return f"not valid JSON (nested too deeply, from line {read.line_of(start)})"
+    return f"not valid JSON ({err})"
+
+
+def _too_large(limit: int) -> str:
+    return f"record too large: more than {limit:,} bytes (raise --max-file-bytes)"
 
 
 def json_records(text: str) -> Iterator[Triple]:
     """Records of a JSON file: an array of objects (item by item), or one object."""
-    decoder = _DECODER
-    i = _skip_space(text, 0)
-    if i == len(text):
+    return _json_records(_JsonText.whole(text), len(text) + 1)
+
+
+def json_piece_records(pieces: Iterable[str], limit: int) -> Iterator[Triple]:
+    """`json_records` of a JSON text given in pieces (a file too large to hold), with the
+    same labels and problems; an item of more than ``limit`` characters is passed over
+    without being held and is a skipped record. The pieces may raise `TextProblem`: the
+    rest of the file is then recorded as not read, with its reason."""
+    read = _JsonText(iter(pieces))
+    read.read_more()
+    return _json_records(read, limit)
+
+
+def _json_records(read: _JsonText, limit: int) -> Iterator[Triple]:
+    if not read.skip_space():
+        if read.problem:
+            yield "", None, read.problem
         return
-    if text[i] != "[":
-        try:
-            value, end = decoder.raw_decode(text, i)
-        except (ValueError, RecursionError) as err:
-            yield "", None, _json_problem(err, text, i)
-            return
-        if _skip_space(text, end) != len(text):
-            yield "", None, f"not valid JSON (extra data at {_line_col(text, _skip_space(text, end))})"
-        elif isinstance(value, dict):
-            yield "item 1", value, ""
-        else:
-            yield "", None, _not_object("the file", value).replace(", not an object", ", not objects")
+    if not read.next_is("["):
+        yield from _json_object(read, limit)
         return
-    i += 1
+    read.pos += 1
     number = 0
     while True:
-        i = _skip_space(text, i)
-        if i < len(text) and text[i] == "]" and number == 0:
-            i += 1
+        more = read.skip_space()
+        if number == 0 and read.next_is("]"):
+            read.pos += 1
             break
         number += 1
-        label = f"item {number}"
+        label, start = f"item {number}", read.pos
         try:
-            value, i = decoder.raw_decode(text, i)
+            value = read.decode(limit)
+        except _ValueTooLarge as err:
+            yield label, None, f"{label}: {_too_large(limit)}"
+            if not err.passed and not read.pass_value():
+                yield "", None, read.problem or f"not valid JSON (the file ends inside {label})"
+                return
         except (ValueError, RecursionError) as err:
-            yield label, None, f"{label}: {_json_problem(err, text, i)}; rest of file not read"
+            yield label, None, f"{label}: {_problem(err, read, start)}; rest of file not read"
             return
-        yield (label, value, "") if isinstance(value, dict) else (label, None, _not_object(label, value))
-        i = _skip_space(text, i)
-        if i < len(text) and text[i] == ",":
-            i += 1
+        else:
+            yield (label, value, "") if isinstance(value, dict) else (label, None, _not_object(label, value))
+        more = read.skip_space()
+        if read.next_is(","):
+            read.pos += 1
             continue
-        if i < len(text) and text[i] == "]":
-            i += 1
+        if read.next_is("]"):
+            read.pos += 1
             break
-        where = _line_col(text, i) if i < len(text) else "the end of the file"
-        yield "", None, f"not valid JSON (expected ',' or ']' at {where}); rest of file not read"
-        return
-    if _skip_space(text, i) != len(text):
+        where = read.where(read.pos) if more else "the end of the file"
         yield (
             "",
             None,
-            f"not valid JSON (extra data after the array at {_line_col(text, _skip_space(text, i))})",
+            read.problem or f"not valid JSON (expected ',' or ']' at {where}); rest of file not read",
         )
+        return
+    if read.skip_space():
+        yield "", None, f"not valid JSON (extra data after the array at {read.where(read.pos)})"
+    elif read.problem:
+        yield "", None, read.problem
+
+
+def _json_object(read: _JsonText, limit: int) -> Iterator[Triple]:
+    # A file of one value: one object is one record.
+    start = read.pos
+    try:
+        value = read.decode(limit)
+    except _ValueTooLarge:
+        yield "item 1", None, f"item 1: {_too_large(limit)}"
+        return
+    except (ValueError, RecursionError) as err:
+        yield "", None, _problem(err, read, start)
+        return
+    if read.skip_space():
+        yield "", None, f"not valid JSON (extra data at {read.where(read.pos)})"
+    elif read.problem:
+        yield "", None, read.problem
+    elif isinstance(value, dict):
+        yield "item 1", value, ""
+    else:
+        yield "", None, _not_object("the file", value).replace(", not an object", ", not objects")
 
 
 class _RowTooLarge(Exception):

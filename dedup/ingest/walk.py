@@ -413,10 +413,7 @@ def _start_pool(workers: int, opts: ReadOptions, prepare):
         return None
 
 
-def _too_large(size: int, opts: ReadOptions, fmt: str | None = None) -> str:
-    if fmt == "json":  # read whole; JSON Lines are read a record at a time
-        advice = "raise --max-file-bytes, or write the records as JSON Lines"
-        return f"file too large: {size} bytes, limit {opts.max_file_bytes} ({advice})"
+def _too_large(size: int, opts: ReadOptions) -> str:
     return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
 
@@ -584,7 +581,7 @@ def _read_examined(
             return _streamed(item, found, opts, tally, compression)
         if info.st_size > opts.max_file_bytes:
             return _skipped(
-                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts, fmt), fmt, info.st_size)
+                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
             )
         limit = opts.max_file_bytes
         data = (
@@ -597,7 +594,7 @@ def _read_examined(
     if len(data) > opts.max_file_bytes:  # it grew since it was examined
         if fmt in STREAMED_RECORD_FORMATS:
             return _streamed(item, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts, tally)
-        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts, fmt), fmt, len(data)))
+        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data)))
     return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
 
 

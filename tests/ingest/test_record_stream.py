@@ -152,6 +152,40 @@ def test_streamed_jsonl_reads_as_the_whole_file(lines, ending, last, bom):
     _compare(data, "jsonl")
 
 
+_ITEM = st.one_of(
+    st.builds(lambda t: {"text": t}, st.text(alphabet='ab "\\]}{[,é\n', max_size=30)),
+    st.builds(lambda t, i: {"text": t, "id": i}, st.text(max_size=10), st.integers(0, 3)),
+    st.sampled_from([None, 1.5, [1, 2], "]", {"title": "t", "text": "x"}, {"text": "y", "n": [{"a": "}"}]}]),
+)
+_JSON_TAIL = st.sampled_from(["", " ", "\n", "x", ",", "]", ' {"text": 1}', "[", '"a', "\\", "1e999"])
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    items=st.lists(_ITEM, max_size=8),
+    indent=st.sampled_from([None, 1]),
+    cut=st.integers(0, 400),
+    tail=_JSON_TAIL,
+    piece=st.integers(1, 9),
+    bom=st.booleans(),
+)
+def test_streamed_json_reads_as_the_whole_file(items, indent, cut, tail, piece, bom):
+    """Arrays and single objects, whole or cut short, with what may follow; read from
+    pieces of a few bytes, so that every item, string and escape is cut somewhere."""
+    import dedup.ingest.record_stream as record_stream
+
+    value = items if len(items) != 1 else items[0]
+    text = json.dumps(value, indent=indent, ensure_ascii=False)
+    text = text[: len(text) - cut % (len(text) + 1)] + tail
+    data = (b"\xef\xbb\xbf" if bom else b"") + text.encode("utf-8")
+    before = record_stream._CHUNK
+    record_stream._CHUNK = piece
+    try:
+        _compare(data, "json")
+    finally:
+        record_stream._CHUNK = before
+
+
 @settings(max_examples=150, deadline=None)
 @given(
     rows=st.lists(st.lists(_CELL, min_size=1, max_size=3), max_size=8),
@@ -175,13 +209,68 @@ def _compare(data: bytes, fmt: str) -> None:
     assert streamed == whole
 
 
-def test_a_json_array_larger_than_the_limit_is_skipped_with_the_way_to_read_it(write_corpus, read):
-    root = write_corpus({"items.json": json.dumps([{"text": f"item {n}"} for n in range(100)])})
-    docs, _, by_key = read(root, max_file_bytes=500)
-    assert docs == []
-    assert by_key["items.json"].reason.endswith(
-        "limit 500 (raise --max-file-bytes, or write the records as JSON Lines)"
+def _json_array(count: int, long_at: int) -> str:
+    items = []
+    for n in range(1, count + 1):
+        words = "a long account of the harbour " * 200 if n == long_at else f"the harbour on day {n}"
+        items.append({"id": f"d{n}", "text": words, "tags": ["]", "}", '"quoted"', {"x": [n]}]})
+    return json.dumps(items, indent=1)
+
+
+def test_a_json_array_larger_than_the_limit_is_read_item_by_item(write_corpus, read, monkeypatch):
+    import dedup.ingest.record_stream as record_stream
+
+    monkeypatch.setattr(record_stream, "_CHUNK", 97)  # pieces that cut items, strings and escapes
+    content = _json_array(120, long_at=33)
+    assert len(content) > 20_000
+    root = write_corpus({"items.json": content})
+    docs, ledger, by_key = read(root, max_file_bytes=2_000, id_field="id")
+    assert [d.id for d in docs] == [f"items.json#d{n}" for n in range(1, 121) if n != 33]
+    assert by_key["items.json#item 33"].status == "skipped"
+    assert by_key["items.json#item 33"].reason == f"item 33: {TOO_LARGE}"
+    assert docs[40].text == "the harbour on day 42" and docs[40].record == "item 42"
+    assert len(ledger) == 120
+
+
+def test_a_json_item_longer_than_the_limit_is_passed_over_without_being_held(tmp_path, read):
+    path = tmp_path / "huge.json"
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write('[{"text": "before"},\n')
+        handle.write(
+            '{"text": "' + 'x \\" ] } [ { , ' * 3_000_000 + '", "more": [[1], {"a": "]"}]},\n'
+        )  # 45 MB
+        handle.write('{"text": "after"}]\n')
+    tracemalloc.start()
+    docs, _, by_key = read(path, max_file_bytes=1_000_000)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    assert [d.text for d in docs] == ["before", "after"]
+    assert by_key["huge.json#item 2"].reason == (
+        "item 2: record too large: more than 1,000,000 bytes (raise --max-file-bytes)"
     )
+    assert peak < 10_000_000
+
+
+def test_bytes_not_in_the_encoding_end_a_large_json_file_with_the_reason(write_corpus, read):
+    items = ",".join(json.dumps({"text": f"entry {n} é"}, ensure_ascii=False) for n in range(200))
+    data = ("[" + items + ",").encode() + b'{"text": "caf\xe9"}, {"text": "after"}]'
+    root = write_corpus({"bad.json": data})
+    docs, ledger, _ = read(root, max_file_bytes=500)
+    assert [d.text for d in docs] == [f"entry {n} é" for n in range(200)]
+    problem = [e for e in ledger if e.status == "skipped"]
+    assert len(problem) == 1 and len(ledger) == 201
+    offset = data.index(b"\xe9", data.index(b"caf"))
+    assert problem[0].reason == (
+        f"item 201: not utf-8 text: byte 0xe9 at offset {offset} cannot be decoded; rest of file not read"
+    )
+
+
+def test_utf16_json_files_are_streamed_too(write_corpus, read):
+    content = json.dumps([{"id": n, "text": f"Grüße {n}"} for n in range(50)], ensure_ascii=False)
+    root = write_corpus({"w.json": content.encode("utf-16")})
+    docs, ledger, _ = read(root, max_file_bytes=100, id_field="id")
+    assert [d.text for d in docs] == [f"Grüße {n}" for n in range(50)]
+    assert {e.encoding for e in ledger} == {"utf-16-le"}
 
 
 def test_the_csv_field_limit_is_put_back_after_reading(tmp_path):

@@ -211,12 +211,7 @@ def _screened(item: _Listed, opts: ReadOptions) -> LedgerEntry | None:
     # on the expansion), as on one machine.
     streamed = fmt in STREAMED_FORMATS or fmt in STREAMED_RECORD_FORMATS or compression
     if not streamed and item.size > opts.max_file_bytes:
-        advice = (
-            "raise --max-file-bytes, or write the records as JSON Lines"
-            if fmt == "json"
-            else "raise --max-file-bytes"
-        )
-        reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} ({advice})"
+        reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
         return LedgerEntry(item.rel, "skipped", reason, fmt, item.size)
     if item.size > SPARK_FILE_LIMIT:
         reason = f"file too large for Spark to read whole: {item.size} bytes, limit {SPARK_FILE_LIMIT}"
