@@ -528,6 +528,9 @@ def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp
     lines = [json.dumps({"id": f"r{i}", "text": text * 3 + f"case {i}"}) for i in range(30)]
     (docs / "records.jsonl").write_text("\n".join(lines) + "\n", encoding="utf-8")
     (docs / "records.jsonl.gz").write_bytes(gzip.compress(("\n".join(lines[:5]) + "\n").encode("utf-8")))
+    items = [{"id": f"j{i}", "text": text * 3 + f"item {i}"} for i in range(20)]
+    items[7]["text"] = text * 40  # over the limit: skipped with its item number
+    (docs / "items.json").write_text(json.dumps(items, indent=1), encoding="utf-8")
     settings = AuditSettings(threshold=0.5, candidates="lsh", id_field="id", max_file_bytes=2000)
     local = dedup.audit([str(docs)], settings)
     on_spark = dedup.audit([docs.as_uri()], settings, engine="spark", spark_session=spark)
@@ -536,3 +539,6 @@ def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp
     statuses = {e.input: e.status for e in on_spark.ledger if not e.record}
     assert statuses.get("notes.txt.gz") == "read"
     assert sum(e.status == "read" for e in on_spark.ledger if e.input == "records.jsonl") == 30
+    json_entries = [e for e in on_spark.ledger if e.input == "items.json"]
+    assert [e.status for e in json_entries].count("read") == 19
+    assert [e.record for e in json_entries if e.status == "skipped"] == ["item 8"]
