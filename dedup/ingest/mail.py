@@ -15,6 +15,7 @@ import email.utils
 import re
 from collections.abc import Iterator
 from email.message import Message
+from typing import BinaryIO
 
 from .budget import WorkBudget
 from .document import Item, Outcome
@@ -22,7 +23,7 @@ from .encoding import decode_text
 from .html_text import html_to_text
 from .options import ReadOptions
 
-__all__ = ["read_eml", "read_mbox", "split_mbox"]
+__all__ = ["read_eml", "read_mbox", "stream_mbox", "split_mbox"]
 
 _FROM_LINE = re.compile(rb"^From ", re.M)
 _QUOTED_FROM = re.compile(rb"^>(>*From )", re.M)
@@ -144,6 +145,18 @@ def split_mbox(data: bytes) -> tuple[bytes, Iterator[bytes]]:
     return preamble, messages()
 
 
+_NOT_MBOX = "not an mbox mailbox: it does not start with a 'From ' line"
+
+
+def _mbox_message(number: int, message: bytes, item: Item, opts: ReadOptions) -> Outcome:
+    label = f"message {number}"
+    try:
+        return _message_outcome(message, item, opts, record=label, key=label)
+    except Exception as err:  # one broken message, not the whole mailbox
+        reason = f"{label}: cannot be read: {' '.join(str(err).split())[:200] or type(err).__name__}"
+        return None, item.entry("skipped", reason, record=label)
+
+
 def read_mbox(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
     """One document per message of a mailbox, named ``box.mbox#message N``."""
     nul = data.find(b"\x00")
@@ -152,16 +165,76 @@ def read_mbox(data: bytes, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
         return
     preamble, messages = split_mbox(data)
     if preamble.strip():
-        yield None, item.entry("skipped", "not an mbox mailbox: it does not start with a 'From ' line")
+        yield None, item.entry("skipped", _NOT_MBOX)
         return
     count = 0
     for count, message in enumerate(messages, 1):
-        label = f"message {count}"
-        try:
-            outcome = _message_outcome(message, item, opts, record=label, key=label)
-        except Exception as err:  # one broken message, not the whole mailbox
-            reason = f"{label}: cannot be read: {' '.join(str(err).split())[:200] or type(err).__name__}"
-            outcome = None, item.entry("skipped", reason, record=label)
-        yield outcome
+        yield _mbox_message(count, message, item, opts)
     if count == 0:
         yield None, item.entry("empty", "no messages")
+
+
+def _first_nul(stream: BinaryIO) -> int:
+    """Offset of the first NUL byte of a seekable stream (-1: none), read a MiB at a time;
+    the stream is back at its start after."""
+    offset = 0
+    try:
+        while chunk := stream.read(1 << 20):
+            found = chunk.find(b"\x00")
+            if found >= 0:
+                return offset + found
+            offset += len(chunk)
+        return -1
+    finally:
+        stream.seek(0)
+
+
+def stream_mbox(stream: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Outcome]:
+    """`read_mbox` of a mailbox larger than ``max_file_bytes``, read from a seekable stream a
+    line at a time: the limit then bounds each message (a longer one is passed over
+    without being held, and recorded as skipped), and every other message reads as in a
+    file read whole. A first pass looks for NUL bytes (a binary file is skipped whole, as
+    when read whole). Memory: one message and one line."""
+    nul = _first_nul(stream)
+    if nul >= 0:
+        yield None, item.entry("skipped", f"binary data: NUL byte at offset {nul}")
+        return
+    limit = opts.max_file_bytes
+    count, lines, size, preamble = 0, None, 0, False  # lines: None before the first message
+    line_start = True
+    while piece := stream.readline(limit + 1):
+        starts_message = line_start and piece.startswith(b"From ")
+        line_start = piece.endswith(b"\n")
+        if starts_message:
+            if count:
+                yield _finished_message(count, lines, size, item, opts)
+            elif preamble:
+                yield None, item.entry("skipped", _NOT_MBOX)
+                return
+            count, lines, size = count + 1, [], 0
+            while not line_start and (piece := stream.readline(limit + 1)):  # the rest of a long From line
+                line_start = piece.endswith(b"\n")
+        elif lines is None:
+            preamble = preamble or bool(piece.strip())
+        else:
+            size += len(piece)
+            if size <= limit:
+                lines.append(piece)
+            elif lines:
+                lines = []  # a message over the limit is not held
+    if count:
+        yield _finished_message(count, lines, size, item, opts)
+    elif preamble:
+        yield None, item.entry("skipped", _NOT_MBOX)
+    else:
+        yield None, item.entry("empty", "no messages")
+
+
+def _finished_message(number: int, lines: list[bytes], size: int, item: Item, opts: ReadOptions) -> Outcome:
+    if size > opts.max_file_bytes:
+        label = f"message {number}"
+        reason = (
+            f"{label}: record too large: more than {opts.max_file_bytes:,} bytes (raise --max-file-bytes)"
+        )
+        return None, item.entry("skipped", reason, record=label)
+    return _mbox_message(number, _QUOTED_FROM.sub(rb"\1", b"".join(lines)), item, opts)

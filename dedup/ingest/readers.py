@@ -29,7 +29,7 @@ from .encoding import damaged_utf8, decode_text
 from .filters import member_reason
 from .html_text import declared_charset, html_to_text
 from .ledger import LedgerEntry
-from .mail import read_eml, read_mbox
+from .mail import read_eml, read_mbox, stream_mbox
 from .markup import MARKUP_FORMATS, first_line_title, reduce_markup
 from .office import read_docx, read_odt
 from .optional import MissingParser
@@ -44,6 +44,7 @@ __all__ = [
     "ARCHIVE_FORMATS",
     "STREAMED_FORMATS",
     "STREAMED_RECORD_FORMATS",
+    "LARGE_FILE_FORMATS",
     "format_of",
     "format_and_compression",
     "decode_text",
@@ -91,6 +92,9 @@ ARCHIVE_FORMATS = frozenset({"zip", "tar", "tar.gz", "tar.bz2", "tar.xz", "tar.z
 # Read from an open file on disk rather than loaded whole: their size is bounded by the
 # archive limits (or, for Parquet, read a batch of rows at a time).
 STREAMED_FORMATS = ARCHIVE_FORMATS | {"parquet"}
+# Read a record (a message) at a time when a file is larger than ``max_file_bytes``: the
+# limit then bounds each record, not the file.
+LARGE_FILE_FORMATS = STREAMED_RECORD_FORMATS | {"mbox"}
 # One archive inside another is read; an archive inside that is not.
 MAX_NESTING = 1
 
@@ -392,7 +396,8 @@ def read_stream(
 ) -> Iterator[Outcome]:
     """Documents and ledger entries from an open file of one of `STREAMED_FORMATS`, a
     record file of `STREAMED_RECORD_FORMATS` (read a record at a time, whatever its
-    size), or a file compressed as ``compression`` says (``.gz`` ...: see
+    size), a mailbox larger than the file limit (a message at a time; a seekable
+    ``handle``), or a file compressed as ``compression`` says (``.gz`` ...: see
     `dedup.ingest.compressed`); ``tally`` counts the archive members of the whole run
     (`MemberTally`)."""
     if compression:
@@ -401,6 +406,8 @@ def read_stream(
         yield from _guarded(read_parquet(handle, item, opts), item, opts)
     elif item.format in STREAMED_RECORD_FORMATS:
         yield from _guarded(stream_records(handle, item, opts), item, opts)
+    elif item.format == "mbox":
+        yield from _guarded(stream_mbox(handle, item, opts), item, opts)
     else:
         yield from _guarded(_read_archive(handle, item, opts, None, tally), item, opts)
 

@@ -42,8 +42,8 @@ from .options import (
 )
 from .readers import (
     ARCHIVE_FORMATS,
+    LARGE_FILE_FORMATS,
     STREAMED_FORMATS,
-    STREAMED_RECORD_FORMATS,
     format_and_compression,
     format_of,
     read_bytes,
@@ -573,10 +573,10 @@ def _read_examined(
         if (
             fmt in STREAMED_FORMATS
             or compression
-            or (fmt in STREAMED_RECORD_FORMATS and info.st_size > opts.max_file_bytes)
+            or (fmt in LARGE_FILE_FORMATS and info.st_size > opts.max_file_bytes)
         ):
             # Streamed: bounded by the archive limits (archives, compressed files) or read
-            # a record at a time (record files), not by the size of the file.
+            # a record at a time (record files, mailboxes), not by the size of the file.
             found = Item(item.rel, item.rel, fmt, info.st_size, info.st_mtime)
             return _streamed(item, found, opts, tally, compression)
         if info.st_size > opts.max_file_bytes:
@@ -592,7 +592,7 @@ def _read_examined(
     except OSError as err:
         return _skipped(LedgerEntry(item.rel, "skipped", f"cannot be read: {err.strerror or err}", fmt))
     if len(data) > opts.max_file_bytes:  # it grew since it was examined
-        if fmt in STREAMED_RECORD_FORMATS:
+        if fmt in LARGE_FILE_FORMATS:
             return _streamed(item, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts, tally)
         return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data)))
     return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)

@@ -531,6 +531,11 @@ def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp
     items = [{"id": f"j{i}", "text": text * 3 + f"item {i}"} for i in range(20)]
     items[7]["text"] = text * 40  # over the limit: skipped with its item number
     (docs / "items.json").write_text(json.dumps(items, indent=1), encoding="utf-8")
+    mails = [
+        f"From a{i}@example.org Mon Jan  1 10:00:00 2024\nSubject: S{i}\n\n{text * 2}mail {i}\n"
+        for i in range(12)
+    ]
+    (docs / "notes.mbox").write_text("".join(mails), encoding="utf-8")
     settings = AuditSettings(threshold=0.5, candidates="lsh", id_field="id", max_file_bytes=2000)
     local = dedup.audit([str(docs)], settings)
     on_spark = dedup.audit([docs.as_uri()], settings, engine="spark", spark_session=spark)
@@ -542,3 +547,4 @@ def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp
     json_entries = [e for e in on_spark.ledger if e.input == "items.json"]
     assert [e.status for e in json_entries].count("read") == 19
     assert [e.record for e in json_entries if e.status == "skipped"] == ["item 8"]
+    assert sum(e.status == "read" for e in on_spark.ledger if e.input == "notes.mbox") == 12

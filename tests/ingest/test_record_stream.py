@@ -282,3 +282,69 @@ def test_the_csv_field_limit_is_put_back_after_reading(tmp_path):
     (tmp_path / "rows.csv").write_text("id,text\na," + "word " * 40_000 + "\n", encoding="utf-8")
     dedup.audit([str(tmp_path)])
     assert csv.field_size_limit() == before
+
+
+# -- mailboxes larger than the file limit: a message at a time ---------------------------------
+
+
+def _message(n: int, body: str) -> bytes:
+    head = f"From sender{n}@example.org Mon Jan  1 10:00:00 2024\nSubject: Note {n}\n\n"
+    return (head + body + "\n").encode("utf-8")
+
+
+def test_a_mailbox_larger_than_the_limit_is_read_message_by_message(write_corpus, read):
+    messages = [_message(n, f"the harbour on day {n}\n>From the pier") for n in range(1, 101)]
+    messages[36] = _message(37, "a long account of the harbour\n" * 200)
+    root = write_corpus({"big.mbox": b"".join(messages)})
+    docs, ledger, by_key = read(root, max_file_bytes=2_000)
+    assert [d.id for d in docs] == [f"big.mbox#message {n}" for n in range(1, 101) if n != 37]
+    assert by_key["big.mbox#message 37"].reason == f"message 37: {TOO_LARGE}"
+    assert docs[40].text == "the harbour on day 42\nFrom the pier" and docs[40].title == "Note 42"
+    assert len(ledger) == 100
+
+
+def test_a_message_longer_than_the_limit_is_passed_over_without_being_held(tmp_path, read):
+    path = tmp_path / "huge.mbox"
+    with open(path, "wb") as handle:
+        handle.write(_message(1, "before"))
+        handle.write(_message(2, ("x" * 70 + "\n") * 400_000 + "y" * 3_000_000))  # 31 MB
+        handle.write(_message(3, "after"))
+    tracemalloc.start()
+    docs, _, by_key = read(path, max_file_bytes=1_000_000)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    assert [d.text for d in docs] == ["before", "after"]
+    assert by_key["huge.mbox#message 2"].reason.startswith("message 2: record too large")
+    assert peak < 10_000_000
+
+
+def test_a_large_file_that_is_no_mailbox_is_skipped_as_when_read_whole(write_corpus, read):
+    body = b"Subject: no From line\n\n" + b"a line of text\n" * 500
+    binary = _message(1, "fine") + b"\x00" + _message(2, "x" * 5000)
+    root = write_corpus({"not.mbox": body, "binary.mbox": binary, "blank.mbox": b"\n" * 3000})
+    _, ledger, by_key = read(root, max_file_bytes=1_000)
+    assert by_key["not.mbox"].reason == "not an mbox mailbox: it does not start with a 'From ' line"
+    nul = binary.index(b"\x00")
+    assert by_key["binary.mbox"].reason == f"binary data: NUL byte at offset {nul}"
+    assert (by_key["blank.mbox"].status, by_key["blank.mbox"].reason) == ("empty", "no messages")
+    assert len(ledger) == 3
+
+
+_MAIL_LINE = st.sampled_from(
+    ["", "plain words here", "From the start of a line", ">From quoted", "Subject: inner", "From x", "\r"]
+)
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    preamble=st.sampled_from(["", "\n", "junk\n"]),
+    bodies=st.lists(st.lists(_MAIL_LINE, max_size=5), max_size=5),
+    last=st.booleans(),
+)
+def test_streamed_mailboxes_read_as_the_whole_file(preamble, bodies, last):
+    text = preamble + "".join(
+        f"From a{n}@example.org Mon Jan  1 10:00:00 2024\nSubject: S{n}\n\n" + "\n".join(body) + "\n"
+        for n, body in enumerate(bodies)
+    )
+    data = (text if last else text.rstrip("\n")).encode("utf-8")
+    _compare(data, "mbox")

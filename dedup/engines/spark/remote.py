@@ -36,8 +36,8 @@ from ...ingest.document import Item
 from ...ingest.filters import file_reason, folder_reason
 from ...ingest.readers import (
     ARCHIVE_FORMATS,
+    LARGE_FILE_FORMATS,
     STREAMED_FORMATS,
-    STREAMED_RECORD_FORMATS,
     format_and_compression,
     read_bytes,
     read_stream,
@@ -209,7 +209,7 @@ def _screened(item: _Listed, opts: ReadOptions) -> LedgerEntry | None:
         )
     # Archives, compressed files and record files are read as streams (limits per record or
     # on the expansion), as on one machine.
-    streamed = fmt in STREAMED_FORMATS or fmt in STREAMED_RECORD_FORMATS or compression
+    streamed = fmt in STREAMED_FORMATS or fmt in LARGE_FILE_FORMATS or compression
     if not streamed and item.size > opts.max_file_bytes:
         reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
         return LedgerEntry(item.rel, "skipped", reason, fmt, item.size)
@@ -320,7 +320,7 @@ def _outcomes(data: bytes, item: Item, opts: ReadOptions):
     """A file's outcomes as the local walk reads it: compressed and large record files as
     streams, the rest from its bytes."""
     _, compression = format_and_compression(item.id)
-    if compression or (item.format in STREAMED_RECORD_FORMATS and len(data) > opts.max_file_bytes):
+    if compression or (item.format in LARGE_FILE_FORMATS and len(data) > opts.max_file_bytes):
         return read_stream(io.BytesIO(data), item, opts, compression=compression)
     return read_bytes(data, item, opts)
 
