@@ -747,6 +747,8 @@ def _finish_audit(args: argparse.Namespace, result, work_dir: str, progress) -> 
     # Written whatever the inputs were: a reviewer needs the ledger most when inputs were not read.
     problems = input_problems(result.summary["inputs"], args.max_skipped_share, args.fail_on_skipped)
     code = EXIT_INPUTS if problems else code
+    if getattr(args, "config_file", None):  # which file gave options, beside how the run went
+        result.run["config_file"] = os.path.abspath(args.config_file)
     try:
         with lean_allocation():
             paths = result.write(out, progress, report=not args.no_report)

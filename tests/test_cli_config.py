@@ -57,6 +57,22 @@ def test_dedup_toml_of_the_folder_sets_options_and_the_command_line_wins(corpus,
     assert _settings(out)["threshold"] == 0.8 and "options from" not in capsys.readouterr().err
 
 
+def test_run_json_names_the_config_file_that_gave_options(corpus, tmp_path):
+    import jsonschema
+
+    from dedup.schemas import load_schema
+
+    (corpus / "dedup.toml").write_text("threshold = 0.55\n", encoding="utf-8")
+    out = tmp_path / "out"
+    runs = []
+    for extra in ([], ["--no-config"]):
+        assert main(["audit", str(corpus), "-o", str(out), "-q", *extra]) == 0
+        runs.append(json.loads((out / "run.json").read_text(encoding="utf-8")))
+        jsonschema.validate(runs[-1], load_schema("run"))
+    assert runs[0]["config_file"] == os.path.abspath(corpus / "dedup.toml")
+    assert "config_file" not in runs[1]
+
+
 def test_a_file_gives_the_same_outputs_as_the_same_flags(corpus, tmp_path):
     config = tmp_path / "team.toml"
     config.write_text('threshold = 0.5\nmeasure = "containment"\nkeep-boilerplate = true\n', encoding="utf-8")
