@@ -70,9 +70,14 @@ def _finite(text: str) -> float:
 _DECODER = json.JSONDecoder(parse_constant=_not_a_number, parse_float=_finite)
 
 
+def _message(err: json.JSONDecodeError) -> str:
+    # "Unterminated string starting at" is followed by our own "at line L column C".
+    return err.msg.removesuffix(" at")
+
+
 def _json_problem(err: Exception, text: str = "", offset: int = 0) -> str:
     if isinstance(err, json.JSONDecodeError):
-        return f"not valid JSON ({err.msg} at line {err.lineno} column {err.colno})"
+        return f"not valid JSON ({_message(err)} at line {err.lineno} column {err.colno})"
     if isinstance(err, RecursionError):
         line = text.count("\n", 0, offset) + 1
         return f"not valid JSON (nested too deeply, from line {line})"
@@ -293,7 +298,7 @@ def _problem(err: Exception, read: _JsonText, start: int) -> str:
     if read.problem:
         return read.problem
     if isinstance(err, json.JSONDecodeError):
-        return f"not valid JSON ({err.msg} at {read.where(err.pos)})"
+        return f"not valid JSON ({_message(err)} at {read.where(err.pos)})"
     if isinstance(err, RecursionError):
         return f"not valid JSON (nested too deeply, from line {read.line_of(start)})"
     return f"not valid JSON ({err})"
