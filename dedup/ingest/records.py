@@ -15,8 +15,9 @@ in a JSON array, whose structure a broken item destroys, the rest of the file is
 recorded as not read.
 
 JSONL and CSV are also read a line at a time (`jsonl_line_records`, `csv_line_records`),
-for files too large to hold (`dedup.ingest.record_stream`), with the same labels and
-problems as the whole-text readers, which go through the same code.
+and JSON a piece of text at a time (`json_piece_records`), for files too large to hold
+(`dedup.ingest.record_stream`), with the same labels and problems as the whole-text
+readers, which go through the same code.
 """
 
 from __future__ import annotations
