@@ -237,7 +237,7 @@ def _add_work_options(g: argparse._ArgumentGroup) -> None:
 # The exit codes in a help epilog (the module docstring has them in full).
 EXIT_CODES_HELP = (
     "Exit codes: 0 ran, 1 --fail-on was met, 2 usage error (or an unusable index or config file), "
-    "3 internal error, 4 inputs not read (no document, more than --max-skipped-share of the inputs, or "
+    "3 internal error or the Spark engine failed (one line says why), 4 inputs not read (no document, more than --max-skipped-share of the inputs, or "
     "any with --fail-on skipped; the outputs are written all the same)."
 )
 CONFIG_HELP = (
@@ -690,6 +690,7 @@ def _config_note(args: argparse.Namespace) -> str:
 
 def _run_audit(args: argparse.Namespace) -> int:
     from .api import audit
+    from .engines import EngineFailed
     from .ingest import InputError, leaving_out
     from .progress import Progress, StderrProgress
 
@@ -717,6 +718,9 @@ def _run_audit(args: argparse.Namespace) -> int:
             )
     except InputError as err:
         return _usage_error(str(err))
+    except EngineFailed as err:  # before OSError: a JVM that went away is a connection error
+        print(terminal_text(f"dedup: error: {err}"), file=sys.stderr)
+        return EXIT_INTERNAL
     except OSError as err:
         # The work folder (texts spilled while auditing) could not be written: full disk, no permission.
         return _usage_error(f"cannot use the work folder {work_dir}: {err.strerror or err}")

@@ -8,13 +8,18 @@ The Spark engine is imported only when asked for (`spark_engine`): pyspark is op
 from ..settings import SettingsError
 from .local import run_audit
 
-__all__ = ["run_audit", "ENGINES", "EngineUnavailable", "spark_engine", "engine_problem"]
+__all__ = ["run_audit", "ENGINES", "EngineUnavailable", "EngineFailed", "spark_engine", "engine_problem"]
 
 ENGINES = ("local", "spark")
 
 
 class EngineUnavailable(SettingsError):
     """The engine asked for cannot run here; the message says what to install."""
+
+
+class EngineFailed(RuntimeError):
+    """The engine stopped partway (a Spark job failed, its JVM ran out of memory or went
+    away); the message says in which step, why, and what to change."""
 
 
 def engine_problem(engine: str) -> str | None:

@@ -548,3 +548,89 @@ def test_uris_read_compressed_and_large_record_files_as_the_walk_does(spark, tmp
     assert [e.status for e in json_entries].count("read") == 19
     assert [e.record for e in json_entries if e.status == "skipped"] == ["item 8"]
     assert sum(e.status == "read" for e in on_spark.ledger if e.input == "notes.mbox") == 12
+
+
+# -- when Spark fails partway -------------------------------------------------------------------
+
+
+@needs_spark
+def test_a_failed_spark_job_is_one_sentence_naming_the_step(spark, tmp_path, monkeypatch):
+    from dedup.engines import EngineFailed
+    from dedup.engines.spark import engine
+
+    def failing_templates(*args, **kwargs):
+        spark.sql("SELECT raise_error('the disk of executor 3 is full')").collect()
+
+    monkeypatch.setattr(engine, "find_templates", failing_templates)
+    persisted = spark.sparkContext._jsc.sc().getPersistentRDDs().size()
+    docs = tmp_path / "docs"
+    docs.mkdir()
+    for k in range(3):
+        (docs / f"{k}.txt").write_text(f"the pump station log of week {k} " * 20, encoding="utf-8")
+    with pytest.raises(EngineFailed) as caught:
+        dedup.audit([str(docs)], AuditSettings(), engine="spark", spark_session=spark)
+    message = str(caught.value)
+    assert message.startswith("the Spark engine failed in the templates step: ")
+    assert "the disk of executor 3 is full" in message and "\n" not in message
+    assert "memory" not in message  # not a memory problem: no advice about memory
+    # The caller's session is left running, with nothing of the audit persisted in it.
+    assert spark.range(3).count() == 3
+    assert spark.sparkContext._jsc.sc().getPersistentRDDs().size() == persisted
+
+
+def test_memory_running_out_is_said_with_what_to_change():
+    from dedup.engines.spark.failures import as_engine_failure, is_spark_failure
+
+    class Py4JJavaError(Exception):  # stands for py4j.protocol.Py4JJavaError
+        pass
+
+    Py4JJavaError.__module__ = "py4j.protocol"
+    java = Py4JJavaError(
+        "An error occurred while calling o509.getResult.\n: org.apache.spark.SparkException: Job aborted "
+        "due to stage failure: Task 1 in stage 35.0 failed 1 times\nCaused by: java.lang.OutOfMemoryError: "
+        "Java heap space\n\tat java.base/java.nio.HeapByteBuffer.<init>(HeapByteBuffer.java:64)"
+    )
+    gone = ConnectionRefusedError(111, "Connection refused")
+    assert is_spark_failure(java) and is_spark_failure(gone) and not is_spark_failure(ValueError("ours"))
+    local = str(as_engine_failure(java, "verifying", "1g", local=True))
+    assert local == (
+        "the Spark engine failed in the verifying step: java.lang.OutOfMemoryError: Java heap space; most "
+        "often that is memory running out: in local mode the driver's JVM runs every task: give it more "
+        "memory with SPARK_DRIVER_MEMORY (it had 1g)"
+    )
+    stopped = str(as_engine_failure(gone, "templates", "600m", local=True))
+    assert stopped.startswith("the Spark engine failed in the templates step: its JVM stopped; most often")
+    assert "spark.executor.memory" in str(as_engine_failure(java, "verifying", "4g", local=False))
+
+
+def test_a_started_local_session_gets_memory_unless_the_user_chose_it(monkeypatch, tmp_path):
+    from dedup.engines.spark import session as sessions
+
+    for name in ("SPARK_DRIVER_MEMORY", "PYSPARK_SUBMIT_ARGS", "SPARK_CONF_DIR", "SPARK_HOME"):
+        monkeypatch.delenv(name, raising=False)
+    assert not sessions._memory_set_elsewhere()
+    monkeypatch.setenv("SPARK_DRIVER_MEMORY", "3g")
+    assert sessions._memory_set_elsewhere()
+    monkeypatch.delenv("SPARK_DRIVER_MEMORY")
+    (tmp_path / "spark-defaults.conf").write_text("spark.driver.memory   6g\n", encoding="utf-8")
+    monkeypatch.setenv("SPARK_CONF_DIR", str(tmp_path))
+    assert sessions._memory_set_elsewhere()
+    (tmp_path / "spark-defaults.conf").write_text("spark.executor.memory 6g\n", encoding="utf-8")
+    assert not sessions._memory_set_elsewhere()
+    assert sessions.local_driver_memory(16 * 2**30) == "8g"
+
+
+def test_the_command_says_a_spark_failure_in_one_line_and_exits_3(monkeypatch, tmp_path, capsys):
+    import dedup.api
+    from dedup.cli import main
+    from dedup.engines import EngineFailed
+
+    def failing(*args, **kwargs):
+        raise EngineFailed("the Spark engine failed in the verifying step: its JVM stopped")
+
+    monkeypatch.setattr(dedup.api, "audit", failing)
+    (tmp_path / "a.txt").write_text("a few words of text", encoding="utf-8")
+    code = main(["audit", str(tmp_path / "a.txt"), "--out", str(tmp_path / "out"), "--engine", "spark", "-q"])
+    err = capsys.readouterr().err
+    assert code == 3
+    assert err == "dedup: error: the Spark engine failed in the verifying step: its JVM stopped\n"

@@ -37,6 +37,7 @@ it persisted is released at the end, and a session started here is stopped.
 
 from __future__ import annotations
 
+import contextlib
 import logging
 import time
 from collections.abc import Sequence
@@ -67,6 +68,7 @@ from ..driver import (
 from .banding import exhaustive_pairs, lsh_pairs, oversize_buckets, shared_buckets
 from .clustering import DRIVER_COMPONENT_EDGES, spark_cluster_step
 from .columns import ddl
+from .failures import as_engine_failure, is_spark_failure
 from .normalizing import NORMALIZED, RECORD_COLUMNS, ExactStep, exact_step, normalize_partition
 from .reading import read_documents
 from .remote import is_uri, read_uris
@@ -105,6 +107,7 @@ class _SparkRun:
         self.originals_from = None  # documents with their original text, by read position
         self.broadcasts: list = []
         self.stages: dict[str, float] = {}
+        self.current = ""  # the step running
         self._t = time.perf_counter()
 
     # -- bookkeeping ---------------------------------------------------------------------
@@ -124,6 +127,7 @@ class _SparkRun:
 
     def step(self, name: str, total: int | None = None) -> None:
         """Start a step: its progress, and the description Spark shows for its jobs."""
+        self.current = name
         self.spark.sparkContext.setJobDescription(f"dedup audit: {name}")
         self.progress.start(name, total)
 
@@ -454,15 +458,26 @@ def run_audit_spark(
         Local paths and URIs mixed.
     dedup.InputError
         A path or URI does not exist.
+    dedup.engines.EngineFailed
+        A Spark job failed or Spark's JVM stopped (most often: out of memory); the
+        message names the step and what to change.
     """
     progress = progress or Progress.silent()
     started = time.time()
     with audit_session(spark, master) as session, _work_folder(work) as folder:
         run = _SparkRun(own_session(session), plan, folder, progress)
+        context = session.sparkContext
+        memory, local = context.getConf().get("spark.driver.memory", "1g"), is_local_master(context.master)
         try:
             result = _audit(run, paths, known_boilerplate, workers, driver_component_edges)
-        finally:
-            run.release()
+        except Exception as err:
+            if not is_spark_failure(err):
+                run.release()
+                raise
+            with contextlib.suppress(Exception):  # the JVM may be gone
+                run.release()
+            raise as_engine_failure(err, run.current, memory, local) from err
+        run.release()
         result.run = {
             "engine": "spark",
             "master": session.sparkContext.master,

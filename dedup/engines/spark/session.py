@@ -7,7 +7,8 @@ corpus, Arrow batch sizes, adaptive partitions in persisted plans) never touch t
 caller's. Without one, a session is started on ``master`` (``local[*]`` by default) with
 the Python of this process for its workers, no web UI, and one compiled-kernel thread
 per task (``NUMBA_NUM_THREADS`` for the executors), so that the cores Spark gives tasks
-are the cores used; it is stopped when the audit ends. Nothing of this process's own
+are the cores used; a local one gets half the machine's memory for its JVM
+(`local_driver_memory`) unless the user set it; it is stopped when the audit ends. Nothing of this process's own
 environment is changed.
 """
 
@@ -27,6 +28,7 @@ __all__ = [
     "audit_session",
     "is_local_master",
     "is_uri",
+    "local_driver_memory",
     "own_session",
     "shuffle_partitions",
 ]
@@ -72,6 +74,40 @@ def is_local_master(master: str) -> bool:
     return master == "local" or master.startswith("local[") or master.startswith("local-cluster[")
 
 
+def _memory_set_elsewhere() -> bool:
+    """Whether the user chose the driver's memory (``SPARK_DRIVER_MEMORY``,
+    ``--driver-memory`` in ``PYSPARK_SUBMIT_ARGS`` or ``spark.driver.memory`` in the
+    spark-defaults.conf Spark would read): then it is theirs, not ours, to set."""
+    if os.environ.get("SPARK_DRIVER_MEMORY") or "--driver-memory" in os.environ.get(
+        "PYSPARK_SUBMIT_ARGS", ""
+    ):
+        return True
+    folders = [os.environ.get("SPARK_CONF_DIR")]
+    if os.environ.get("SPARK_HOME"):
+        folders.append(os.path.join(os.environ["SPARK_HOME"], "conf"))
+    for folder in filter(None, folders):
+        with (
+            contextlib.suppress(OSError),
+            open(os.path.join(folder, "spark-defaults.conf"), encoding="utf-8") as handle,
+        ):
+            if any(line.split()[:1] == ["spark.driver.memory"] for line in handle):
+                return True
+    return False
+
+
+def local_driver_memory(total_bytes: int | None = None) -> str:
+    """The driver memory of a local session started here: half the machine's memory,
+    between 1 GiB and 64 GiB. In local mode the driver's JVM runs every task, and
+    Spark's own default (1 GiB) runs out at about 100,000 documents.
+
+    >>> local_driver_memory(24 * 2**30), local_driver_memory(2**30), local_driver_memory(2**40)
+    ('12g', '1g', '64g')
+    """
+    if total_bytes is None:
+        total_bytes = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+    return f"{min(max(total_bytes // 2 // 2**30, 1), 64)}g"
+
+
 def _started(master: str):
     from pyspark.sql import SparkSession
 
@@ -84,6 +120,8 @@ def _started(master: str):
         .config("spark.pyspark.driver.python", sys.executable)
         .config("spark.executorEnv.NUMBA_NUM_THREADS", "1")
     )
+    if is_local_master(master) and not _memory_set_elsewhere():
+        builder = builder.config("spark.driver.memory", local_driver_memory())
     return builder.getOrCreate()
 
 
@@ -111,7 +149,8 @@ def audit_session(spark=None, master: str | None = None) -> Iterator:
     try:
         yield session
     finally:
-        session.stop()
+        with contextlib.suppress(Exception):  # a JVM that ran out of memory may be gone already
+            session.stop()
 
 
 # Distinct texts per shuffle partition beyond which a shuffle gets more partitions.
