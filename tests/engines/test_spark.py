@@ -619,6 +619,12 @@ def test_a_started_local_session_gets_memory_unless_the_user_chose_it(monkeypatc
     assert not sessions._memory_set_elsewhere()
     assert sessions.local_driver_memory(16 * 2**30) == "8g"
 
+    def no_sysconf(name):
+        raise ValueError(f"unrecognized configuration name {name}")
+
+    monkeypatch.setattr(sessions.os, "sysconf", no_sysconf)
+    assert sessions.local_driver_memory() is None  # Spark's own default then
+
 
 def test_the_command_says_a_spark_failure_in_one_line_and_exits_3(monkeypatch, tmp_path, capsys):
     import dedup.api

@@ -95,16 +95,20 @@ def _memory_set_elsewhere() -> bool:
     return False
 
 
-def local_driver_memory(total_bytes: int | None = None) -> str:
+def local_driver_memory(total_bytes: int | None = None) -> str | None:
     """The driver memory of a local session started here: half the machine's memory,
-    between 1 GiB and 64 GiB. In local mode the driver's JVM runs every task, and
-    Spark's own default (1 GiB) runs out at about 100,000 documents.
+    between 1 GiB and 64 GiB (None where the machine's memory cannot be told: Spark's
+    default then). In local mode the driver's JVM runs every task, and Spark's own
+    default (1 GiB) runs out at about 100,000 documents.
 
     >>> local_driver_memory(24 * 2**30), local_driver_memory(2**30), local_driver_memory(2**40)
     ('12g', '1g', '64g')
     """
     if total_bytes is None:
-        total_bytes = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+        try:
+            total_bytes = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+        except (AttributeError, ValueError, OSError):  # no sysconf (Windows) or no such name
+            return None
     return f"{min(max(total_bytes // 2 // 2**30, 1), 64)}g"
 
 
@@ -120,8 +124,9 @@ def _started(master: str):
         .config("spark.pyspark.driver.python", sys.executable)
         .config("spark.executorEnv.NUMBA_NUM_THREADS", "1")
     )
-    if is_local_master(master) and not _memory_set_elsewhere():
-        builder = builder.config("spark.driver.memory", local_driver_memory())
+    memory = local_driver_memory() if is_local_master(master) and not _memory_set_elsewhere() else None
+    if memory:
+        builder = builder.config("spark.driver.memory", memory)
     return builder.getOrCreate()
 
 
