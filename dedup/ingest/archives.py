@@ -36,7 +36,7 @@ from typing import BinaryIO
 from .budget import ExpansionBudget, ExpansionExceeded
 from .compressed import decompressing
 from .filters import clean_name
-from .options import ReadOptions
+from .options import ReadOptions, file_too_large
 
 __all__ = ["Member", "iter_zip", "iter_tar", "unsafe_path", "read_bounded", "Counted"]
 
@@ -125,10 +125,6 @@ def read_bounded(handle: BinaryIO, limit: int) -> bytes:
         chunks.append(chunk)
         total += len(chunk)
     return b"".join(chunks)
-
-
-def _too_large(size: int, opts: ReadOptions) -> str:
-    return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
 
 
 # The zip format's end-of-archive records and the fixed part of a central directory entry
@@ -228,7 +224,7 @@ def iter_zip(
             elif info.flag_bits & 0x1:
                 member.status, member.reason = "skipped", "encrypted archive member: needs a password"
             elif info.file_size > opts.max_file_bytes:
-                member.status, member.reason = "skipped", _too_large(info.file_size, opts)
+                member.status, member.reason = "skipped", file_too_large(info.file_size, opts.max_file_bytes)
             elif exhausted or info.file_size > budget.remaining():
                 exhausted = exhausted or budget.why()
                 member.status, member.reason = "refused", f"archive limit: {exhausted}"
@@ -244,7 +240,10 @@ def iter_zip(
                     member.status, member.reason = "skipped", f"damaged archive member: {_one_line(err)}"
                 else:
                     if len(data) > opts.max_file_bytes:
-                        member.status, member.reason = "skipped", _too_large(len(data), opts)
+                        member.status, member.reason = (
+                            "skipped",
+                            file_too_large(len(data), opts.max_file_bytes),
+                        )
                     else:
                         member.data, member.size = data, len(data)
             yield member
@@ -329,7 +328,7 @@ def iter_tar(
             elif (verdict := screen(name)) is not None:
                 member.status, member.reason = verdict
             elif info.size > opts.max_file_bytes:
-                member.status, member.reason = "skipped", _too_large(info.size, opts)
+                member.status, member.reason = "skipped", file_too_large(info.size, opts.max_file_bytes)
             elif info.size > budget.remaining():
                 # Moving past it would expand it anyway: stop here.
                 raise ExpansionExceeded(budget.why())

@@ -21,7 +21,7 @@ from .budget import WorkBudget
 from .document import Item, Outcome
 from .encoding import decode_text
 from .html_text import html_to_text
-from .options import ReadOptions
+from .options import ReadOptions, record_too_large
 
 __all__ = ["read_eml", "read_mbox", "stream_mbox", "split_mbox"]
 
@@ -233,8 +233,6 @@ def stream_mbox(stream: BinaryIO, item: Item, opts: ReadOptions) -> Iterator[Out
 def _finished_message(number: int, lines: list[bytes], size: int, item: Item, opts: ReadOptions) -> Outcome:
     if size > opts.max_file_bytes:
         label = f"message {number}"
-        reason = (
-            f"{label}: record too large: more than {opts.max_file_bytes:,} bytes (raise --max-file-bytes)"
-        )
+        reason = f"{label}: {record_too_large(opts.max_file_bytes)}"
         return None, item.entry("skipped", reason, record=label)
     return _mbox_message(number, _QUOTED_FROM.sub(rb"\1", b"".join(lines)), item, opts)

@@ -18,6 +18,8 @@ __all__ = [
     "DEFAULT_MAX_ARCHIVE_BYTES",
     "DEFAULT_MAX_ARCHIVE_MEMBERS",
     "DEFAULT_MAX_RUN_MEMBERS",
+    "file_too_large",
+    "record_too_large",
 ]
 
 DEFAULT_MAX_FILE_BYTES = 50_000_000
@@ -34,6 +36,18 @@ DEFAULT_MAX_ARCHIVE_BYTES = 2_000_000_000
 # hundreds or thousands of files; these leave a wide margin.
 DEFAULT_MAX_ARCHIVE_MEMBERS = 100_000
 DEFAULT_MAX_RUN_MEMBERS = 1_000_000
+
+
+def file_too_large(size: int, limit: int) -> str:
+    """The reason a file of ``size`` bytes over the file limit is skipped."""
+    return f"file too large: {size} bytes, limit {limit} (raise --max-file-bytes)"
+
+
+def record_too_large(limit: int) -> str:
+    """The reason a record (a line, row, item or message) over the limit is skipped, in a
+    file read a record at a time. Characters are never more than the bytes that spell them,
+    so a record of more than ``limit`` characters is also more than ``limit`` bytes."""
+    return f"record too large: more than {limit:,} bytes (raise --max-file-bytes)"
 
 
 @dataclass(frozen=True)

@@ -29,7 +29,7 @@ from typing import BinaryIO
 
 from .document import Item, Outcome
 from .encoding import GUESSED, damaged_utf8, decode_text
-from .options import ReadOptions
+from .options import ReadOptions, record_too_large
 from .records import (
     Line,
     Passed,
@@ -156,7 +156,7 @@ def _byte_lines(stream: BinaryIO, limit: int) -> Iterator[bytes | Passed]:
             if not line:
                 break
             quotes += line.count(b'"')
-        yield Passed(f"record too large: more than {limit:,} bytes (raise --max-file-bytes)", quotes)
+        yield Passed(record_too_large(limit), quotes)
 
 
 def _decoded(lines: Iterator[bytes | Passed], codec: str, csv_lines: bool) -> Iterator[Line]:
@@ -196,7 +196,7 @@ def _wide_lines(stream: BinaryIO, codec: str, limit: int, csv_lines: bool) -> It
             if not line:
                 break
             quotes += line.count('"')
-        yield Passed(f"record too large: more than {limit:,} bytes (raise --max-file-bytes)", quotes)
+        yield Passed(record_too_large(limit), quotes)
 
 
 def _lines(stream: BinaryIO, codec: str, limit: int, csv_lines: bool) -> Iterator[Line]:

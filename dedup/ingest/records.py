@@ -32,7 +32,7 @@ from collections.abc import Iterable, Iterator, Sequence
 from typing import NamedTuple
 
 from .document import Item, Outcome
-from .options import ReadOptions
+from .options import ReadOptions, record_too_large
 
 __all__ = [
     "jsonl_records",
@@ -305,10 +305,6 @@ def _problem(err: Exception, read: _JsonText, start: int) -> str:
     return f"not valid JSON ({err})"
 
 
-def _too_large(limit: int) -> str:
-    return f"record too large: more than {limit:,} bytes (raise --max-file-bytes)"
-
-
 def json_records(text: str) -> Iterator[Triple]:
     """Records of a JSON file: an array of objects (item by item), or one object."""
     return _json_records(_JsonText.whole(text), len(text) + 1)
@@ -344,7 +340,7 @@ def _json_records(read: _JsonText, limit: int) -> Iterator[Triple]:
         try:
             value = read.decode(limit)
         except _ValueTooLarge as err:
-            yield label, None, f"{label}: {_too_large(limit)}"
+            yield label, None, f"{label}: {record_too_large(limit)}"
             if not err.passed and not read.pass_value():
                 yield "", None, read.problem or f"not valid JSON (the file ends inside {label})"
                 return
@@ -379,7 +375,7 @@ def _json_object(read: _JsonText, limit: int) -> Iterator[Triple]:
     try:
         value = read.decode(limit)
     except _ValueTooLarge:
-        yield "item 1", None, f"item 1: {_too_large(limit)}"
+        yield "item 1", None, f"item 1: {record_too_large(limit)}"
         return
     except (ValueError, RecursionError) as err:
         yield "", None, _problem(err, read, start)
@@ -426,8 +422,7 @@ class _RowLines:
             raise _RowTooLarge(line.reason)
         self.chars += len(line)
         if self.chars > self.limit:
-            # Characters are never more than the bytes that spell them.
-            raise _RowTooLarge(f"record too large: more than {self.limit:,} bytes (raise --max-file-bytes)")
+            raise _RowTooLarge(record_too_large(self.limit))
         return line
 
     def start_row(self) -> None:

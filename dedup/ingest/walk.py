@@ -39,6 +39,7 @@ from .options import (
     DEFAULT_MAX_RUN_MEMBERS,
     DEFAULT_MAX_TEXT_CHARS,
     ReadOptions,
+    file_too_large,
 )
 from .readers import (
     ARCHIVE_FORMATS,
@@ -413,10 +414,6 @@ def _start_pool(workers: int, opts: ReadOptions, prepare):
         return None
 
 
-def _too_large(size: int, opts: ReadOptions) -> str:
-    return f"file too large: {size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
-
-
 # Formats whose file holds exactly one document, whose id is the file's path.
 _SINGLE_DOCUMENT_FORMATS = frozenset(
     {"text", "markdown", "restructuredtext", "asciidoc", "html", "docx", "odt", "pdf", "email"}
@@ -581,7 +578,9 @@ def _read_examined(
             return _streamed(item, found, opts, tally, compression)
         if info.st_size > opts.max_file_bytes:
             return _skipped(
-                LedgerEntry(item.rel, "skipped", _too_large(info.st_size, opts), fmt, info.st_size)
+                LedgerEntry(
+                    item.rel, "skipped", file_too_large(info.st_size, opts.max_file_bytes), fmt, info.st_size
+                )
             )
         limit = opts.max_file_bytes
         data = (
@@ -594,7 +593,9 @@ def _read_examined(
     if len(data) > opts.max_file_bytes:  # it grew since it was examined
         if fmt in LARGE_FILE_FORMATS:
             return _streamed(item, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts, tally)
-        return _skipped(LedgerEntry(item.rel, "skipped", _too_large(len(data), opts), fmt, len(data)))
+        return _skipped(
+            LedgerEntry(item.rel, "skipped", file_too_large(len(data), opts.max_file_bytes), fmt, len(data))
+        )
     return read_bytes(data, Item(item.rel, item.rel, fmt, len(data), info.st_mtime), opts)
 
 

@@ -34,6 +34,7 @@ from ...ingest.compressed import unsupported_compressed
 from ...ingest.dates import date_value
 from ...ingest.document import Item
 from ...ingest.filters import file_reason, folder_reason
+from ...ingest.options import file_too_large
 from ...ingest.readers import (
     ARCHIVE_FORMATS,
     LARGE_FILE_FORMATS,
@@ -211,8 +212,9 @@ def _screened(item: _Listed, opts: ReadOptions) -> LedgerEntry | None:
     # on the expansion), as on one machine.
     streamed = fmt in STREAMED_FORMATS or fmt in LARGE_FILE_FORMATS or compression
     if not streamed and item.size > opts.max_file_bytes:
-        reason = f"file too large: {item.size} bytes, limit {opts.max_file_bytes} (raise --max-file-bytes)"
-        return LedgerEntry(item.rel, "skipped", reason, fmt, item.size)
+        return LedgerEntry(
+            item.rel, "skipped", file_too_large(item.size, opts.max_file_bytes), fmt, item.size
+        )
     if item.size > SPARK_FILE_LIMIT:
         reason = f"file too large for Spark to read whole: {item.size} bytes, limit {SPARK_FILE_LIMIT}"
         return LedgerEntry(item.rel, "skipped", reason, fmt, item.size)
