@@ -38,7 +38,6 @@ the align step; then O(words) numpy per member.
 
 from __future__ import annotations
 
-import unicodedata
 from collections.abc import Collection, Mapping, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
@@ -47,6 +46,7 @@ import numpy as np
 
 from ..align import AlignSettings, NamedWords, WordSpans, align_pairs
 from ..normalize.lines import line_hashes
+from ..normalize.text import canonical_text
 from ..settings import AuditSettings
 from .actions import count_retired, number_clusters
 
@@ -163,12 +163,6 @@ def _occurs_in(needle: np.ndarray, haystack: np.ndarray) -> bool:
     return at != -1
 
 
-def _canonical(line: str) -> str:
-    """A line's canonical form, as the boilerplate stage forms it: NFKC, case folded,
-    whitespace collapsed ("" for a blank line)."""
-    return " ".join(unicodedata.normalize("NFKC", line).casefold().split())
-
-
 def _held_lines(text: str, word_starts: np.ndarray) -> tuple[np.ndarray, list[str]]:
     """The canonical form of every line of ``text`` that holds one of the words (by start
     character), and for each word the number of its line among them. Lines holding none
@@ -179,7 +173,7 @@ def _held_lines(text: str, word_starts: np.ndarray) -> tuple[np.ndarray, list[st
     line_starts = np.zeros(len(lines), dtype=np.int64)
     np.cumsum([len(line) for line in lines[:-1]], out=line_starts[1:])
     held, which = np.unique(np.searchsorted(line_starts, word_starts, side="right") - 1, return_inverse=True)
-    return which.astype(np.int64), [_canonical(lines[k]) for k in held.tolist()]
+    return which.astype(np.int64), [canonical_text(lines[k]) for k in held.tolist()]
 
 
 def template_mask(text: str, word_starts: np.ndarray, template_lines: Collection[int]) -> np.ndarray:
