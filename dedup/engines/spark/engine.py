@@ -140,12 +140,15 @@ class _SparkRun:
         self.progress.done(note)
 
     def release(self) -> None:
-        """Unpersist and destroy what the audit left in the session."""
-        for frame in self.kept_frames:
-            frame.unpersist()
-        for shared in self.broadcasts:
-            shared.destroy()
-        self.spark.sparkContext.setJobDescription(self.description)
+        """Unpersist and destroy what the audit left in the session. Never raises: after a
+        failure Spark's JVM may be gone, and the failure is what the caller must see."""
+        undo = [frame.unpersist for frame in self.kept_frames] + [
+            shared.destroy for shared in self.broadcasts
+        ]
+        undo.append(lambda: self.spark.sparkContext.setJobDescription(self.description))
+        for step in undo:
+            with contextlib.suppress(Exception):
+                step()
 
     def frame(self, table: pa.Table, schema: pa.Schema):
         """A small driver table as a DataFrame (a local relation: joined by broadcast)."""
@@ -471,13 +474,11 @@ def run_audit_spark(
         try:
             result = _audit(run, paths, known_boilerplate, workers, driver_component_edges)
         except Exception as err:
-            if not is_spark_failure(err):
-                run.release()
-                raise
-            with contextlib.suppress(Exception):  # the JVM may be gone
-                run.release()
-            raise as_engine_failure(err, run.current, memory, local) from err
-        run.release()
+            if is_spark_failure(err):
+                raise as_engine_failure(err, run.current, memory, local) from err
+            raise
+        finally:
+            run.release()
         result.run = {
             "engine": "spark",
             "master": session.sparkContext.master,
