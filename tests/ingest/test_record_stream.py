@@ -9,6 +9,7 @@ import io
 import json
 import tracemalloc
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -18,25 +19,42 @@ from dedup.ingest.options import ReadOptions
 from dedup.ingest.readers import read_bytes, read_stream
 
 TOO_LARGE = "record too large: more than 2,000 bytes (raise --max-file-bytes)"
+TOO_LARGE_1MB = "record too large: more than 1,000,000 bytes (raise --max-file-bytes)"
+
+
+def _records(count: int, long_at: int) -> list[dict]:
+    """Records d1..dN with short texts, but record ``long_at``'s of about 6 KB; their
+    tags hold brackets, braces and quotes (for JSON read in pieces)."""
+    return [
+        {
+            "id": f"d{n}",
+            "text": "a long account of the harbour " * 200 if n == long_at else f"the harbour on day {n}",
+            "tags": ["]", "}", '"quoted"', {"x": [n]}],
+        }
+        for n in range(1, count + 1)
+    ]
 
 
 def _jsonl(count: int, long_at: int) -> str:
-    lines = []
-    for n in range(1, count + 1):
-        words = "a long account of the harbour " * 200 if n == long_at else f"the harbour on day {n}"
-        lines.append(json.dumps({"id": f"d{n}", "text": words}))
-    return "\n".join(lines) + "\n"
+    return "".join(json.dumps(record) + "\n" for record in _records(count, long_at))
 
 
-def test_a_jsonl_file_larger_than_the_limit_is_read_with_the_long_record_skipped(write_corpus, read):
-    content = _jsonl(200, long_at=37)
+@pytest.mark.parametrize("name,label", [("big.jsonl", "line"), ("big.json", "item")])
+def test_a_record_file_larger_than_the_limit_is_read_with_the_long_record_skipped(
+    name, label, write_corpus, read, monkeypatch
+):
+    import dedup.ingest.record_stream as record_stream
+
+    monkeypatch.setattr(record_stream, "_CHUNK", 97)  # JSON pieces that cut items, strings and escapes
+    records = _records(200, long_at=37)
+    content = _jsonl(200, long_at=37) if name.endswith(".jsonl") else json.dumps(records, indent=1)
     assert len(content) > 10_000
-    root = write_corpus({"big.jsonl": content})
+    root = write_corpus({name: content})
     docs, ledger, by_key = read(root, max_file_bytes=2_000, id_field="id")
-    assert [d.id for d in docs] == [f"big.jsonl#d{n}" for n in range(1, 201) if n != 37]
-    assert by_key["big.jsonl#line 37"].status == "skipped"
-    assert by_key["big.jsonl#line 37"].reason == f"line 37: {TOO_LARGE}"
-    assert docs[40].text == "the harbour on day 42" and docs[40].record == "line 42"
+    assert [d.id for d in docs] == [f"{name}#d{n}" for n in range(1, 201) if n != 37]
+    assert by_key[f"{name}#{label} 37"].status == "skipped"
+    assert by_key[f"{name}#{label} 37"].reason == f"{label} 37: {TOO_LARGE}"
+    assert docs[40].text == "the harbour on day 42" and docs[40].record == f"{label} 42"
     assert len(ledger) == 200
 
 
@@ -53,21 +71,28 @@ def test_a_csv_row_over_the_limit_is_skipped_and_the_rows_after_it_keep_their_li
     assert [d.text for d in csv_docs] == [f"row {n}" for n in range(1, 300)]
 
 
+def _passed_over_without_being_held(read, path, record: str) -> None:
+    """``path`` holds a record "before", a record over 1 MB and a record "after": read
+    with a 1 MB limit, the long one is skipped with its reason, the others read, and the
+    memory allocated while reading (tracemalloc) stays under 10 MB."""
+    tracemalloc.start()
+    try:
+        docs, _, by_key = read(path, max_file_bytes=1_000_000)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert [d.text for d in docs] == ["before", "after"]
+    assert by_key[f"{path.name}#{record}"].reason == f"{record}: {TOO_LARGE_1MB}"
+    assert peak < 10_000_000
+
+
 def test_a_line_longer_than_the_limit_is_passed_over_without_being_held(tmp_path, read):
     path = tmp_path / "huge.jsonl"
     with open(path, "w", encoding="utf-8") as handle:
         handle.write('{"text": "before"}\n')
         handle.write('{"text": "' + "x" * 30_000_000 + '"}\n')  # 30 MB on one line
         handle.write('{"text": "after"}\n')
-    tracemalloc.start()
-    docs, _, by_key = read(path, max_file_bytes=1_000_000)
-    _, peak = tracemalloc.get_traced_memory()
-    tracemalloc.stop()
-    assert [d.text for d in docs] == ["before", "after"]
-    assert by_key["huge.jsonl#line 2"].reason == (
-        "line 2: record too large: more than 1,000,000 bytes (raise --max-file-bytes)"
-    )
-    assert peak < 10_000_000
+    _passed_over_without_being_held(read, path, "line 2")
 
 
 def test_text_longer_than_the_text_limit_is_cut_as_in_a_file_read_whole(write_corpus, read):
@@ -209,29 +234,6 @@ def _compare(data: bytes, fmt: str) -> None:
     assert streamed == whole
 
 
-def _json_array(count: int, long_at: int) -> str:
-    items = []
-    for n in range(1, count + 1):
-        words = "a long account of the harbour " * 200 if n == long_at else f"the harbour on day {n}"
-        items.append({"id": f"d{n}", "text": words, "tags": ["]", "}", '"quoted"', {"x": [n]}]})
-    return json.dumps(items, indent=1)
-
-
-def test_a_json_array_larger_than_the_limit_is_read_item_by_item(write_corpus, read, monkeypatch):
-    import dedup.ingest.record_stream as record_stream
-
-    monkeypatch.setattr(record_stream, "_CHUNK", 97)  # pieces that cut items, strings and escapes
-    content = _json_array(120, long_at=33)
-    assert len(content) > 20_000
-    root = write_corpus({"items.json": content})
-    docs, ledger, by_key = read(root, max_file_bytes=2_000, id_field="id")
-    assert [d.id for d in docs] == [f"items.json#d{n}" for n in range(1, 121) if n != 33]
-    assert by_key["items.json#item 33"].status == "skipped"
-    assert by_key["items.json#item 33"].reason == f"item 33: {TOO_LARGE}"
-    assert docs[40].text == "the harbour on day 42" and docs[40].record == "item 42"
-    assert len(ledger) == 120
-
-
 def test_a_json_item_longer_than_the_limit_is_passed_over_without_being_held(tmp_path, read):
     path = tmp_path / "huge.json"
     with open(path, "w", encoding="utf-8") as handle:
@@ -240,15 +242,7 @@ def test_a_json_item_longer_than_the_limit_is_passed_over_without_being_held(tmp
             '{"text": "' + 'x \\" ] } [ { , ' * 3_000_000 + '", "more": [[1], {"a": "]"}]},\n'
         )  # 45 MB
         handle.write('{"text": "after"}]\n')
-    tracemalloc.start()
-    docs, _, by_key = read(path, max_file_bytes=1_000_000)
-    _, peak = tracemalloc.get_traced_memory()
-    tracemalloc.stop()
-    assert [d.text for d in docs] == ["before", "after"]
-    assert by_key["huge.json#item 2"].reason == (
-        "item 2: record too large: more than 1,000,000 bytes (raise --max-file-bytes)"
-    )
-    assert peak < 10_000_000
+    _passed_over_without_being_held(read, path, "item 2")
 
 
 def test_bytes_not_in_the_encoding_end_a_large_json_file_with_the_reason(write_corpus, read):
@@ -309,13 +303,7 @@ def test_a_message_longer_than_the_limit_is_passed_over_without_being_held(tmp_p
         handle.write(_message(1, "before"))
         handle.write(_message(2, ("x" * 70 + "\n") * 400_000 + "y" * 3_000_000))  # 31 MB
         handle.write(_message(3, "after"))
-    tracemalloc.start()
-    docs, _, by_key = read(path, max_file_bytes=1_000_000)
-    _, peak = tracemalloc.get_traced_memory()
-    tracemalloc.stop()
-    assert [d.text for d in docs] == ["before", "after"]
-    assert by_key["huge.mbox#message 2"].reason.startswith("message 2: record too large")
-    assert peak < 10_000_000
+    _passed_over_without_being_held(read, path, "message 2")
 
 
 def test_a_large_file_that_is_no_mailbox_is_skipped_as_when_read_whole(write_corpus, read):
